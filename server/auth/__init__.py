@@ -1,0 +1,1 @@
+"""Who is asking: password hashes, the signed session, CSRF tokens, role checks."""

@@ -1,0 +1,130 @@
+"""The ``claybench`` command: serve, demo, migrate, create-user, calc."""
+
+from __future__ import annotations
+
+import argparse
+import getpass
+import json
+import os
+import sys
+from typing import Any
+
+from server.config import get_settings
+
+
+def _serve(host: str, port: int) -> None:
+    import uvicorn
+
+    uvicorn.run("server.main:create_app", factory=True, host=host, port=port, proxy_headers=True)
+
+
+def cmd_serve(args: argparse.Namespace) -> int:
+    _serve(args.host, args.port)
+    return 0
+
+
+def cmd_migrate(args: argparse.Namespace) -> int:
+    from server.db.migrate import upgrade
+
+    upgrade(get_settings().database_url)
+    print("database schema is up to date")
+    return 0
+
+
+def cmd_create_user(args: argparse.Namespace) -> int:
+    from server.db.session import Database
+    from server.services.errors import ServiceError
+    from server.services.users import create_user
+
+    password = os.environ.get("CLAYBENCH_NEW_PASSWORD") or getpass.getpass("Password for the new user: ")
+    db = Database(get_settings().database_url)
+    try:
+        user = create_user(db, None, args.username, args.full_name or args.username, args.role, password)
+    except ServiceError as exc:
+        print(f"refused: {exc}", file=sys.stderr)
+        return 2
+    finally:
+        db.dispose()
+    print(f"created {user.role} {user.username!r}")
+    return 0
+
+
+def cmd_calc(args: argparse.Namespace) -> int:
+    """The calculation contract on the command line: JSON in, JSON out, exit 2 when refused."""
+    from server.services.calculations import calculate
+    from server.services.errors import Invalid
+
+    raw = open(args.file, encoding="utf-8").read() if args.file else sys.stdin.read()
+    try:
+        request: Any = json.loads(raw)
+    except json.JSONDecodeError as exc:
+        json.dump({"detail": [{"loc": ["body"], "msg": f"not valid JSON: {exc}", "type": "invalid"}]}, sys.stdout)
+        print()
+        return 2
+    if not isinstance(request, dict) or not isinstance(request.get("method"), str):
+        json.dump({"detail": [{"loc": ["method"], "msg": "a JSON object with a method id is required",
+                               "type": "missing"}]}, sys.stdout)
+        print()
+        return 2
+    try:
+        out = calculate(request["method"], request.get("readings"))
+    except Invalid as exc:
+        json.dump({"detail": [e.to_dict() for e in exc.errors]}, sys.stdout, indent=2)
+        print()
+        return 2
+    json.dump(out, sys.stdout, indent=2)
+    print()
+    return 0
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from server.demo import load_demo
+
+    settings = get_settings()
+    info = load_demo(settings, reset=not args.keep)
+    print(info.summary())
+    if args.no_serve:
+        return 0
+    _serve(args.host, args.port)
+    return 0
+
+
+def parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="claybench", description="Index testing for a soils laboratory.")
+    sub = p.add_subparsers(dest="command", required=True)
+
+    s = sub.add_parser("serve", help="run the web app")
+    s.add_argument("--host", default="127.0.0.1")
+    s.add_argument("--port", type=int, default=8000)
+    s.set_defaults(fn=cmd_serve)
+
+    d = sub.add_parser("demo", help="create a demo database with a fictional job, then serve it")
+    d.add_argument("--host", default="127.0.0.1")
+    d.add_argument("--port", type=int, default=8000)
+    d.add_argument("--keep", action="store_true", help="keep an existing demo database instead of starting afresh")
+    d.add_argument("--no-serve", action="store_true", help="load the demo data and stop")
+    d.set_defaults(fn=cmd_demo)
+
+    m = sub.add_parser("migrate", help="bring the database schema up to date")
+    m.set_defaults(fn=cmd_migrate)
+
+    u = sub.add_parser("create-user", help="add a user (password from CLAYBENCH_NEW_PASSWORD or a prompt)")
+    u.add_argument("username")
+    u.add_argument("--role", required=True, choices=["technician", "reviewer", "admin"])
+    u.add_argument("--full-name", default="")
+    u.set_defaults(fn=cmd_create_user)
+
+    c = sub.add_parser("calc", help="compute a method's results: request JSON on stdin or in FILE")
+    c.add_argument("file", nargs="?")
+    c.set_defaults(fn=cmd_calc)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = parser().parse_args(argv)
+    code: int = args.fn(args)
+    return code
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

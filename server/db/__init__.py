@@ -1,0 +1,1 @@
+"""Persistence: tables, the database connection, write transactions and queries."""

@@ -1,0 +1,165 @@
+"""Queries the pages and services share. Each page needs a fixed number of queries, whatever
+the number of rows (no query per row)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from sqlalchemy import func, update
+from sqlalchemy.orm import defer
+from sqlmodel import Session, col, select
+
+from server.db.tables import (
+    AuditEvent,
+    Client,
+    Job,
+    LabTest,
+    Location,
+    Report,
+    Sample,
+    ShareLink,
+    User,
+    utcnow,
+)
+
+
+def bump_test(session: Session, test: LabTest, expected_version: int, **values: Any) -> bool:
+    """Change a test only if nobody changed it since ``expected_version`` (optimistic lock).
+
+    Returns False, changing nothing, when the stored version differs. On success the loaded
+    object is refreshed so the caller sees the new version.
+    """
+    values = {**values, "version": expected_version + 1, "updated_at": utcnow()}
+    result = session.execute(
+        update(LabTest)
+        .where(col(LabTest.id) == test.id, col(LabTest.version) == expected_version)
+        .values(**values)
+        .execution_options(synchronize_session=False)
+    )
+    if result.rowcount != 1:  # type: ignore[attr-defined]
+        return False
+    session.refresh(test)
+    return True
+
+
+def readings_authors(session: Session, test_id: int) -> set[int]:
+    """Everyone who entered or changed readings of this test revision (from the audit trail)."""
+    rows = session.exec(
+        select(AuditEvent.actor_id).where(
+            AuditEvent.entity == "lab_test", AuditEvent.entity_id == test_id,
+            col(AuditEvent.action).in_(["readings", "amend"]),
+        )
+    ).all()
+    return {r for r in rows if r is not None}
+
+
+@dataclass
+class TestRow:
+    """A test with the names a list shows beside it."""
+
+    test: LabTest
+    sample: Sample
+    location: Location
+    job: Job
+
+
+def test_rows(session: Session, *conditions: Any, order: Sequence[Any] = ()) -> list[TestRow]:
+    """Tests with their sample, location and job, in one query."""
+    stmt = (
+        select(LabTest, Sample, Location, Job)
+        .join(Sample, col(Sample.id) == LabTest.sample_id)
+        .join(Location, col(Location.id) == Sample.location_id)
+        .join(Job, col(Job.id) == Location.job_id)
+        .where(*conditions)
+        .order_by(*order)
+    )
+    return [TestRow(t, s, loc, j) for t, s, loc, j in session.exec(stmt).all()]
+
+
+def current_tests(session: Session, job_id: int) -> list[TestRow]:
+    """Every test of a job that is not superseded, ordered by location, depth and method."""
+    return test_rows(
+        session,
+        col(Job.id) == job_id,
+        col(LabTest.status) != "superseded",
+        order=(col(Location.code), col(Sample.depth_from_m), col(LabTest.method)),
+    )
+
+
+def jobs_with_counts(session: Session) -> list[tuple[Job, str, int, int]]:
+    """Jobs with client name, number of samples and of issued reports (two queries)."""
+    samples = (
+        select(Location.job_id, func.count(col(Sample.id)).label("n"))
+        .join(Sample, col(Sample.location_id) == Location.id)
+        .group_by(col(Location.job_id))
+        .subquery()
+    )
+    reports = (
+        select(Report.job_id, func.count(col(Report.id)).label("n"))
+        .where(Report.status == "issued")
+        .group_by(col(Report.job_id))
+        .subquery()
+    )
+    stmt = (
+        select(Job, Client.name, func.coalesce(samples.c.n, 0), func.coalesce(reports.c.n, 0))
+        .join(Client, col(Client.id) == Job.client_id)
+        .outerjoin(samples, samples.c.job_id == Job.id)
+        .outerjoin(reports, reports.c.job_id == Job.id)
+        .order_by(col(Job.code))
+    )
+    return [(j, c, int(s), int(r)) for j, c, s, r in session.exec(stmt).all()]
+
+
+def users_by_id(session: Session, ids: Iterable[int | None]) -> dict[int, User]:
+    wanted = {i for i in ids if i is not None}
+    if not wanted:
+        return {}
+    return {u.id: u for u in session.exec(select(User).where(col(User.id).in_(wanted))).all() if u.id}
+
+
+def job_reports(session: Session, job_id: int) -> list[Report]:
+    """A job's reports, current ones first, newest first (the PDF bytes are not loaded)."""
+    stmt = (
+        select(Report)
+        .where(Report.job_id == job_id)
+        .options(defer(Report.pdf))  # type: ignore[arg-type]
+        .order_by(col(Report.status), col(Report.number).desc(), col(Report.revision).desc())
+    )
+    return list(session.exec(stmt).all())
+
+
+@dataclass
+class JobSheet:
+    """Everything the job page shows, loaded in a fixed number of queries."""
+
+    job: Job
+    client: Client
+    locations: list[Location]
+    samples: dict[int, list[Sample]]  # by location id
+    tests: dict[int, list[LabTest]]  # by sample id, current revisions only
+    reports: list[Report]
+    links: list[ShareLink]
+
+
+def job_sheet(session: Session, job_id: int) -> JobSheet | None:
+    job = session.get(Job, job_id)
+    if job is None:
+        return None
+    client = session.get(Client, job.client_id)
+    assert client is not None
+    locations = list(session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code))))
+    samples: dict[int, list[Sample]] = {loc.id or 0: [] for loc in locations}
+    for sample in session.exec(
+        select(Sample).join(Location, col(Location.id) == Sample.location_id)
+        .where(Location.job_id == job_id).order_by(col(Sample.depth_from_m), col(Sample.code))
+    ):
+        samples[sample.location_id].append(sample)
+    tests: dict[int, list[LabTest]] = {}
+    for row in current_tests(session, job_id):
+        tests.setdefault(row.sample.id or 0, []).append(row.test)
+    links = list(session.exec(
+        select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
+    ))
+    return JobSheet(job, client, locations, samples, tests, job_reports(session, job_id), links)

@@ -1,0 +1,237 @@
+"""The database tables (SQLModel), one class per record the laboratory keeps.
+
+Client -> Job -> Location -> Sample -> LabTest (one method on one sample, one row per
+revision) -> readings and results (JSON, as the calculation contract defines them). Reports
+gather approved test revisions; share links give clients access to a job's issued reports;
+audit events record every change and are never updated or deleted.
+
+Schema changes go through the Alembic migrations in migrations/, never ``create_all``.
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, date, datetime
+from typing import Any
+
+import sqlalchemy as sa
+from sqlalchemy.dialects.postgresql import JSONB
+from sqlmodel import Field, SQLModel
+
+# Constraint names that Alembic can address on every backend (batch mode on SQLite needs them).
+SQLModel.metadata.naming_convention = {
+    "ix": "ix_%(column_0_label)s",
+    "uq": "uq_%(table_name)s_%(column_0_name)s",
+    "ck": "ck_%(table_name)s_%(constraint_name)s",
+    "fk": "fk_%(table_name)s_%(column_0_name)s_%(referred_table_name)s",
+    "pk": "pk_%(table_name)s",
+}
+
+
+class UTCDateTime(sa.TypeDecorator[datetime]):
+    """A timestamp stored as naive UTC and always handed back timezone-aware.
+
+    SQLite keeps no time zone, PostgreSQL does; storing UTC everywhere and attaching the zone
+    on the way out makes comparisons (link expiry, turnaround) behave the same on both.
+    """
+
+    impl = sa.DateTime
+    cache_ok = True
+
+    def process_bind_param(self, value: datetime | None, dialect: sa.Dialect) -> datetime | None:
+        if value is None:
+            return None
+        if value.tzinfo is None:
+            raise ValueError("timestamps must be timezone-aware")
+        return value.astimezone(UTC).replace(tzinfo=None)
+
+    def process_result_value(self, value: datetime | None, dialect: sa.Dialect) -> datetime | None:
+        return None if value is None else value.replace(tzinfo=UTC)
+
+
+JSONType = sa.JSON().with_variant(JSONB(), "postgresql")
+
+
+def utcnow() -> datetime:
+    return datetime.now(UTC)
+
+
+def _json(nullable: bool = True) -> Any:
+    return Field(default=None, sa_type=JSONType, nullable=nullable)
+
+
+class User(SQLModel, table=True):
+    """A person who signs in. Never deleted: a deactivated user's signatures stay valid."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    username: str = Field(max_length=64, unique=True, index=True)
+    full_name: str = Field(max_length=200)
+    role: str = Field(max_length=16)  # a server.workflow.states.Role value
+    password_hash: str = Field(max_length=255)
+    active: bool = True
+    session_version: int = 1
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class Laboratory(SQLModel, table=True):
+    """The laboratory's details printed on every report (one row)."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    name: str = Field(max_length=200)
+    address: str = Field(default="", max_length=500)
+    accreditation: str = Field(default="", max_length=200)
+
+
+class Client(SQLModel, table=True):
+    id: int | None = Field(default=None, primary_key=True)
+    name: str = Field(max_length=200, unique=True)
+    contact: str = Field(default="", max_length=200)
+
+
+class Job(SQLModel, table=True):
+    """A commission from a client: a site, its samples, a due date."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=32, unique=True, index=True)
+    title: str = Field(max_length=200)
+    site: str = Field(default="", max_length=200)
+    client_id: int = Field(foreign_key="client.id", index=True)
+    due_date: date | None = None
+    received_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class Location(SQLModel, table=True):
+    """A borehole or trial pit of a job."""
+
+    __table_args__ = (sa.UniqueConstraint("job_id", "code", name="uq_location_job_code"),)
+
+    id: int | None = Field(default=None, primary_key=True)
+    job_id: int = Field(foreign_key="job.id", index=True)
+    code: str = Field(max_length=32)
+    kind: str = Field(default="borehole", max_length=32)
+
+
+class Sample(SQLModel, table=True):
+    """A sample from a location, identified by its code and depth range (m below ground)."""
+
+    __table_args__ = (
+        sa.UniqueConstraint("location_id", "code", name="uq_sample_location_code"),
+        sa.CheckConstraint("depth_to_m >= depth_from_m", name="depth_order"),
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    location_id: int = Field(foreign_key="location.id", index=True)
+    code: str = Field(max_length=32)
+    depth_from_m: float
+    depth_to_m: float
+    sample_type: str = Field(default="disturbed", max_length=32)
+    description: str = Field(default="", max_length=1000)
+    received_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class LabTest(SQLModel, table=True):
+    """One method on one sample, one row per revision.
+
+    ``version`` is the optimistic lock: every change bumps it, and a change made against a
+    stale version is refused instead of silently overwriting another person's work.
+    An amendment leaves the approved row as it was (status ``superseded``) and opens a new row
+    with ``revision + 1`` pointing back through ``previous_revision_id``.
+    """
+
+    __tablename__ = "lab_test"
+
+    id: int | None = Field(default=None, primary_key=True)
+    sample_id: int = Field(foreign_key="sample.id", index=True)
+    method: str = Field(max_length=40)
+    status: str = Field(max_length=16, index=True)
+    revision: int = 1
+    previous_revision_id: int | None = Field(default=None, foreign_key="lab_test.id")
+    amendment_reason: str | None = Field(default=None, max_length=1000)
+    version: int = 1
+    readings: dict[str, Any] | None = _json()
+    results: dict[str, Any] | None = _json()
+    flags: list[dict[str, Any]] | None = _json()
+    requested_by_id: int | None = Field(default=None, foreign_key="user.id")
+    assigned_to_id: int | None = Field(default=None, foreign_key="user.id")
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    updated_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    approved_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    approved_by_id: int | None = Field(default=None, foreign_key="user.id")
+    approver_role: str | None = Field(default=None, max_length=16)
+    signature_meaning: str | None = Field(default=None, max_length=300)
+    return_reason: str | None = Field(default=None, max_length=1000)
+
+
+class Report(SQLModel, table=True):
+    """An issued report revision: a frozen PDF, its SHA-256, never re-rendered or deleted."""
+
+    __table_args__ = (sa.UniqueConstraint("number", "revision", name="uq_report_number_revision"),)
+
+    id: int | None = Field(default=None, primary_key=True)
+    job_id: int = Field(foreign_key="job.id", index=True)
+    number: str = Field(max_length=40, index=True)
+    revision: int = 1
+    status: str = Field(default="issued", max_length=16)
+    issued_at: datetime = Field(sa_type=UTCDateTime)
+    issued_by_id: int = Field(foreign_key="user.id")
+    sha256: str = Field(max_length=64, index=True)
+    fingerprint: str = Field(max_length=64)
+    pdf: bytes = Field(sa_type=sa.LargeBinary)
+    superseded_by_id: int | None = Field(default=None, foreign_key="report.id")
+
+
+class ReportTest(SQLModel, table=True):
+    """Which test revisions a report carries."""
+
+    __tablename__ = "report_test"
+
+    report_id: int = Field(foreign_key="report.id", primary_key=True)
+    test_id: int = Field(foreign_key="lab_test.id", primary_key=True)
+
+
+class ShareLink(SQLModel, table=True):
+    """A client's way in: only the SHA-256 of the random token is kept."""
+
+    __tablename__ = "share_link"
+
+    id: int | None = Field(default=None, primary_key=True)
+    job_id: int = Field(foreign_key="job.id", index=True)
+    token_hash: str = Field(max_length=64, unique=True, index=True)
+    label: str = Field(default="", max_length=200)
+    created_by_id: int = Field(foreign_key="user.id")
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    expires_at: datetime = Field(sa_type=UTCDateTime)
+    revoked_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+
+
+class LinkAccess(SQLModel, table=True):
+    """One use of a share link, kept so the laboratory can see who opened what."""
+
+    __tablename__ = "link_access"
+
+    id: int | None = Field(default=None, primary_key=True)
+    link_id: int = Field(foreign_key="share_link.id", index=True)
+    at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    path: str = Field(max_length=300)
+    outcome: str = Field(max_length=16)
+    remote_addr: str = Field(default="", max_length=64)
+    user_agent: str = Field(default="", max_length=300)
+
+
+class AuditEvent(SQLModel, table=True):
+    """An append-only record of one change: who, when, what, before, after, why."""
+
+    __tablename__ = "audit_event"
+
+    id: int | None = Field(default=None, primary_key=True)
+    at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime, index=True)
+    actor_id: int | None = Field(default=None, foreign_key="user.id")
+    actor: str = Field(max_length=64)
+    entity: str = Field(max_length=32)
+    entity_id: int
+    action: str = Field(max_length=32)
+    before: dict[str, Any] | None = _json()
+    after: dict[str, Any] | None = _json()
+    reason: str | None = Field(default=None, max_length=1000)
+
+    __table_args__ = (sa.Index("ix_audit_event_entity", "entity", "entity_id"),)

@@ -1,0 +1,466 @@
+"""Soil classification: USCS group symbol and name (ASTM D2487-17), AASHTO group and group index (M 145).
+
+Pure functions that the ``classification`` method, the Atterberg method and the reports share.
+Inputs are percentages by dry mass (of the material finer than 75 mm) and water contents in %:
+
+- ``fines``: passing the 75 µm (No. 200) sieve; ``sand``: 4.75 mm to 75 µm; ``gravel``: 75 mm to
+  4.75 mm (ASTM D2487 cl. 3 terminology, from memory).
+- ``ll``/``pi``: liquid limit and plasticity index as the caller reports them; the functions
+  classify the numbers they are given and do not round them (the Atterberg method passes its
+  reported whole-number limits, REFERENCES.md "Indices").
+
+USCS, ASTM D2487-17 (REFERENCES.md "Classification"; Table 1 and Figs. 1a, 1b, 4 from memory):
+
+- fine-grained when 50 % or more passes 75 µm, else coarse-grained;
+- fine-grained symbol from the plasticity chart (``plasticity_chart.chart_symbol``): on or above
+  the A-line CL (PI > 7), CL-ML (4 <= PI <= 7), else ML; LL >= 50 CH or MH. Organic (OL, OH)
+  when LL(oven-dried) / LL(not dried) < 0.75, wherever the point plots (Fig. 1a tests it first);
+  named "organic clay" on or above the A-line (PI >= 4), "organic silt" below;
+- coarse-grained: gravel when gravel > sand (more than half the coarse fraction retained on
+  4.75 mm), else sand; fines < 5 % clean (W or P), 5 to 12 % dual symbols, > 12 % M, C, or C-M
+  for CL-ML fines; well graded when Cu >= 4 (gravel) or >= 6 (sand) and 1 <= Cc <= 3;
+- group names by the % retained on 75 µm: < 15 none; 15 to 29 "with sand" (sand >= gravel) or
+  "with gravel"; >= 30 "sandy"/"gravelly", plus "with gravel"/"with sand" when the other coarse
+  fraction is >= 15 %; coarse soils add "with sand"/"with gravel" at >= 15 % of the other;
+  organic fines in a coarse soil add "with organic fines";
+- nonplastic fines (no PL, or PL >= LL, ASTM D4318) classify as ML: a nonplastic fine soil is a
+  silt, a coarse soil with nonplastic fines is GM or SM (common practice);
+- peat (PT) is identified by eye (ASTM D2487 cl. 1 and D2488): a flag the caller passes.
+
+AASHTO M 145 (REFERENCES.md "Classification"; Table 2 read left to right, A-3 placed before A-2):
+groups from the % passing 2 mm, 425 µm and 75 µm and the limits of the fraction passing 425 µm;
+group index GI = (F - 35)[0.2 + 0.005 (LL - 40)] + 0.01 (F - 15)(PI - 10), only the second term
+for A-2-6 and A-2-7, zero for A-1-a, A-1-b, A-3, A-2-4 and A-2-5, zero when negative, rounded
+half up to a whole number. Table limits such as "40 max"/"41 min" are read as LL <= 40 / LL > 40.
+
+A function that lacks an input its rule needs raises ``MissingInput`` naming the inputs, so a
+method can turn it into a field-level refusal or a flag.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from server.engine.plasticity_chart import chart_symbol, on_or_above_a_line
+from server.engine.rounding import round_half_up
+
+# --- ASTM D2487 thresholds (REFERENCES.md "Classification") -------------------------------------
+FINE_GRAINED_MIN_FINES = 50.0  # % passing 75 µm: fine-grained "50 % or more passes"
+CLEAN_MAX_FINES = 5.0  # below 5 % fines: clean gravel or sand
+DUAL_MAX_FINES = 12.0  # 5 to 12 % fines: dual symbols; above 12 %: GM, GC, SM, SC
+HIGH_LL = 50.0  # LL >= 50: CH, MH, OH
+ORGANIC_LL_RATIO = 0.75  # LL(oven-dried) / LL(not dried) below this: organic
+MINOR_FRACTION = 15.0  # % at and above which a second coarse fraction is named ("with sand")
+MAJOR_COARSE = 30.0  # % retained on 75 µm at and above which a fine soil is "sandy"/"gravelly"
+WELL_GRADED_CU = {"G": 4.0, "S": 6.0}
+WELL_GRADED_CC = (1.0, 3.0)
+
+# --- AASHTO M 145 Table 2 -------------------------------------------------------------------------
+GRANULAR_MAX_FINES = 35.0
+ZERO_GI_GROUPS = frozenset({"A-1-a", "A-1-b", "A-3", "A-2-4", "A-2-5"})
+PI_TERM_ONLY_GROUPS = frozenset({"A-2-6", "A-2-7"})
+
+# --- borderline symbols (ASTM D2487 Note 1) ---------------------------------------------------------
+# How close a result must be to another group's boundary for a borderline symbol. Our choice,
+# near the single-operator d2s of D4318 for the limits (LL 2.4, PL 2.6, REFERENCES.md, from memory)
+# and a sieve-washing repeatability of about 1 % for the fractions (common practice).
+BORDERLINE_LIMITS = 2.0
+BORDERLINE_FRACTIONS = 1.0
+
+FINE_NAMES = {
+    "CL": "lean clay",
+    "CL-ML": "silty clay",
+    "ML": "silt",
+    "CH": "fat clay",
+    "MH": "elastic silt",
+}
+FINE_SYMBOLS = frozenset({"CL", "CL-ML", "ML", "CH", "MH", "OL", "OH", "PT"})
+
+
+class MissingInput(ValueError):
+    """A rule needs an input that was not given; ``fields`` names it (readings keys)."""
+
+    def __init__(self, fields: tuple[str, ...], message: str):
+        self.fields = fields
+        super().__init__(message)
+
+
+@dataclass(frozen=True)
+class Uscs:
+    """A USCS group: symbol (``CL``, ``SW-SM``) and group name (``Sandy lean clay``)."""
+
+    symbol: str
+    name: str
+
+
+@dataclass(frozen=True)
+class Aashto:
+    """An AASHTO group (``A-7-5``) and its group index, a whole number (M 145)."""
+
+    group: str
+    group_index: int
+
+    @property
+    def label(self) -> str:
+        """The group as written on a report, for example ``A-7-5 (10)``."""
+        return f"{self.group} ({self.group_index})"
+
+
+# ==================================================================================================
+# USCS
+# ==================================================================================================
+
+
+def is_organic(ll: float | None, ll_oven_dried: float | None) -> bool:
+    """Organic when LL after oven-drying is below 0.75 of LL before (ASTM D2487 Fig. 1a)."""
+    if ll_oven_dried is None:
+        return False
+    if ll is None or ll <= 0.0:
+        raise MissingInput(("liquid_limit",), "the liquid limit (not dried) must go with the oven-dried one")
+    return ll_oven_dried / ll < ORGANIC_LL_RATIO
+
+
+def fines_symbol(ll: float | None, pi: float | None, *, nonplastic: bool = False) -> str:
+    """How the fines classify on the chart (ML, CL, CL-ML, MH, CH); nonplastic fines are ML.
+
+    Used for coarse soils, whose symbol follows the fines (ASTM D2487 Table 1: GM when the
+    fines classify as ML or MH, GC when CL or CH, GC-GM when CL-ML).
+    """
+    if nonplastic or pi is None or pi <= 0.0:
+        if not nonplastic and pi is None:
+            raise MissingInput(("liquid_limit", "plastic_limit"), "the limits of the fines are needed")
+        return "ML"
+    if ll is None:
+        raise MissingInput(("liquid_limit",), "the liquid limit is needed")
+    return chart_symbol(ll, pi)
+
+
+def _coarse_split(
+    fines: float, sand: float | None, gravel: float | None
+) -> tuple[float, float]:
+    """Sand and gravel, the missing one by difference from 100 % (they add up with the fines)."""
+    if sand is None and gravel is None:
+        raise MissingInput(("sand", "gravel"), "the sand and gravel percentages are needed")
+    if sand is None:
+        assert gravel is not None
+        sand = max(0.0, 100.0 - fines - gravel)
+    if gravel is None:
+        gravel = max(0.0, 100.0 - fines - sand)
+    return sand, gravel
+
+
+def _fine_name(base: str, plus_75um: float, sand: float | None, gravel: float | None) -> str:
+    """The group name of a fine-grained soil from its coarse part (ASTM D2487 Fig. 1a)."""
+    if plus_75um < MINOR_FRACTION:
+        return base[0].upper() + base[1:]
+    if sand is None or gravel is None:
+        raise MissingInput(("sand", "gravel"), "the sand and gravel percentages are needed to name it")
+    sandy = sand >= gravel
+    if plus_75um < MAJOR_COARSE:
+        name = f"{base} with sand" if sandy else f"{base} with gravel"
+    elif sandy:
+        name = f"sandy {base}" + (" with gravel" if gravel >= MINOR_FRACTION else "")
+    else:
+        name = f"gravelly {base}" + (" with sand" if sand >= MINOR_FRACTION else "")
+    return name[0].upper() + name[1:]
+
+
+def _fine_grained(
+    ll: float | None,
+    pi: float | None,
+    nonplastic: bool,
+    organic: bool,
+    fines: float | None,
+    sand: float | None,
+    gravel: float | None,
+) -> Uscs:
+    """Fine-grained soil (50 % or more fines, or fines not given): symbol from the chart."""
+    if nonplastic:
+        symbol = "ML"
+    else:
+        if ll is None or pi is None:
+            raise MissingInput(("liquid_limit", "plastic_limit"), "the liquid and plastic limits are needed")
+        symbol = chart_symbol(ll, pi)
+    if organic:
+        assert ll is not None
+        symbol = "OH" if ll >= HIGH_LL else "OL"
+        clay = not nonplastic and pi is not None and on_or_above_a_line(ll, pi)
+        base = "organic clay" if clay else "organic silt"
+    else:
+        base = FINE_NAMES[symbol]
+    if fines is None:
+        return Uscs(symbol, base[0].upper() + base[1:])
+    if sand is not None or gravel is not None:
+        sand, gravel = _coarse_split(fines, sand, gravel)
+    return Uscs(symbol, _fine_name(base, 100.0 - fines, sand, gravel))
+
+
+def well_graded(kind: str, cu: float, cc: float) -> bool:
+    """Well graded: Cu >= 4 for gravel or >= 6 for sand, and 1 <= Cc <= 3 (ASTM D2487 Table 1)."""
+    low, high = WELL_GRADED_CC
+    return cu >= WELL_GRADED_CU[kind] and low <= cc <= high
+
+
+def _coarse_grained(
+    ll: float | None,
+    pi: float | None,
+    nonplastic: bool,
+    organic: bool,
+    fines: float,
+    sand: float | None,
+    gravel: float | None,
+    cu: float | None,
+    cc: float | None,
+) -> Uscs:
+    """Coarse-grained soil (more than 50 % retained on 75 µm): ASTM D2487 Table 1 and Fig. 1b."""
+    sand, gravel = _coarse_split(fines, sand, gravel)
+    kind = "G" if gravel > sand else "S"
+    noun, other_noun, other = ("gravel", "sand", sand) if kind == "G" else ("sand", "gravel", gravel)
+    with_other = other >= MINOR_FRACTION
+
+    grade = ""
+    grade_word = ""
+    if fines <= DUAL_MAX_FINES:
+        if cu is None or cc is None:
+            raise MissingInput(("cu", "cc"), "Cu and Cc are needed to tell a well from a poorly graded soil")
+        well = well_graded(kind, cu, cc)
+        grade, grade_word = ("W", "Well-graded") if well else ("P", "Poorly graded")
+
+    if fines < CLEAN_MAX_FINES:
+        symbol = f"{kind}{grade}"
+        name = f"{grade_word} {noun}" + (f" with {other_noun}" if with_other else "")
+        return Uscs(symbol, name)
+
+    fines_type = fines_symbol(ll, pi, nonplastic=nonplastic)
+    silty = fines_type in ("ML", "MH")
+    if fines <= DUAL_MAX_FINES:
+        symbol = f"{kind}{grade}-{kind}{'M' if silty else 'C'}"
+        fines_word = "silt" if silty else ("silty clay" if fines_type == "CL-ML" else "clay")
+        name = f"{grade_word} {noun} with {fines_word}" + (f" and {other_noun}" if with_other else "")
+    else:
+        if fines_type == "CL-ML":
+            symbol, adjective = f"{kind}C-{kind}M", "Silty, clayey"
+        elif silty:
+            symbol, adjective = f"{kind}M", "Silty"
+        else:
+            symbol, adjective = f"{kind}C", "Clayey"
+        name = f"{adjective} {noun}" + (f" with {other_noun}" if with_other else "")
+    if organic:
+        name += " with organic fines"
+    return Uscs(symbol, name)
+
+
+def _limits(ll: float | None, pi: float | None, nonplastic: bool) -> tuple[float | None, bool]:
+    """PI as used, and whether the soil is nonplastic (PI <= 0 means PL >= LL: ASTM D4318 NP)."""
+    if nonplastic:
+        return None, True
+    if pi is not None and pi <= 0.0:
+        return None, True
+    return pi, False
+
+
+def uscs(
+    ll: float | None,
+    pi: float | None,
+    *,
+    nonplastic: bool = False,
+    fines: float | None = None,
+    sand: float | None = None,
+    gravel: float | None = None,
+    cu: float | None = None,
+    cc: float | None = None,
+    ll_oven_dried: float | None = None,
+    peat: bool = False,
+) -> Uscs:
+    """The USCS group symbol and name of a soil (ASTM D2487-17).
+
+    With ``fines`` None the soil is taken as fine-grained and classified from the chart alone,
+    without the sand or gravel part of the name. ``pi`` <= 0 is nonplastic. Raises
+    ``MissingInput`` when the rule that applies needs an input not given (the grading of a
+    clean or dual-symbol coarse soil, the sand and gravel split, the limits of the fines).
+    """
+    if peat:
+        return Uscs("PT", "Peat")
+    for value, key in ((fines, "fines"), (sand, "sand"), (gravel, "gravel")):
+        if value is not None and not 0.0 <= value <= 100.0:
+            raise ValueError(f"{key} must be a percentage from 0 to 100, not {value:g}")
+    pi, nonplastic = _limits(ll, pi, nonplastic)
+    organic = is_organic(ll, ll_oven_dried)
+    if fines is None or fines >= FINE_GRAINED_MIN_FINES:
+        return _fine_grained(ll, pi, nonplastic, organic, fines, sand, gravel)
+    return _coarse_grained(ll, pi, nonplastic, organic, fines, sand, gravel, cu, cc)
+
+
+def uscs_borderline(
+    ll: float | None,
+    pi: float | None,
+    *,
+    nonplastic: bool = False,
+    fines: float | None = None,
+    sand: float | None = None,
+    gravel: float | None = None,
+    cu: float | None = None,
+    cc: float | None = None,
+    ll_oven_dried: float | None = None,
+    peat: bool = False,
+) -> str | None:
+    """A borderline symbol such as ``CL/CH`` when the results sit close to another group, else None.
+
+    ASTM D2487 Note 1: when the test results show the soil is close to another group, two
+    symbols separated by a slash may be given, the first being the one the standard assigns (its
+    examples: CL/CH, GM/SM, SC/CL). "Close" is our choice: the symbol changes when the liquid
+    limit or the plasticity index moves by ``BORDERLINE_LIMITS`` (water content points), or the
+    fines or the gravel-sand split by ``BORDERLINE_FRACTIONS`` (percentage points).
+    """
+    if peat:
+        return None
+
+    def classify(ll_: float | None, pi_: float | None, fines_: float | None,
+                 sand_: float | None, gravel_: float | None) -> str:
+        return uscs(ll_, pi_, nonplastic=nonplastic, fines=fines_, sand=sand_, gravel=gravel_,
+                    cu=cu, cc=cc, ll_oven_dried=ll_oven_dried).symbol
+
+    main = classify(ll, pi, fines, sand, gravel)
+    t, f = BORDERLINE_LIMITS, BORDERLINE_FRACTIONS
+    trials: list[tuple[float | None, float | None, float | None, float | None, float | None]] = []
+    plastic = not nonplastic and pi is not None and pi > 0.0
+    for d in (-t, t):
+        if plastic and ll is not None:
+            trials.append((max(ll + d, 0.0), pi, fines, sand, gravel))
+        if plastic and pi is not None:
+            trials.append((ll, max(pi + d, 0.0), fines, sand, gravel))
+    if fines is not None:
+        split = None if sand is None and gravel is None else _coarse_split(fines, sand, gravel)
+        for d in (-f, f):
+            moved = min(max(fines + d, 0.0), 100.0)
+            if split is None:
+                trials.append((ll, pi, moved, None, None))
+                continue
+            s, g = split
+            scale = (100.0 - moved) / (s + g) if s + g > 0.0 else 0.0
+            trials.append((ll, pi, moved, s * scale, g * scale))
+            if 0.0 <= s + d and 0.0 <= g - d:
+                trials.append((ll, pi, fines, s + d, g - d))
+    others: list[str] = []
+    for trial in trials:
+        try:
+            symbol = classify(*trial)
+        except MissingInput:
+            continue
+        if symbol != main and symbol not in others:
+            others.append(symbol)
+    return "/".join([main, *others]) if others else None
+
+
+# ==================================================================================================
+# AASHTO
+# ==================================================================================================
+
+
+def group_index_value(fines: float, ll: float, pi: float, *, group: str | None = None) -> float:
+    """The group index before rounding and before negative values are set to zero (M 145).
+
+    GI = (F - 35)[0.2 + 0.005 (LL - 40)] + 0.01 (F - 15)(PI - 10); for A-2-6 and A-2-7 only the
+    second (plasticity index) term; for A-1-a, A-1-b, A-3, A-2-4 and A-2-5 zero. With ``group``
+    None the whole formula is used. The partial terms are not clipped (REFERENCES.md: the older
+    form that caps them is not the current one).
+    """
+    if group in ZERO_GI_GROUPS:
+        return 0.0
+    pi_term = 0.01 * (fines - 15.0) * (pi - 10.0)
+    if group in PI_TERM_ONLY_GROUPS:
+        return pi_term
+    return (fines - 35.0) * (0.2 + 0.005 * (ll - 40.0)) + pi_term
+
+
+def group_index(fines: float, ll: float, pi: float, *, group: str | None = None) -> int:
+    """The AASHTO group index: the M 145 formula for the group, zero when negative, half up."""
+    value = group_index_value(fines, ll, pi, group=group)
+    if value <= 0.0:
+        return 0
+    return int(round_half_up(value, 0))
+
+
+Tri = bool | None  # a criterion that holds, fails, or cannot be judged for want of an input
+
+
+def _all(*criteria: Tri) -> Tri:
+    if any(c is False for c in criteria):
+        return False
+    if any(c is None for c in criteria):
+        return None
+    return True
+
+
+def _at_most(value: float | None, limit: float) -> Tri:
+    return None if value is None else value <= limit
+
+
+def _above(value: float | None, limit: float) -> Tri:
+    return None if value is None else value > limit
+
+
+def aashto(
+    fines: float,
+    ll: float | None,
+    pi: float | None,
+    *,
+    passing_2mm: float | None = None,
+    passing_0425mm: float | None = None,
+    nonplastic: bool = False,
+) -> Aashto:
+    """The AASHTO M 145 group and group index, by left-to-right elimination in Table 2.
+
+    ``fines`` is the % passing 75 µm; ``passing_2mm`` and ``passing_0425mm`` are needed only when
+    an A-1 or A-3 group is still possible (PI <= 6, or nonplastic, with 25 % fines or less).
+    Nonplastic soils (or PI <= 0) are "NP": they meet the A-1 "PI 6 max" and the A-3 "NP"
+    criteria and count as PI 0 elsewhere; their liquid limit, when given, still places them
+    (common practice). Raises ``MissingInput`` when an undecided criterion needs an input.
+    """
+    if not 0.0 <= fines <= 100.0:
+        raise ValueError(f"fines must be a percentage from 0 to 100, not {fines:g}")
+    pi, nonplastic = _limits(ll, pi, nonplastic)
+    if not nonplastic and pi is None:
+        raise MissingInput(("plastic_limit",), "the plasticity index (or nonplastic) is needed")
+    p = 0.0 if nonplastic else pi
+    assert p is not None
+    p2, p0425 = passing_2mm, passing_0425mm
+    ll_low, ll_high = _at_most(ll, 40.0), _above(ll, 40.0)
+    silty, clayey = p <= 10.0, p > 10.0
+    granular = fines <= GRANULAR_MAX_FINES
+    criteria: list[tuple[str, Tri]] = [
+        ("A-1-a", _all(fines <= 15.0, _at_most(p2, 50.0), _at_most(p0425, 30.0), p <= 6.0)),
+        ("A-1-b", _all(fines <= 25.0, _at_most(p0425, 50.0), p <= 6.0)),
+        ("A-3", _all(fines <= 10.0, _above(p0425, 50.0), nonplastic)),
+        ("A-2-4", _all(granular, ll_low, silty)),
+        ("A-2-5", _all(granular, ll_high, silty)),
+        ("A-2-6", _all(granular, ll_low, clayey)),
+        ("A-2-7", _all(granular, ll_high, clayey)),
+        ("A-4", _all(ll_low, silty)),
+        ("A-5", _all(ll_high, silty)),
+        ("A-6", _all(ll_low, clayey)),
+        ("A-7-5", _all(ll_high, clayey, p <= (ll or 0.0) - 30.0)),
+        ("A-7-6", _all(ll_high, clayey)),
+    ]
+    for group, holds in criteria:
+        if holds is False:
+            continue
+        if holds is None:
+            raise MissingInput(*_missing_for(group, ll, p2, p0425))
+        gi = 0 if group in ZERO_GI_GROUPS else group_index(fines, ll or 0.0, p, group=group)
+        return Aashto(group, gi)
+    raise AssertionError("M 145 Table 2 has a group for every soil")  # pragma: no cover
+
+
+def _missing_for(
+    group: str, ll: float | None, p2: float | None, p0425: float | None
+) -> tuple[tuple[str, ...], str]:
+    """Which inputs kept ``group`` undecided, as readings keys and a sentence."""
+    fields: list[str] = []
+    if group in ("A-1-a", "A-1-b", "A-3"):
+        if p2 is None and group == "A-1-a":
+            fields.append("percent_passing_2mm")
+        if p0425 is None:
+            fields.append("percent_passing_0_425mm")
+        return tuple(fields), f"the % passing 2 mm and 0.425 mm are needed to tell {group} from A-2"
+    return ("liquid_limit",), f"the liquid limit is needed to place the soil in or next to {group}"

@@ -1,0 +1,61 @@
+"""The web application: wiring only (settings, database, middleware, routers, error pages)."""
+
+from __future__ import annotations
+
+from fastapi import FastAPI, Request
+from fastapi.responses import JSONResponse, RedirectResponse
+from fastapi.staticfiles import StaticFiles
+from sqlalchemy import text
+from starlette.middleware.sessions import SessionMiddleware
+from starlette.responses import Response
+
+from server import __version__
+from server.api import calculations as api_calculations
+from server.auth.sessions import CsrfRefused, RoleRequired, SignInRequired
+from server.config import ROOT, Settings, get_settings
+from server.db.session import Database
+from server.web import bench, client, jobs, review, signin
+from server.web.templating import render
+
+
+def create_app(settings: Settings | None = None, db: Database | None = None) -> FastAPI:
+    """Build the app for these settings; tests pass their own settings and database."""
+    settings = settings or get_settings()
+    app = FastAPI(title="Claybench", version=__version__,
+                  description="Index testing for a soils laboratory: calculations, bench, review, reports.")
+    app.state.settings = settings
+    app.state.db = db or Database(settings.database_url)
+    app.add_middleware(SessionMiddleware, secret_key=settings.resolved_secret_key(),
+                       session_cookie="claybench_session", max_age=settings.session_max_age_s,
+                       same_site="lax", https_only=settings.https_only_cookies)
+    app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
+    app.include_router(api_calculations.router)
+    for module in (signin, jobs, bench, review, client):
+        app.include_router(module.router)
+
+    @app.get("/healthz", include_in_schema=False)
+    def healthz(request: Request) -> JSONResponse:
+        try:
+            with request.app.state.db.session() as s:
+                s.exec(text("SELECT 1"))  # type: ignore[call-overload]
+        except Exception as exc:  # noqa: BLE001 - any database failure means "not healthy"
+            return JSONResponse({"status": "database unavailable", "error": type(exc).__name__}, status_code=503)
+        return JSONResponse({"status": "ok", "version": __version__})
+
+    @app.exception_handler(SignInRequired)
+    def _signin(request: Request, exc: SignInRequired) -> Response:
+        if request.url.path.startswith("/api/"):
+            return JSONResponse({"detail": "sign in required"}, status_code=401)
+        if request.headers.get("hx-request") == "true":
+            return Response(status_code=401, headers={"HX-Redirect": "/signin"})
+        return RedirectResponse(f"/signin?next={request.url.path}", status_code=303)
+
+    @app.exception_handler(RoleRequired)
+    def _role(request: Request, exc: RoleRequired) -> Response:
+        return render(request, "pages/refused.html", status_code=403, reason=str(exc))
+
+    @app.exception_handler(CsrfRefused)
+    def _csrf(request: Request, exc: CsrfRefused) -> Response:
+        return render(request, "pages/refused.html", status_code=403, reason=str(exc))
+
+    return app

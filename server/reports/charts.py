@@ -1,0 +1,563 @@
+"""Charts as small, deterministic SVG strings, for web pages and the PDF alike.
+
+Why our own module and not a plotting library: the report must be vector, the same input must
+give the same bytes (the PDF's SHA-256 is recorded), and every text must be escaped because
+sample labels are typed by users. So the module only formats numbers with fixed decimals,
+escapes every text it writes, and reads no clock, file or random source.
+
+One style for all charts: black lines on white, light grey grid, fixed pixel sizes, DejaVu
+Sans; series differ by marker shape and dash pattern, never by colour alone, so a chart reads
+the same on a black-and-white print.
+
+The soil lines come from the engine (``server.engine.plasticity_chart``), never restated here.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from html import escape
+
+from server.engine.plasticity_chart import a_line, u_line
+from server.engine.rounding import reported
+
+__all__ = [
+    "Axis",
+    "Series",
+    "flow_curve_svg",
+    "plasticity_chart_svg",
+    "xy_chart",
+]
+
+FONT = "DejaVu Sans, Liberation Sans, Arial, sans-serif"
+FONT_SIZE = 10.0
+SMALL = 8.5
+INK = "#000"
+GRID = "#c8c8c8"
+SHADE = "#e0e0e0"
+MARGIN_LEFT = 54.0
+MARGIN_RIGHT = 18.0
+MARGIN_TOP = 26.0
+MARGIN_BOTTOM = 46.0
+
+# ASTM D2487 Fig. 4 draws the U-line vertical at LL = 16 up to PI = 7, the A-line horizontal at
+# PI = 4 from there, and the hatched CL-ML band between PI = 4 and PI = 7 (confirmed, REFERENCES.md).
+U_LINE_VERTICAL_LL = 16.0
+CL_ML_BAND = (4.0, 7.0)
+HIGH_LIMIT_LL = 50.0
+
+
+def _n(value: float) -> str:
+    """A coordinate as fixed text: two decimals, trailing zeros dropped, never '-0'."""
+    text = f"{value:.2f}".rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+def _t(text: object) -> str:
+    """Escape any text written into the SVG (labels are untrusted)."""
+    return escape(str(text), quote=True)
+
+
+def _tick_text(value: float) -> str:
+    """A tick label: up to four significant decimals, no float noise (0.30000000000000004)."""
+    rounded = round(value, 6)
+    if rounded == 0:
+        return "0"
+    return f"{rounded:g}"
+
+
+# -- axes ---------------------------------------------------------------------------------
+
+
+def _nice_step(span: float, target: int = 6) -> float:
+    """A round step (1, 2, 2.5 or 5 times a power of ten) giving about ``target`` intervals."""
+    raw = span / target if span > 0 else 1.0
+    mag = 10.0 ** math.floor(math.log10(raw))
+    for m in (1.0, 2.0, 2.5, 5.0, 10.0):
+        if m * mag >= raw * (1 - 1e-9):
+            return m * mag
+    return 10.0 * mag  # pragma: no cover - the loop always returns
+
+
+def nice_range(lo: float, hi: float, target: int = 6) -> tuple[float, float, float]:
+    """Round ends enclosing [lo, hi] and the tick step between them."""
+    if hi < lo:
+        lo, hi = hi, lo
+    if hi - lo < 1e-9:
+        lo, hi = lo - 1.0, hi + 1.0
+    step = _nice_step(hi - lo, target)
+    return math.floor(lo / step + 1e-9) * step, math.ceil(hi / step - 1e-9) * step, step
+
+
+def _floor125(value: float) -> float:
+    k = math.floor(math.log10(value))
+    for m in (5.0, 2.0, 1.0):
+        if m * 10.0**k <= value * (1 + 1e-9):
+            return m * 10.0**k
+    return 10.0**k  # pragma: no cover
+
+
+def _ceil125(value: float) -> float:
+    k = math.floor(math.log10(value))
+    for m in (1.0, 2.0, 5.0, 10.0):
+        if m * 10.0**k >= value * (1 - 1e-9):
+            return m * 10.0**k
+    return 10.0 ** (k + 1)  # pragma: no cover
+
+
+def log_range(lo: float, hi: float) -> tuple[float, float]:
+    """Ends of a log axis on the 1-2-5 series enclosing [lo, hi] (both above zero)."""
+    a, b = _floor125(lo), _ceil125(hi)
+    if b / a < 2.0 - 1e-9:
+        b = _ceil125(a * 2.0)
+    return a, b
+
+
+@dataclass(frozen=True)
+class Axis:
+    """Maps data values to pixels along one direction, linear or logarithmic (base 10)."""
+
+    lo: float
+    hi: float
+    px_lo: float
+    px_hi: float
+    log: bool = False
+    step: float = 0.0
+
+    def _f(self, v: float) -> float:
+        return math.log10(v) if self.log else v
+
+    def to_px(self, value: float) -> float:
+        a, b = self._f(self.lo), self._f(self.hi)
+        return self.px_lo + (self._f(value) - a) / (b - a) * (self.px_hi - self.px_lo)
+
+    def contains(self, value: float) -> bool:
+        if self.log and value <= 0:
+            return False
+        return self.lo - 1e-9 <= value <= self.hi + 1e-9
+
+    def ticks(self) -> list[tuple[float, bool]]:
+        """(value, labelled) for every grid line, in increasing order."""
+        if not self.log:
+            count = round((self.hi - self.lo) / self.step)
+            return [(round(self.lo + i * self.step, 9), True) for i in range(count + 1)]
+        decades = math.log10(self.hi / self.lo)
+        if decades > 2.0 + 1e-9:
+            labelled: tuple[float, ...] = (1.0,)
+        elif decades > 1.0 + 1e-9:
+            labelled = (1.0, 2.0, 5.0)
+        else:
+            labelled = (1.0, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0)
+        out: list[tuple[float, bool]] = []
+        k = math.floor(math.log10(self.lo) + 1e-9)
+        while 10.0**k <= self.hi * (1 + 1e-9):
+            mantissas = sorted({1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0, *labelled})
+            for m in mantissas:
+                v = round(m * 10.0**k, 9)
+                if self.contains(v):
+                    out.append((v, m in labelled))
+            k += 1
+        return out
+
+
+def linear_axis(lo: float, hi: float, px_lo: float, px_hi: float, target: int = 6) -> Axis:
+    a, b, step = nice_range(lo, hi, target)
+    return Axis(a, b, px_lo, px_hi, False, step)
+
+
+def log_axis(lo: float, hi: float, px_lo: float, px_hi: float) -> Axis:
+    a, b = log_range(lo, hi)
+    return Axis(a, b, px_lo, px_hi, True)
+
+
+# -- drawing helpers ------------------------------------------------------------------------
+
+
+class _Svg:
+    """Collects SVG elements in order; every attribute value and text is escaped here."""
+
+    def __init__(self, width: float, height: float, title: str):
+        self.width = width
+        self.height = height
+        self.title = title
+        self.parts: list[str] = []
+
+    def add(self, tag: str, text: str | None = None, **attrs: object) -> None:
+        body = " ".join(f'{k.rstrip("_").replace("_", "-")}="{_t(v)}"' for k, v in attrs.items())
+        if text is None:
+            self.parts.append(f"<{tag} {body}/>")
+        else:
+            self.parts.append(f"<{tag} {body}>{_t(text)}</{tag}>")
+
+    def line(self, x1: float, y1: float, x2: float, y2: float, **attrs: object) -> None:
+        self.add("line", x1=_n(x1), y1=_n(y1), x2=_n(x2), y2=_n(y2), **attrs)
+
+    def polyline(self, points: Iterable[tuple[float, float]], **attrs: object) -> None:
+        pts = " ".join(f"{_n(x)},{_n(y)}" for x, y in points)
+        self.add("polyline", points=pts, fill="none", **attrs)
+
+    def text(self, x: float, y: float, text: str, **attrs: object) -> None:
+        self.add("text", text, x=_n(x), y=_n(y), **attrs)
+
+    def render(self) -> str:
+        w, h = _n(self.width), _n(self.height)
+        head = (
+            f'<svg xmlns="http://www.w3.org/2000/svg" width="{w}" height="{h}" viewBox="0 0 {w} {h}" '
+            f'role="img" aria-label="{_t(self.title)}" class="cb-chart" '
+            f'font-family="{_t(FONT)}" font-size="{_n(FONT_SIZE)}">'
+        )
+        return "".join([head, f"<title>{_t(self.title)}</title>", *self.parts, "</svg>"])
+
+
+def _marker(svg: _Svg, shape: str, x: float, y: float, size: float = 3.6) -> None:
+    """A point marker; shapes differ so series read apart in black and white."""
+    if shape == "circle":
+        svg.add("circle", cx=_n(x), cy=_n(y), r=_n(size), fill=INK, stroke=INK)
+    elif shape == "open-circle":
+        svg.add("circle", cx=_n(x), cy=_n(y), r=_n(size), fill="#fff", stroke=INK, stroke_width="1.2")
+    elif shape == "square":
+        s = size * 0.9
+        svg.add("rect", x=_n(x - s), y=_n(y - s), width=_n(2 * s), height=_n(2 * s), fill="#fff",
+                stroke=INK, stroke_width="1.2")
+    elif shape == "triangle":
+        s = size * 1.15
+        pts = f"{_n(x)},{_n(y - s)} {_n(x + s)},{_n(y + s * 0.8)} {_n(x - s)},{_n(y + s * 0.8)}"
+        svg.add("polygon", points=pts, fill="#fff", stroke=INK, stroke_width="1.2")
+    elif shape == "diamond":
+        s = size * 1.2
+        pts = f"{_n(x)},{_n(y - s)} {_n(x + s)},{_n(y)} {_n(x)},{_n(y + s)} {_n(x - s)},{_n(y)}"
+        svg.add("polygon", points=pts, fill=INK, stroke=INK)
+    elif shape == "cross":
+        s = size
+        svg.line(x - s, y - s, x + s, y + s, stroke=INK, stroke_width="1.4")
+        svg.line(x - s, y + s, x + s, y - s, stroke=INK, stroke_width="1.4")
+
+
+def _frame(svg: _Svg, xa: Axis, ya: Axis, x_label: str, y_label: str) -> None:
+    """Grid, tick labels, the plot border and the axis titles (with units)."""
+    left, right = xa.px_lo, xa.px_hi
+    bottom, top = ya.px_lo, ya.px_hi
+    for v, labelled in xa.ticks():
+        px = xa.to_px(v)
+        svg.line(px, top, px, bottom, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
+        if labelled:
+            svg.text(px, bottom + 13, _tick_text(v), text_anchor="middle", font_size=_n(SMALL))
+    for v, labelled in ya.ticks():
+        py = ya.to_px(v)
+        svg.line(left, py, right, py, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
+        if labelled:
+            svg.text(left - 5, py + 3, _tick_text(v), text_anchor="end", font_size=_n(SMALL))
+    svg.add("rect", x=_n(left), y=_n(top), width=_n(right - left), height=_n(bottom - top), fill="none",
+            stroke=INK, stroke_width="1")
+    svg.text((left + right) / 2, bottom + 32, x_label, text_anchor="middle")
+    cy = (top + bottom) / 2
+    svg.text(14, cy, y_label, text_anchor="middle", transform=f"rotate(-90 14 {_n(cy)})")
+
+
+def _box(width: float, height: float) -> tuple[float, float, float, float]:
+    """Plot area (left, right, bottom, top) in pixels for a chart of this size."""
+    return MARGIN_LEFT, width - MARGIN_RIGHT, height - MARGIN_BOTTOM, MARGIN_TOP
+
+
+def _num(value: object) -> float | None:
+    """A finite float from a result value, or None (bools and text are not numbers)."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return None
+    f = float(value)
+    return f if math.isfinite(f) else None
+
+
+# -- flow curve ---------------------------------------------------------------------------
+
+
+def flow_curve_svg(
+    trials: Sequence[Mapping[str, object]],
+    fit: Mapping[str, object] | None,
+    *,
+    width: float = 440.0,
+    height: float = 290.0,
+) -> str:
+    """The flow curve (cup: w against blows on a log axis) or cone curve (w against penetration).
+
+    ``trials`` are the engine's ``liquid_limit_trials`` rows ({"blows" or "penetration_mm",
+    "water_content"}); ``fit`` is its ``flow_curve`` ({"x", "log_x", "slope", "intercept", "r2",
+    "target_x"}), or None when no line was fitted (one-point method): then only the points show.
+    The line is w = intercept + slope * f(x), with f = log10 when ``log_x`` (ASTM D4318 Method A;
+    BS 1377-2:1990 cl. 4.3 for the cone), and the liquid limit is marked at ``target_x``
+    (25 blows; 20 mm for the 80 g cone).
+    """
+    x_key = "blows"
+    if fit is not None and fit.get("x") == "penetration_mm":
+        x_key = "penetration_mm"
+    elif any("penetration_mm" in t for t in trials):
+        x_key = "penetration_mm"
+    cone = x_key == "penetration_mm"
+    log_x = bool(fit.get("log_x", not cone)) if fit is not None else not cone
+
+    pts: list[tuple[float, float]] = []
+    for t in trials:
+        x, w = _num(t.get(x_key)), _num(t.get("water_content"))
+        if x is not None and w is not None and (x > 0 or not log_x):
+            pts.append((x, w))
+
+    slope = _num(fit.get("slope")) if fit is not None else None
+    intercept = _num(fit.get("intercept")) if fit is not None else None
+    target = _num(fit.get("target_x")) if fit is not None else None
+    line_ok = slope is not None and intercept is not None and target is not None and (target > 0 or not log_x)
+
+    def w_at(x: float) -> float:
+        assert slope is not None and intercept is not None
+        return intercept + slope * (math.log10(x) if log_x else x)
+
+    title = "Cone curve" if cone else "Flow curve"
+    svg = _Svg(width, height, title)
+    left, right, bottom, top = _box(width, height)
+
+    xs = [p[0] for p in pts]
+    if line_ok and target is not None:
+        xs.append(target)
+    if not xs:
+        xs = [20.0] if cone else [25.0]
+    if log_x:
+        xa = log_axis(min(xs), max(xs), left, right)
+    else:
+        xa = linear_axis(min(xs) - 1.0, max(xs) + 1.0, left, right)
+
+    # The fitted line spans the trials and the target, a little beyond each end.
+    span: tuple[float, float] | None = None
+    if line_ok:
+        lo_x, hi_x = min(xs), max(xs)
+        if log_x:
+            pad = (math.log10(hi_x) - math.log10(lo_x)) * 0.08 + 0.02
+            a, b = 10 ** (math.log10(lo_x) - pad), 10 ** (math.log10(hi_x) + pad)
+        else:
+            pad = (hi_x - lo_x) * 0.08 + 0.3
+            a, b = lo_x - pad, hi_x + pad
+        span = (max(a, xa.lo), min(b, xa.hi))
+
+    ws = [p[1] for p in pts]
+    if span is not None:
+        ws += [w_at(span[0]), w_at(span[1])]
+    if not ws:
+        ws = [0.0, 10.0]
+    ya = linear_axis(min(ws) - 0.5, max(ws) + 0.5, bottom, top, target=5)
+
+    x_label = "Cone penetration (mm)" if cone else "Number of blows, N"
+    if log_x:
+        x_label += " (log scale)"
+    _frame(svg, xa, ya, x_label, "Water content, w (%)")
+
+    if span is not None and target is not None:
+        ll = w_at(target)
+        tx, ty = xa.to_px(target), ya.to_px(ll)
+        ends = [(xa.to_px(x), ya.to_px(w_at(x))) for x in span]
+        svg.polyline(ends, stroke=INK, stroke_width="1.3", class_="fit")
+        svg.polyline([(tx, bottom), (tx, ty), (left, ty)], stroke=INK, stroke_width="0.9",
+                     stroke_dasharray="4 3", class_="ll-marker")
+        at = f"{_tick_text(target)} mm" if cone else f"N = {_tick_text(target)}"
+        svg.text(tx + 5, ty - 6, f"LL = {reported('liquid_limit', ll)} at {at}", font_size=_n(SMALL),
+                 class_="ll-label")
+        r2 = _num(fit.get("r2")) if fit is not None else None
+        if r2 is not None:
+            svg.text(right - 4, top + 12, f"fitted line, r\u00b2 = {r2:.3f}", text_anchor="end",
+                     font_size=_n(SMALL))
+    for x, w in pts:
+        _marker(svg, "circle", xa.to_px(x), ya.to_px(w))
+    if not pts:
+        svg.text((left + right) / 2, (top + bottom) / 2, "no trials to plot", text_anchor="middle")
+    svg.text(left, top - 9, title, font_weight="bold")
+    return svg.render()
+
+
+# -- plasticity chart -------------------------------------------------------------------------
+
+
+def _solve(f: Callable[[float], float], y: float, x1: float, x2: float) -> float:
+    """The x where a straight-line f reaches y, from two samples on that straight part."""
+    y1, y2 = f(x1), f(x2)
+    return x1 + (y - y1) * (x2 - x1) / (y2 - y1)
+
+
+def a_line_break() -> float:
+    """The LL where the A-line leaves its horizontal part (found on the engine's a_line)."""
+    floor = a_line(U_LINE_VERTICAL_LL)
+    lo, hi = U_LINE_VERTICAL_LL, 100.0
+    for _ in range(60):
+        mid = (lo + hi) / 2
+        if a_line(mid) > floor + 1e-12:
+            hi = mid
+        else:
+            lo = mid
+    return hi
+
+
+def _overlap(a: tuple[float, float, float, float], b: tuple[float, float, float, float]) -> float:
+    w = min(a[2], b[2]) - max(a[0], b[0])
+    h = min(a[3], b[3]) - max(a[1], b[1])
+    return w * h if w > 0 and h > 0 else 0.0
+
+
+def plasticity_chart_svg(
+    points: Sequence[tuple[str, float, float]],
+    *,
+    width: float = 560.0,
+    height: float = 370.0,
+) -> str:
+    """The plasticity chart of ASTM D2487 Fig. 4 with every (label, LL, PI) point plotted and labelled.
+
+    A-line and U-line come from ``server.engine.plasticity_chart``; the zones CL, CH, ML, MH and
+    the CL-ML band are named on the chart. The axes grow past LL 100 / PI 60 when a point needs it.
+    Labels are placed beside their point where they overlap least, in a fixed order of tries.
+    """
+    clean = [(str(lab), ll, pi) for lab, ll, pi in points
+             if _num(ll) is not None and _num(pi) is not None]
+    max_ll = max([100.0] + [ll + 8 for _, ll, _ in clean])
+    max_pi = max([60.0] + [pi + 6 for _, _, pi in clean])
+    svg = _Svg(width, height, "Plasticity chart")
+    left, right, bottom, top = _box(width, height)
+    xa = Axis(0.0, math.ceil(max_ll / 10) * 10, left, right, False, 10.0)
+    ya = Axis(0.0, math.ceil(max_pi / 10) * 10, bottom, top, False, 10.0)
+
+    def p(ll: float, pi: float) -> tuple[float, float]:
+        return xa.to_px(ll), ya.to_px(pi)
+
+    brk = a_line_break()
+    band_lo, band_hi = CL_ML_BAND
+    a_at_band_hi = _solve(a_line, band_hi, brk + 1, brk + 11)
+    band = [p(U_LINE_VERTICAL_LL, band_lo), p(U_LINE_VERTICAL_LL, band_hi), p(a_at_band_hi, band_hi),
+            p(brk, band_lo)]
+    svg.add("polygon", points=" ".join(f"{_n(x)},{_n(y)}" for x, y in band), fill=SHADE, stroke="none",
+            class_="cl-ml-band")
+    _frame(svg, xa, ya, "Liquid limit, LL", "Plasticity index, PI")
+
+    # A-line: horizontal from the U-line to its break, then straight to the chart's edge.
+    a_end = xa.hi if a_line(xa.hi) <= ya.hi else _solve(a_line, ya.hi, brk + 1, brk + 11)
+    a_pts = [p(x, a_line(x)) for x in (U_LINE_VERTICAL_LL, brk, a_end)]
+    svg.polyline(a_pts, stroke=INK, stroke_width="1.5", class_="a-line")
+    # U-line: vertical at LL 16, then along the engine's u_line to the chart's edge.
+    u_end = xa.hi if u_line(xa.hi) <= ya.hi else _solve(u_line, ya.hi, 20.0, 60.0)
+    svg.polyline([p(U_LINE_VERTICAL_LL, 0.0), p(U_LINE_VERTICAL_LL, u_line(U_LINE_VERTICAL_LL)),
+                  p(u_end, u_line(u_end))],
+                 stroke=INK, stroke_width="1.1", stroke_dasharray="7 4", class_="u-line")
+    x50 = xa.to_px(HIGH_LIMIT_LL)
+    svg.line(x50, bottom, x50, top, stroke=INK, stroke_width="0.8", stroke_dasharray="2 3", class_="ll-50")
+
+    zone_style = {"font_size": _n(FONT_SIZE + 1), "font_weight": "bold", "fill": "#444",
+                  "text_anchor": "middle", "class_": "zone"}
+    taken: list[tuple[float, float, float, float]] = []
+    for name, ll, pi in (("CL", 37.0, 19.0), ("CH", 72.0, 47.0), ("ML", 40.0, 6.0), ("MH", 77.0, 22.0)):
+        x, y = p(ll, pi)
+        svg.text(x, y, name, **zone_style)
+        taken.append((x - 10, y - 10, x + 10, y + 2))
+    x, y = p((U_LINE_VERTICAL_LL + brk) / 2 + 0.5, (band_lo + band_hi) / 2)
+    svg.text(x, y + 3, "CL-ML", text_anchor="middle", font_size=_n(SMALL - 1), fill="#222", class_="zone")
+    x, y = p(a_end - 6, a_line(a_end - 6))
+    svg.text(x, y + 14, "A-line", text_anchor="middle", font_size=_n(SMALL), font_style="italic")
+    x, y = p(_solve(u_line, ya.hi - 6, 20.0, 60.0), ya.hi - 6)
+    svg.text(x - 6, y, "U-line", text_anchor="end", font_size=_n(SMALL), font_style="italic")
+
+    marks = [(lab, *p(ll, pi)) for lab, ll, pi in clean]
+    for _, x, y in marks:
+        taken.append((x - 4, y - 4, x + 4, y + 4))
+    tries = ((7.0, 3.5, "start"), (-7.0, 3.5, "end"), (0.0, -7.0, "middle"), (0.0, 13.0, "middle"),
+             (6.0, -6.0, "start"), (-6.0, -6.0, "end"), (6.0, 12.0, "start"), (-6.0, 12.0, "end"))
+    for lab, x, y in marks:
+        svg.add("circle", cx=_n(x), cy=_n(y), r="3.4", fill="#fff", stroke=INK, stroke_width="1.3",
+                class_="point")
+        svg.add("circle", cx=_n(x), cy=_n(y), r="1.1", fill=INK, stroke="none")
+        w = len(lab) * SMALL * 0.6
+        best: tuple[float, tuple[float, float, float, float], tuple[float, float, str]] | None = None
+        for dx, dy, anchor in tries:
+            x0 = x + dx if anchor == "start" else x + dx - w if anchor == "end" else x + dx - w / 2
+            rect = (x0, y + dy - SMALL, x0 + w, y + dy + 1)
+            score = sum(_overlap(rect, r) for r in taken)
+            if rect[0] < left or rect[2] > right or rect[1] < top or rect[3] > bottom:
+                score += 1e4
+            if best is None or score < best[0] - 1e-9:
+                best = (score, rect, (dx, dy, anchor))
+        assert best is not None
+        _, rect, (dx, dy, anchor) = best
+        taken.append(rect)
+        svg.text(x + dx, y + dy, lab, text_anchor=anchor, font_size=_n(SMALL), class_="point-label")
+    svg.text(left, top - 9, "Plasticity chart (ASTM D2487)", font_weight="bold")
+    return svg.render()
+
+
+# -- generic xy chart --------------------------------------------------------------------------
+
+_SHAPES = ("circle", "open-circle", "square", "triangle", "diamond", "cross")
+_DASHES = ("", "6 3", "2 2", "8 3 2 3")
+
+
+@dataclass(frozen=True)
+class Series:
+    """One series of an xy chart; ``marker``/``dash`` default by position so series differ in B&W."""
+
+    label: str
+    points: Sequence[tuple[float, float]]
+    line: bool = True
+    marker: str | None = None
+    dash: str | None = None
+
+
+def xy_chart(
+    series: Sequence[Series],
+    *,
+    title: str,
+    x_label: str,
+    y_label: str,
+    x_log: bool = False,
+    x_range: tuple[float, float] | None = None,
+    y_range: tuple[float, float] | None = None,
+    width: float = 480.0,
+    height: float = 300.0,
+) -> str:
+    """A plain xy chart for later curves (grading with a log size axis, stress against strain).
+
+    Axis labels should carry units, e.g. "Particle size (mm)". Points that cannot be placed (a
+    non-positive value on a log axis, a non-finite value) are left out. A legend names each
+    series beside its marker and dash.
+    """
+    legend_h = 14.0 * len(series) if len(series) > 1 else 0.0
+    svg = _Svg(width, height + legend_h, title)
+    left, right, bottom, top = _box(width, height)
+    clean: list[list[tuple[float, float]]] = []
+    for s in series:
+        pts = []
+        for x, y in s.points:
+            fx, fy = _num(x), _num(y)
+            if fx is not None and fy is not None and (fx > 0 or not x_log):
+                pts.append((fx, fy))
+        clean.append(pts)
+    xs = [x for pts in clean for x, _ in pts] or ([1.0, 10.0] if x_log else [0.0, 1.0])
+    ys = [y for pts in clean for _, y in pts] or [0.0, 1.0]
+    xlo, xhi = x_range if x_range is not None else (min(xs), max(xs))
+    ylo, yhi = y_range if y_range is not None else (min(ys), max(ys))
+    xa = log_axis(xlo, xhi, left, right) if x_log else linear_axis(xlo, xhi, left, right)
+    ya = linear_axis(ylo, yhi, bottom, top, target=5)
+    _frame(svg, xa, ya, x_label, y_label)
+    for i, (s, pts) in enumerate(zip(series, clean, strict=True)):
+        shape = s.marker or _SHAPES[i % len(_SHAPES)]
+        dash = s.dash if s.dash is not None else _DASHES[i % len(_DASHES)]
+        placed = [(xa.to_px(x), ya.to_px(y)) for x, y in pts if xa.contains(x) and ya.contains(y)]
+        if s.line and len(placed) > 1:
+            attrs: dict[str, object] = {"stroke": INK, "stroke_width": "1.2", "class_": "series"}
+            if dash:
+                attrs["stroke_dasharray"] = dash
+            svg.polyline(placed, **attrs)
+        if shape != "none":
+            for x, y in placed:
+                _marker(svg, shape, x, y, 3.0)
+        if legend_h:
+            ly = height + 4 + 14.0 * i
+            attrs = {"stroke": INK, "stroke_width": "1.2"}
+            if dash:
+                attrs["stroke_dasharray"] = dash
+            if s.line:
+                svg.line(left, ly, left + 28, ly, **attrs)
+            if shape != "none":
+                _marker(svg, shape, left + 14, ly, 3.0)
+            svg.text(left + 36, ly + 3.5, s.label, font_size=_n(SMALL))
+    svg.text(left, top - 9, title, font_weight="bold")
+    return svg.render()

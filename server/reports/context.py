@@ -1,0 +1,624 @@
+"""What one certified report says, and the view a template shows of it (pure: no I/O).
+
+The service layer reads the database and builds a ``ReportData``; this module turns it into a
+``ReportView`` of ready-to-print text, so the template never computes. Values are rounded here,
+only for showing, by ``server.engine.rounding.reported`` (the rule each result key names); a
+missing value shows as "—", a limit of a non-plastic soil as "NP" (ASTM D4318: report NP when
+LL or PL cannot be determined or PL >= LL).
+
+Measured results and interpretation are kept apart: correlations go to their own list, printed
+under "Opinion and interpretation" (DESIGN.md section 5).
+
+``canonical_json`` / ``content_fingerprint`` give the SHA-256 of the report data itself. A
+PDF cannot print the hash of its own bytes, so every page prints this content fingerprint; the
+service stores the PDF's own SHA-256 beside it and the verify page accepts either.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field, fields, is_dataclass
+from datetime import date, datetime
+from typing import Any
+
+from server.engine.plasticity_chart import chart_symbol
+from server.engine.rounding import reported, round_half_up
+from server.reports.charts import flow_curve_svg, plasticity_chart_svg
+
+DASH = "—"
+NP = "NP"
+
+DEFAULT_CAUTIONS: tuple[str, ...] = (
+    "The results in this report relate only to the samples as received and tested by the laboratory.",
+    "This report shall not be reproduced except in full without the written approval of the laboratory.",
+    "Correlations and other interpretation in this report are indicative only; they are not measured "
+    "results and do not replace tests.",
+    "The choice of design values and their use are for the responsible engineer, under the local codes "
+    "and licensed practice that apply to the project.",
+)
+
+
+# -- the report data (built by the service layer) -----------------------------------------------
+
+
+@dataclass(frozen=True)
+class LabInfo:
+    name: str
+    address: str = ""
+    accreditation: str = ""
+
+
+@dataclass(frozen=True)
+class Signatory:
+    """Who approved the report, in what role, what the signature means, and when (ISO 8601)."""
+
+    name: str
+    role: str
+    meaning: str
+    signed_at: str
+
+
+@dataclass(frozen=True)
+class MethodNote:
+    """A method followed; ``deviation`` is empty when the standard was followed as written."""
+
+    title: str
+    standard: str
+    deviation: str = ""
+
+
+@dataclass(frozen=True)
+class TestEntry:
+    """One approved test on one sample, with results, readings and flags as stored.
+
+    ``results`` use the engine's keys (DESIGN.md section 3), ``readings`` are as typed,
+    ``flags`` are {"code", "severity", "message"} dicts. Treat the mappings as read-only: the
+    content fingerprint is taken over them.
+    """
+
+    __test__ = False  # a report record, not a pytest test class
+
+    sample_code: str
+    location_code: str
+    depth_from_m: float | None
+    depth_to_m: float | None
+    sample_type: str
+    description: str
+    method: str
+    results: Mapping[str, Any]
+    readings: Mapping[str, Any] = field(default_factory=dict)
+    flags: Sequence[Mapping[str, Any]] = ()
+    revision: int = 0
+    method_title: str = ""
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "flags", tuple(self.flags))
+
+
+@dataclass(frozen=True)
+class ReportData:
+    """Everything one issued report prints, and nothing it must look up."""
+
+    lab: LabInfo
+    client_name: str
+    job_code: str
+    job_title: str
+    site: str
+    report_number: str
+    revision: int
+    issue_date: date
+    issued_at_iso: str
+    approver: Signatory
+    verify_url: str
+    tests: Sequence[TestEntry] = ()
+    methods: Sequence[MethodNote] = ()
+    cautions: Sequence[str] = DEFAULT_CAUTIONS
+
+    def __post_init__(self) -> None:
+        for name in ("tests", "methods", "cautions"):
+            object.__setattr__(self, name, tuple(getattr(self, name)))
+
+
+# -- the content fingerprint --------------------------------------------------------------------
+
+
+def _plain(value: Any) -> Any:
+    """The JSON form of report data: dataclasses as objects, dates as ISO text, no NaN."""
+    if is_dataclass(value) and not isinstance(value, type):
+        return {f.name: _plain(getattr(value, f.name)) for f in fields(value)}
+    if isinstance(value, Mapping):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_plain(v) for v in value]
+    if isinstance(value, datetime | date):
+        return value.isoformat()
+    if isinstance(value, float) and not math.isfinite(value):
+        raise ValueError("report data holds a value that is not a finite number")
+    return value
+
+
+def canonical_json(data: ReportData) -> str:
+    """The report data as canonical JSON: keys sorted, no spaces, UTF-8 text kept as is."""
+    return json.dumps(_plain(data), sort_keys=True, separators=(",", ":"), ensure_ascii=False,
+                      allow_nan=False)
+
+
+def content_fingerprint(data: ReportData) -> str:
+    """SHA-256 (hex) of the canonical JSON of the report data: printed on every page."""
+    return hashlib.sha256(canonical_json(data).encode("utf-8")).hexdigest()
+
+
+# -- the view (what the template prints) -----------------------------------------------------
+
+
+@dataclass(frozen=True)
+class SummaryRow:
+    location: str
+    sample: str
+    depth_from: str
+    depth_to: str
+    sample_type: str
+    water_content: str
+    liquid_limit: str
+    plastic_limit: str
+    plasticity_index: str
+    liquidity_index: str
+    consistency_index: str
+    activity: str
+    clay_fraction: str
+    sensitivity: str
+    uscs_symbol: str
+    uscs_name: str
+    aashto: str
+
+
+@dataclass(frozen=True)
+class ResultLine:
+    label: str
+    value: str
+    unit: str = ""
+    uncertainty: str = ""
+
+
+@dataclass(frozen=True)
+class Table:
+    title: str
+    columns: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+
+
+@dataclass(frozen=True)
+class FlagLine:
+    severity: str
+    code: str
+    message: str
+
+
+@dataclass(frozen=True)
+class TestSection:
+    """The details page of one test, as printed."""
+
+    __test__ = False  # a report view, not a pytest test class
+    anchor: str
+    heading: str
+    location: str
+    sample: str
+    depth: str
+    sample_type: str
+    description: str
+    method: str
+    method_title: str
+    revision: int
+    results: tuple[ResultLine, ...]
+    readings: tuple[Table, ...]
+    readings_other: tuple[ResultLine, ...]
+    curve_svg: str
+    curve_caption: str
+    flags: tuple[FlagLine, ...]
+
+
+@dataclass(frozen=True)
+class InterpretationEntry:
+    sample: str
+    quantity: str
+    value: str
+    unit: str
+    source: str
+    note: str
+
+
+@dataclass(frozen=True)
+class ChartPoint:
+    label: str
+    sample: str
+    liquid_limit: str
+    plasticity_index: str
+    symbol: str
+
+
+@dataclass(frozen=True)
+class ReportView:
+    data: ReportData
+    issue_date: str
+    summary: tuple[SummaryRow, ...]
+    sections: tuple[TestSection, ...]
+    chart_points: tuple[ChartPoint, ...]
+    plasticity_chart_svg: str
+    interpretation: tuple[InterpretationEntry, ...]
+    methods: tuple[MethodNote, ...]
+    sample_count: int
+
+
+# Result lines in the order a reader expects; LL, PL and PI carry no % sign (ASTM D4318 report
+# clause, from memory), water content and clay fraction do.
+RESULT_LABELS: tuple[tuple[str, str, str], ...] = (
+    ("water_content", "Water content, w", "%"),
+    ("liquid_limit", "Liquid limit, LL", ""),
+    ("plastic_limit", "Plastic limit, PL", ""),
+    ("plasticity_index", "Plasticity index, PI", ""),
+    ("flow_index", "Flow index, If", ""),
+    ("liquidity_index", "Liquidity index, LI", ""),
+    ("consistency_index", "Consistency index, CI", ""),
+    ("activity", "Activity, A", ""),
+    ("clay_fraction", "Clay fraction (finer than 2 µm)", "%"),
+    ("sensitivity", "Sensitivity, St", ""),
+    ("undrained_strength_kpa", "Undrained shear strength, cu", "kPa"),
+)
+_NP_KEYS = ("liquid_limit", "plastic_limit", "plasticity_index")
+_NOT_SHOWN = {
+    "interpretation", "plasticity_chart", "flow_curve", "nonplastic", "uncertainty", "uscs_symbol",
+    "uscs_name", "aashto_group", "group_index", "liquid_limit_method",
+}
+_UNIT_SUFFIXES = (("_kpa", "kPa"), ("_nm", "N·m"), ("_mm", "mm"), ("_g", "g"), ("_m", "m"), ("_n", "N"),
+                  ("_c", "°C"), ("_min", "min"), ("_pct", "%"))
+_COLUMN_LABELS = {
+    "container": "Container",
+    "blows": "Blows, N",
+    "penetration_mm": "Cone penetration (mm)",
+    "tare_g": "Tare (g)",
+    "wet_tare_g": "Wet soil + tare (g)",
+    "dry_tare_g": "Dry soil + tare (g)",
+}
+_COLUMN_ORDER = tuple(_COLUMN_LABELS)
+
+
+def _number(value: Any) -> float | None:
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return None
+    f = float(value)
+    return f if math.isfinite(f) else None
+
+
+def show(key: str, value: Any) -> str:
+    """A result value as printed: rounded by its key's rule, text as is, '—' when absent."""
+    if value is None or value == "":
+        return DASH
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    num = _number(value)
+    if num is not None:
+        return reported(key, num)
+    return str(value)
+
+
+def typed(value: Any) -> str:
+    """A reading shown as typed: the shortest text that gives back the number."""
+    if value is None or value == "":
+        return DASH
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return repr(value) if math.isfinite(value) else DASH
+    if isinstance(value, list | tuple):
+        return ", ".join(typed(v) for v in value) if value else DASH
+    return str(value)
+
+
+def humanise(key: str) -> str:
+    """'wet_tare_g' -> 'Wet tare (g)': a readable label for a key we have no label for."""
+    unit = ""
+    base = key
+    for suffix, name in _UNIT_SUFFIXES:
+        if key.lower().endswith(suffix) and len(key) > len(suffix):
+            base, unit = key[: -len(suffix)], name
+            break
+    words = base.replace("_", " ").replace("-", " ").strip()
+    words = words[:1].upper() + words[1:]
+    return f"{words} ({unit})" if unit else words
+
+
+def _round2(value: float) -> str:
+    """Depth in metres to 0.01 m (common practice for sample depths)."""
+    return f"{round_half_up(value, 2):.2f}"
+
+
+def _depth_range(t: TestEntry) -> str:
+    a = DASH if t.depth_from_m is None else _round2(t.depth_from_m)
+    b = DASH if t.depth_to_m is None else _round2(t.depth_to_m)
+    if t.depth_to_m is None:
+        return f"{a} m"
+    return f"{a}–{b} m"
+
+
+def _sample_key(t: TestEntry) -> tuple[str, str, float | None, float | None]:
+    return (t.location_code, t.sample_code, t.depth_from_m, t.depth_to_m)
+
+
+def _merge(tests: Sequence[TestEntry]) -> dict[str, Any]:
+    """One sample's results from all its tests: for each key, the first test that gives it."""
+    merged: dict[str, Any] = {}
+    for t in tests:
+        for key, value in t.results.items():
+            if value is not None and key not in merged:
+                merged[key] = value
+    return merged
+
+
+def _nonplastic(results: Mapping[str, Any]) -> bool:
+    return results.get("nonplastic") is True
+
+
+def _limit(key: str, results: Mapping[str, Any]) -> str:
+    """LL, PL or PI as printed: NP where the soil is non-plastic (ASTM D4318)."""
+    np = _nonplastic(results)
+    if np and key != "liquid_limit":
+        return NP
+    value = results.get(key)
+    if value is None:
+        return NP if np else DASH
+    return show(key, value)
+
+
+def _aashto(results: Mapping[str, Any]) -> str:
+    group = results.get("aashto_group")
+    if not group:
+        return DASH
+    gi = _number(results.get("group_index"))
+    return f"{group} ({reported('group_index', gi)})" if gi is not None else str(group)
+
+
+def summary_row(tests: Sequence[TestEntry]) -> SummaryRow:
+    """The summary line of one sample, from all the tests on it."""
+    first = tests[0]
+    r = _merge(tests)
+    return SummaryRow(
+        location=first.location_code,
+        sample=first.sample_code,
+        depth_from=DASH if first.depth_from_m is None else _round2(first.depth_from_m),
+        depth_to=DASH if first.depth_to_m is None else _round2(first.depth_to_m),
+        sample_type=first.sample_type or DASH,
+        water_content=show("water_content", r.get("water_content")),
+        liquid_limit=_limit("liquid_limit", r),
+        plastic_limit=_limit("plastic_limit", r),
+        plasticity_index=_limit("plasticity_index", r),
+        liquidity_index=show("liquidity_index", r.get("liquidity_index")),
+        consistency_index=show("consistency_index", r.get("consistency_index")),
+        activity=show("activity", r.get("activity")),
+        clay_fraction=show("clay_fraction", r.get("clay_fraction")),
+        sensitivity=show("sensitivity", r.get("sensitivity")),
+        uscs_symbol=show("uscs_symbol", r.get("uscs_symbol")),
+        uscs_name=show("uscs_name", r.get("uscs_name")),
+        aashto=_aashto(r),
+    )
+
+
+def _by_sample(tests: Sequence[TestEntry]) -> list[list[TestEntry]]:
+    groups: dict[tuple[str, str, float | None, float | None], list[TestEntry]] = {}
+    for t in tests:
+        groups.setdefault(_sample_key(t), []).append(t)
+    return list(groups.values())
+
+
+def result_lines(results: Mapping[str, Any]) -> tuple[ResultLine, ...]:
+    """The measured results of one test, rounded, with units and expanded uncertainty (k = 2)."""
+    unc = results.get("uncertainty")
+    unc = unc if isinstance(unc, Mapping) else {}
+    lines: list[ResultLine] = []
+
+    def u_text(key: str) -> str:
+        u = unc.get(key)
+        if isinstance(u, Mapping) and _number(u.get("U")) is not None:
+            k = _number(u.get("k"))
+            k_text = f" (k = {k:g})" if k is not None else ""
+            return f"± {show(key, u.get('U'))}{k_text}"
+        return ""
+
+    for key, label, unit in RESULT_LABELS:
+        if key in _NP_KEYS and (key in results or _nonplastic(results)):
+            lines.append(ResultLine(label, _limit(key, results), unit if key not in _NP_KEYS else "",
+                                    u_text(key)))
+        elif results.get(key) is not None:
+            lines.append(ResultLine(label, show(key, results[key]), unit, u_text(key)))
+    if _nonplastic(results):
+        lines.append(ResultLine("Non-plastic", NP))
+    if results.get("uscs_symbol") or results.get("uscs_name"):
+        lines.append(ResultLine("USCS group symbol and name (ASTM D2487)",
+                                f"{show('uscs_symbol', results.get('uscs_symbol'))} "
+                                f"{show('uscs_name', results.get('uscs_name'))}"))
+    if results.get("aashto_group"):
+        lines.append(ResultLine("AASHTO group (group index) (AASHTO M 145)", _aashto(results)))
+    known = {k for k, _, _ in RESULT_LABELS} | _NOT_SHOWN
+    for key, value in results.items():
+        if key in known or key.endswith(("_trials", "_determinations")):
+            continue
+        if isinstance(value, Mapping | list | tuple) or value is None:
+            continue
+        lines.append(ResultLine(humanise(key), show(key, value)))
+    return tuple(lines)
+
+
+def _per_row_w(results: Mapping[str, Any], path: tuple[str, ...], method: str) -> list[Any] | None:
+    """The engine's water content of each row of a readings list, found by where the list sits."""
+    last = path[-1]
+    parent = path[-2] if len(path) > 1 else method
+    if last == "trials":
+        rows = results.get("liquid_limit_trials")
+        if isinstance(rows, list):
+            return [row.get("water_content") if isinstance(row, Mapping) else row for row in rows]
+        return None
+    if last == "determinations":
+        if parent.replace("-", "_").startswith("plastic_limit"):
+            key = "plastic_limit_determinations"
+        else:
+            key = "water_content_determinations"
+        rows = results.get(key)
+        if isinstance(rows, list):
+            return [row.get("water_content") if isinstance(row, Mapping) else row for row in rows]
+    return None
+
+
+def readings_tables(
+    method: str, readings: Mapping[str, Any], results: Mapping[str, Any]
+) -> tuple[tuple[Table, ...], tuple[ResultLine, ...]]:
+    """The readings as typed: lists of rows as tables (with each row's water content), the rest as lines."""
+    tables: list[Table] = []
+    others: list[ResultLine] = []
+
+    def walk(obj: Mapping[str, Any], path: tuple[str, ...]) -> None:
+        for key, value in obj.items():
+            here = (*path, str(key))
+            label = " — ".join(humanise(p) for p in here)
+            if isinstance(value, Mapping):
+                walk(value, here)
+            elif isinstance(value, list | tuple) and value and all(isinstance(v, Mapping) for v in value):
+                cols: list[str] = [c for c in _COLUMN_ORDER if any(c in row for row in value)]
+                for row in value:
+                    cols += [str(k) for k in row if str(k) not in cols]
+                ws = _per_row_w(results, here, method)
+                head = ["#", *(_COLUMN_LABELS.get(c, humanise(c)) for c in cols)]
+                if ws is not None:
+                    head.append("w (%)")
+                rows: list[tuple[str, ...]] = []
+                for i, row in enumerate(value):
+                    cells = [str(i + 1), *(typed(row.get(c)) for c in cols)]
+                    if ws is not None:
+                        cells.append(show("water_content", ws[i] if i < len(ws) else None))
+                    rows.append(tuple(cells))
+                tables.append(Table(label, tuple(head), tuple(rows)))
+            else:
+                others.append(ResultLine(label, typed(value)))
+
+    walk(readings, ())
+    return tuple(tables), tuple(others)
+
+
+def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
+    trials = results.get("liquid_limit_trials")
+    if not isinstance(trials, list) or not trials:
+        return "", ""
+    rows = [t for t in trials if isinstance(t, Mapping)]
+    fit = results.get("flow_curve")
+    fit = fit if isinstance(fit, Mapping) else None
+    svg = flow_curve_svg(rows, fit)
+    if fit is None:
+        return svg, "Trials of the one-point method; no line is fitted."
+    slope, intercept = _number(fit.get("slope")), _number(fit.get("intercept"))
+    cone = fit.get("x") == "penetration_mm"
+    fx = ("log10 d" if fit.get("log_x") else "d") if cone else "log10 N"
+    if slope is None or intercept is None:
+        return svg, ""
+    sign = "−" if slope < 0 else "+"
+    caption = f"Least-squares line: w = {intercept:.2f} {sign} {abs(slope):.2f} {fx}"
+    r2 = _number(fit.get("r2"))
+    if r2 is not None:
+        caption += f" (r² = {r2:.3f})"
+    return svg, caption + "."
+
+
+def _flags(t: TestEntry) -> tuple[FlagLine, ...]:
+    out = []
+    for f in t.flags:
+        sev = str(f.get("severity", "warning"))
+        out.append(FlagLine("Error" if sev == "error" else "Warning", str(f.get("code", "")),
+                            str(f.get("message", ""))))
+    return tuple(out)
+
+
+def section_for(index: int, t: TestEntry) -> TestSection:
+    """The details page of one test: identity, results, readings with each water content, curve, flags."""
+    tables, others = readings_tables(t.method, t.readings, t.results)
+    svg, caption = _curve(t.results)
+    title = t.method_title or t.method
+    return TestSection(
+        anchor=f"test-{index + 1}",
+        heading=f"{t.location_code} / {t.sample_code} — {title}",
+        location=t.location_code,
+        sample=t.sample_code,
+        depth=_depth_range(t),
+        sample_type=t.sample_type or DASH,
+        description=t.description or DASH,
+        method=t.method,
+        method_title=title,
+        revision=t.revision,
+        results=result_lines(t.results),
+        readings=tables,
+        readings_other=others,
+        curve_svg=svg,
+        curve_caption=caption,
+        flags=_flags(t),
+    )
+
+
+def interpretation_entries(t: TestEntry) -> list[InterpretationEntry]:
+    """The test's correlations, each with its unit, source and note, for the opinion section."""
+    found = t.results.get("interpretation")
+    if not isinstance(found, Mapping):
+        return []
+    out = []
+    for name, entry in found.items():
+        e = entry if isinstance(entry, Mapping) else {"value": entry}
+        label = str(e.get("label") or humanise(str(name)))
+        out.append(InterpretationEntry(
+            sample=f"{t.location_code} / {t.sample_code}",
+            quantity=label,
+            value=show(str(name), e.get("value")),
+            unit=str(e.get("unit") or ""),
+            source=str(e.get("source") or DASH),
+            note=str(e.get("note") or ""),
+        ))
+    return out
+
+
+def _chart_points(groups: list[list[TestEntry]]) -> list[tuple[ChartPoint, float, float]]:
+    """Every plastic sample with LL and PI, labelled by its code (with the location when codes repeat)."""
+    plotted: list[tuple[TestEntry, dict[str, Any]]] = []
+    for tests in groups:
+        r = _merge(tests)
+        ll, pi = _number(r.get("liquid_limit")), _number(r.get("plasticity_index"))
+        if not _nonplastic(r) and ll is not None and pi is not None:
+            plotted.append((tests[0], r))
+    codes = [t.sample_code for t, _ in plotted]
+    out = []
+    for t, r in plotted:
+        label = t.sample_code if codes.count(t.sample_code) == 1 else f"{t.location_code}/{t.sample_code}"
+        ll, pi = float(r["liquid_limit"]), float(r["plasticity_index"])
+        pos = r.get("plasticity_chart")
+        symbol = pos.get("symbol") if isinstance(pos, Mapping) else None
+        point = ChartPoint(label, f"{t.location_code} / {t.sample_code}", reported("liquid_limit", ll),
+                           reported("plasticity_index", pi), str(symbol or chart_symbol(ll, pi)))
+        out.append((point, ll, pi))
+    return out
+
+
+def build_view(data: ReportData) -> ReportView:
+    """The whole report as printable text and SVG, from the report data."""
+    groups = _by_sample(data.tests)
+    points = _chart_points(groups)
+    interpretation: list[InterpretationEntry] = []
+    for t in data.tests:
+        interpretation.extend(interpretation_entries(t))
+    chart = plasticity_chart_svg([(p.label, ll, pi) for p, ll, pi in points]) if points else ""
+    return ReportView(
+        data=data,
+        issue_date=data.issue_date.isoformat(),
+        summary=tuple(summary_row(g) for g in groups),
+        sections=tuple(section_for(i, t) for i, t in enumerate(data.tests)),
+        chart_points=tuple(p for p, _, _ in points),
+        plasticity_chart_svg=chart,
+        interpretation=tuple(interpretation),
+        methods=tuple(data.methods),
+        sample_count=len(groups),
+    )

@@ -1,0 +1,46 @@
+"""Signing in and out."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Depends, Form, Request
+from fastapi.responses import RedirectResponse
+from starlette.responses import Response
+
+from server.auth.sessions import csrf_protect, database, sign_in, sign_out, signed_in_user
+from server.services.users import authenticate
+from server.web.templating import render
+
+router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+
+
+def _safe_next(target: str | None) -> str:
+    """Only a path on this site: never an open redirect to another host."""
+    if target and target.startswith("/") and not target.startswith("//"):
+        return target
+    return "/"
+
+
+@router.get("/signin")
+def signin_page(request: Request, next: str | None = None) -> Response:
+    if signed_in_user(request):
+        return RedirectResponse(_safe_next(next), status_code=303)
+    return render(request, "pages/signin.html", next=_safe_next(next), error=None)
+
+
+@router.post("/signin")
+def signin(request: Request, username: Annotated[str, Form()], password: Annotated[str, Form()],
+           next: Annotated[str, Form()] = "/") -> Response:
+    user = authenticate(database(request), username, password)
+    if user is None:
+        return render(request, "pages/signin.html", status_code=400, next=_safe_next(next),
+                      error="Username or password not recognised, or the account is not active.")
+    sign_in(request, user)
+    return RedirectResponse(_safe_next(next), status_code=303)
+
+
+@router.post("/signout")
+def signout(request: Request) -> Response:
+    sign_out(request)
+    return RedirectResponse("/signin", status_code=303)
