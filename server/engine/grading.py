@@ -52,7 +52,7 @@ def cumulative(retained_g: Sequence[float]) -> list[float]:
 
 
 def _ascending(curve: Curve) -> list[tuple[float, float]]:
-    return sorted(curve, key=lambda p: p[0])
+    return sorted(curve)  # by size, then percent: sizes of one curve are distinct in practice
 
 
 def size_at_percent(curve: Curve, percent: float) -> float | None:

@@ -84,7 +84,7 @@ SIEVE_LOSS_LIMIT_PCT = 0.3
 # Distance in °C from the nearest zero reading beyond which a composite correction counts as
 # extrapolated (our own tolerance).
 ZERO_READING_TOLERANCE_C = 1.0
-DEFAULT_SEPARATION_SIEVE_MM = 2.0  # No. 10, ASTM D7928-17 cl. 3.2.3
+DEFAULT_SEPARATION_SIEVE_MM = 2.0  # No. 10, ASTM D7928-21 cl. 3.2.3 (sedimentation sample)
 # 152H scale divisions are 1 g/L (ASTM E100, from memory); u = resolution / sqrt(12).
 DEFAULT_READING_RESOLUTION = 1.0
 NEEDS_CU_BELOW_FINES = 12.0  # ASTM D2487-17: Cu and Cc decide the symbol when fines <= 12 %
@@ -261,8 +261,9 @@ def write_characteristics(curve: list[tuple[float, float]], out: Outcome, fines:
                          else g.curvature_coefficient(d10, d30, d60))
     missing = [name for name, d in (("D10", d10), ("D30", d30), ("D60", d60)) if d is None]
     if missing and (fines is None or fines <= NEEDS_CU_BELOW_FINES):
+        verb = "lies" if len(missing) == 1 else "lie"
         out.flag("grading-diameter-unavailable", "warning",
-                 f"{', '.join(missing)} lie outside the measured curve: Cu and Cc, which ASTM D2487 "
+                 f"{' and '.join(missing)} {verb} outside the measured curve: Cu and Cc, which ASTM D2487 "
                  "needs when fines are 12 % or less, are not reported")
 
 
@@ -340,6 +341,9 @@ def _read_points(r: Readings, inputs: HydrometerInputs | None, zero: list[tuple[
                  scale_pct: float | None, out: Outcome) -> list[hy.Point]:
     """Each valid reading as a point; readings are refused one by one."""
     rows = r.items("readings", noun="reading", min_items=1)
+    zero_temps = [t for t, _ in inputs.zero] if inputs is not None and inputs.zero else [0.0]
+    t_low = min(zero_temps) - ZERO_READING_TOLERANCE_C
+    t_high = max(zero_temps) + ZERO_READING_TOLERANCE_C
     points: list[hy.Point] = []
     last_minutes: float | None = None
     out_of_range: list[str] = []
@@ -375,8 +379,7 @@ def _read_points(r: Readings, inputs: HydrometerInputs | None, zero: list[tuple[
             out_of_range.append(f"{fmt(reading)} at {fmt(minutes, 'min')}")
         if own is None:
             corr = hy.composite_from_zero_readings(inputs.zero, temp)
-            temps = [t for t, _ in inputs.zero]
-            if not min(temps) - ZERO_READING_TOLERANCE_C <= temp <= max(temps) + ZERO_READING_TOLERANCE_C:
+            if not t_low <= temp <= t_high:
                 extrapolated.append(f"{fmt(temp, '°C')} at {fmt(minutes, 'min')}")
         else:
             corr = own
@@ -498,14 +501,14 @@ def sieve_method(r: Readings, out: Outcome) -> None:
 
 
 @method("hydrometer", title="Grading by sedimentation (hydrometer)",
-        standard="ASTM D422-63(2007) calculation; ASTM D7928-17 terms; water by IAPWS 2008")
+        standard="ASTM D422-63(2007) calculation; ASTM D7928-21 terms; water by IAPWS 2008")
 def hydrometer_method(r: Readings, out: Outcome) -> None:
     """Stokes diameter and percent finer of each reading, clay fraction and silt."""
     read_hydrometer(r, out)
 
 
 @method("grading", title="Grading by sieving and sedimentation",
-        standard="ASTM D6913/D6913M-17; ASTM D7928-17; ASTM D2487-17")
+        standard="ASTM D6913/D6913M-17; ASTM D7928-21; ASTM D2487-17")
 def grading_method(r: Readings, out: Outcome) -> None:
     """Sieving and sedimentation combined into one grading curve (D7928 separation sieve)."""
     s = r.child("sieve", label="sieve analysis")

@@ -1,15 +1,14 @@
 """Sedimentation (hydrometer) analysis: Stokes diameter and percent finer of each reading.
 
-What is implemented, and from where:
-
-Clause numbers of ASTM D422 below are cited from memory (the standard was withdrawn in 2016).
+What is implemented, and from where (clause numbers of ASTM D422, withdrawn in 2016, are
+cited from memory):
 
 - Effective depth of the 152H hydrometer, L = 16.3 - 0.1641 R (cm) with R the reading
-  corrected for the meniscus only (ASTM D422-63(2007) cl. 14.4 and Table 2; the same
-  calibration line is drawn in ASTM D7928-17 for the 152H, from memory). We keep lengths in mm:
-  L = 163.0 - 1.641 R (mm). A lab may enter its own calibration line for its own instrument.
+  corrected for the meniscus only (ASTM D422-63(2007) cl. 14.4 and Table 2; the line itself is
+  printed in textbooks, e.g. Das, Principles of Geotechnical Engineering). We keep lengths in
+  mm: L = 163.0 - 1.641 R. A lab may enter the calibration line of its own instrument.
 - Particle diameter from Stokes' law, D = sqrt(18 eta L / ((Gs - 1) rho_w g t)) (ASTM D422
-  cl. 14.4 in the form D = K sqrt(L/t); ASTM D7928-17 and ISO 17892-4:2016 write Stokes' law
+  cl. 14.4 in the form D = K sqrt(L/t); ASTM D7928 and ISO 17892-4:2016 write Stokes' law
   directly). eta and rho_w are computed for the temperature of each reading
   (``water_properties``) instead of being read from a printed table.
 - Percent finer of the specimen, P = a (R - Cc) / W x 100 with a = 1.65 Gs / (2.65 (Gs - 1)),
@@ -22,11 +21,11 @@ Clause numbers of ASTM D422 below are cited from memory (the standard was withdr
 - The composite correction comes per reading, or from control-cylinder ("zero") readings at
   one or more temperatures, interpolated linearly in temperature (a calibration against
   temperature, as in Head 2006; from memory).
-- The result relates to the specimen, which D7928 (cl. 3.2.3, "sedimentation sample") takes
-  from the material passing a separation sieve (2.0 mm by default). Percent finer of the whole
+- The result relates to the specimen, which ASTM D7928-21 (cl. 3.2.3, "sedimentation
+  sample") takes from the material passing a separation sieve (2.0 mm by default). Percent finer of the whole
   sample is the specimen's percent times the percent of the sample passing that sieve.
 
-ASTM D7928-17 computes percent finer from mass-per-volume readings with its own equations;
+ASTM D7928 computes percent finer from mass-per-volume readings with its own equations;
 we do not claim its equations, only its vocabulary (separation sieve, sedimentation
 specimen) and the range of the 152H scale, -5 to 60 g/L (ASTM E100, from memory).
 """

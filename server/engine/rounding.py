@@ -42,6 +42,19 @@ DECIMALS: dict[str, int] = {
     "remoulded_strength_kpa": 1,
     "unconfined_strength_kpa": 1,
     "strain_at_failure_pct": 1,
+    # Atterberg detail: each determination to 0.1 % like the water content (ASTM D2216 Method B),
+    # blow counts whole, cone penetrations to 0.1 mm (BS 1377-2:1990 cl. 4.3 dial reading),
+    # r2 to 0.001; indicative correlations to the precision their sources quote (common practice)
+    "water_content_determinations": 1,
+    "plastic_limit_determinations": 1,
+    "blows": 0,
+    "penetration_mm": 1,
+    "r2": 3,
+    "compression_index_undisturbed": 2,
+    "compression_index_remoulded": 2,
+    "remoulded_undrained_strength_kpa": 1,
+    "undrained_strength_ratio_nc": 2,
+    "swell_potential": 1,
 }
 
 

@@ -46,6 +46,13 @@ MARGIN_BOTTOM = 46.0
 U_LINE_VERTICAL_LL = 16.0
 CL_ML_BAND = (4.0, 7.0)
 HIGH_LIMIT_LL = 50.0
+# Where the zone names may go, (LL, PI) spots well inside each zone, tried in this order.
+ZONE_SPOTS: tuple[tuple[str, tuple[tuple[float, float], ...]], ...] = (
+    ("CL", ((37.0, 19.0), (30.0, 16.0), (44.0, 26.0))),
+    ("CH", ((72.0, 47.0), (62.0, 40.0), (80.0, 52.0))),
+    ("ML", ((40.0, 6.0), (33.0, 3.0), (46.0, 10.0))),
+    ("MH", ((77.0, 22.0), (88.0, 30.0), (66.0, 14.0))),
+)
 
 
 def _n(value: float) -> str:
@@ -242,12 +249,12 @@ def _frame(svg: _Svg, xa: Axis, ya: Axis, x_label: str, y_label: str) -> None:
         px = xa.to_px(v)
         svg.line(px, top, px, bottom, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
         if labelled:
-            svg.text(px, bottom + 13, _tick_text(v), text_anchor="middle", font_size=_n(SMALL))
+            svg.text(px, bottom + 13, _tick_text(v), text_anchor="middle", font_size=_n(SMALL), class_="x-tick")
     for v, labelled in ya.ticks():
         py = ya.to_px(v)
         svg.line(left, py, right, py, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
         if labelled:
-            svg.text(left - 5, py + 3, _tick_text(v), text_anchor="end", font_size=_n(SMALL))
+            svg.text(left - 5, py + 3, _tick_text(v), text_anchor="end", font_size=_n(SMALL), class_="y-tick")
     svg.add("rect", x=_n(left), y=_n(top), width=_n(right - left), height=_n(bottom - top), fill="none",
             stroke=INK, stroke_width="1")
     svg.text((left + right) / 2, bottom + 32, x_label, text_anchor="middle")
@@ -275,8 +282,8 @@ def flow_curve_svg(
     trials: Sequence[Mapping[str, object]],
     fit: Mapping[str, object] | None,
     *,
-    width: float = 440.0,
-    height: float = 290.0,
+    width: float = 330.0,
+    height: float = 235.0,
 ) -> str:
     """The flow curve (cup: w against blows on a log axis) or cone curve (w against penetration).
 
@@ -356,8 +363,14 @@ def flow_curve_svg(
         svg.polyline([(tx, bottom), (tx, ty), (left, ty)], stroke=INK, stroke_width="0.9",
                      stroke_dasharray="4 3", class_="ll-marker")
         at = f"{_tick_text(target)} mm" if cone else f"N = {_tick_text(target)}"
-        svg.text(tx + 5, ty - 6, f"LL = {reported('liquid_limit', ll)} at {at}", font_size=_n(SMALL),
-                 class_="ll-label")
+        label = f"LL = {reported('liquid_limit', ll)} at {at}"
+        # Left of the marker, on the side of the horizontal the fitted line leaves free.
+        assert slope is not None
+        dy = 11.0 if slope < 0 else -5.0
+        if tx - 4 - len(label) * SMALL * 0.6 >= left:
+            svg.text(tx - 4, ty + dy, label, text_anchor="end", font_size=_n(SMALL), class_="ll-label")
+        else:
+            svg.text(tx + 5, ty - dy + 6 if dy < 0 else ty - 5, label, font_size=_n(SMALL), class_="ll-label")
         r2 = _num(fit.get("r2")) if fit is not None else None
         if r2 is not None:
             svg.text(right - 4, top + 12, f"fitted line, r\u00b2 = {r2:.3f}", text_anchor="end",
@@ -396,6 +409,17 @@ def _overlap(a: tuple[float, float, float, float], b: tuple[float, float, float,
     w = min(a[2], b[2]) - max(a[0], b[0])
     h = min(a[3], b[3]) - max(a[1], b[1])
     return w * h if w > 0 and h > 0 else 0.0
+
+
+def _along(line: Sequence[tuple[float, float]], step: float = 5.0) -> list[tuple[float, float, float, float]]:
+    """Small boxes every ``step`` pixels along a polyline, for label placement to avoid."""
+    boxes = []
+    for (x1, y1), (x2, y2) in zip(line, line[1:], strict=False):
+        n = max(1, int(math.hypot(x2 - x1, y2 - y1) / step))
+        for i in range(n + 1):
+            x, y = x1 + (x2 - x1) * i / n, y1 + (y2 - y1) * i / n
+            boxes.append((x - 1.5, y - 1.5, x + 1.5, y + 1.5))
+    return boxes
 
 
 def plasticity_chart_svg(
@@ -437,19 +461,24 @@ def plasticity_chart_svg(
     svg.polyline(a_pts, stroke=INK, stroke_width="1.5", class_="a-line")
     # U-line: vertical at LL 16, then along the engine's u_line to the chart's edge.
     u_end = xa.hi if u_line(xa.hi) <= ya.hi else _solve(u_line, ya.hi, 20.0, 60.0)
-    svg.polyline([p(U_LINE_VERTICAL_LL, 0.0), p(U_LINE_VERTICAL_LL, u_line(U_LINE_VERTICAL_LL)),
-                  p(u_end, u_line(u_end))],
-                 stroke=INK, stroke_width="1.1", stroke_dasharray="7 4", class_="u-line")
+    u_pts = [p(U_LINE_VERTICAL_LL, 0.0), *(p(x, u_line(x)) for x in (U_LINE_VERTICAL_LL, u_end))]
+    svg.polyline(u_pts, stroke=INK, stroke_width="1.1", stroke_dasharray="7 4", class_="u-line")
     x50 = xa.to_px(HIGH_LIMIT_LL)
     svg.line(x50, bottom, x50, top, stroke=INK, stroke_width="0.8", stroke_dasharray="2 3", class_="ll-50")
 
-    zone_style = {"font_size": _n(FONT_SIZE + 1), "font_weight": "bold", "fill": "#444",
-                  "text_anchor": "middle", "class_": "zone"}
-    taken: list[tuple[float, float, float, float]] = []
-    for name, ll, pi in (("CL", 37.0, 19.0), ("CH", 72.0, 47.0), ("ML", 40.0, 6.0), ("MH", 77.0, 22.0)):
-        x, y = p(ll, pi)
-        svg.text(x, y, name, **zone_style)
-        taken.append((x - 10, y - 10, x + 10, y + 2))
+    marks = [(lab, *p(ll, pi)) for lab, ll, pi in clean]
+    taken: list[tuple[float, float, float, float]] = [(x - 4, y - 4, x + 4, y + 4) for _, x, y in marks]
+    # The drawn lines count as taken too, as small boxes along them, so labels keep off them.
+    for line in (a_pts, u_pts, [(x50, bottom), (x50, top)]):
+        taken.extend(_along(line))
+    # Each zone name goes to the first of its spots (all inside the zone) that no point covers.
+    for name, spots in ZONE_SPOTS:
+        boxes = [(x - 10, y - 10, x + 10, y + 2) for x, y in (p(ll, pi) for ll, pi in spots)]
+        i = min(range(len(boxes)), key=lambda j: (sum(_overlap(boxes[j], r) for r in taken), j))
+        bx = boxes[i]
+        svg.text((bx[0] + bx[2]) / 2, bx[3] - 2, name, font_size=_n(FONT_SIZE + 1), font_weight="bold",
+                 fill="#444", text_anchor="middle", class_="zone")
+        taken.append(bx)
     x, y = p((U_LINE_VERTICAL_LL + brk) / 2 + 0.5, (band_lo + band_hi) / 2)
     svg.text(x, y + 3, "CL-ML", text_anchor="middle", font_size=_n(SMALL - 1), fill="#222", class_="zone")
     x, y = p(a_end - 6, a_line(a_end - 6))
@@ -457,9 +486,6 @@ def plasticity_chart_svg(
     x, y = p(_solve(u_line, ya.hi - 6, 20.0, 60.0), ya.hi - 6)
     svg.text(x - 6, y, "U-line", text_anchor="end", font_size=_n(SMALL), font_style="italic")
 
-    marks = [(lab, *p(ll, pi)) for lab, ll, pi in clean]
-    for _, x, y in marks:
-        taken.append((x - 4, y - 4, x + 4, y + 4))
     tries = ((7.0, 3.5, "start"), (-7.0, 3.5, "end"), (0.0, -7.0, "middle"), (0.0, 13.0, "middle"),
              (6.0, -6.0, "start"), (-6.0, -6.0, "end"), (6.0, 12.0, "start"), (-6.0, 12.0, "end"))
     for lab, x, y in marks:

@@ -213,6 +213,7 @@ class TestSection:
     method_title: str
     revision: int
     results: tuple[ResultLine, ...]
+    has_uncertainty: bool
     readings: tuple[Table, ...]
     readings_other: tuple[ResultLine, ...]
     curve_svg: str
@@ -263,7 +264,7 @@ RESULT_LABELS: tuple[tuple[str, str, str], ...] = (
     ("liquidity_index", "Liquidity index, LI", ""),
     ("consistency_index", "Consistency index, CI", ""),
     ("activity", "Activity, A", ""),
-    ("clay_fraction", "Clay fraction (finer than 2 µm)", "%"),
+    ("clay_fraction", "Clay fraction, < 2 µm", "%"),
     ("sensitivity", "Sensitivity, St", ""),
     ("undrained_strength_kpa", "Undrained shear strength, cu", "kPa"),
 )
@@ -432,14 +433,12 @@ def result_lines(results: Mapping[str, Any]) -> tuple[ResultLine, ...]:
                                     u_text(key)))
         elif results.get(key) is not None:
             lines.append(ResultLine(label, show(key, results[key]), unit, u_text(key)))
-    if _nonplastic(results):
-        lines.append(ResultLine("Non-plastic", NP))
     if results.get("uscs_symbol") or results.get("uscs_name"):
-        lines.append(ResultLine("USCS group symbol and name (ASTM D2487)",
-                                f"{show('uscs_symbol', results.get('uscs_symbol'))} "
+        lines.append(ResultLine("USCS (ASTM D2487)",
+                                f"{show('uscs_symbol', results.get('uscs_symbol'))}, "
                                 f"{show('uscs_name', results.get('uscs_name'))}"))
     if results.get("aashto_group"):
-        lines.append(ResultLine("AASHTO group (group index) (AASHTO M 145)", _aashto(results)))
+        lines.append(ResultLine("AASHTO group (GI), M 145", _aashto(results)))
     known = {k for k, _, _ in RESULT_LABELS} | _NOT_SHOWN
     for key, value in results.items():
         if key in known or key.endswith(("_trials", "_determinations")):
@@ -480,7 +479,7 @@ def readings_tables(
     def walk(obj: Mapping[str, Any], path: tuple[str, ...]) -> None:
         for key, value in obj.items():
             here = (*path, str(key))
-            label = " — ".join(humanise(p) for p in here)
+            label = " — ".join([humanise(here[0]), *(humanise(p).lower() for p in here[1:])])
             if isinstance(value, Mapping):
                 walk(value, here)
             elif isinstance(value, list | tuple) and value and all(isinstance(v, Mapping) for v in value):
@@ -518,10 +517,11 @@ def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
     slope, intercept = _number(fit.get("slope")), _number(fit.get("intercept"))
     cone = fit.get("x") == "penetration_mm"
     fx = ("log10 d" if fit.get("log_x") else "d") if cone else "log10 N"
+    where = "d the cone penetration in mm" if cone else "N the number of blows"
     if slope is None or intercept is None:
         return svg, ""
     sign = "−" if slope < 0 else "+"
-    caption = f"Least-squares line: w = {intercept:.2f} {sign} {abs(slope):.2f} {fx}"
+    caption = f"Least-squares line: w = {intercept:.2f} {sign} {abs(slope):.2f} {fx}, {where}"
     r2 = _number(fit.get("r2"))
     if r2 is not None:
         caption += f" (r² = {r2:.3f})"
@@ -540,6 +540,7 @@ def _flags(t: TestEntry) -> tuple[FlagLine, ...]:
 def section_for(index: int, t: TestEntry) -> TestSection:
     """The details page of one test: identity, results, readings with each water content, curve, flags."""
     tables, others = readings_tables(t.method, t.readings, t.results)
+    results = result_lines(t.results)
     svg, caption = _curve(t.results)
     title = t.method_title or t.method
     return TestSection(
@@ -553,7 +554,8 @@ def section_for(index: int, t: TestEntry) -> TestSection:
         method=t.method,
         method_title=title,
         revision=t.revision,
-        results=result_lines(t.results),
+        results=results,
+        has_uncertainty=any(r.uncertainty for r in results),
         readings=tables,
         readings_other=others,
         curve_svg=svg,

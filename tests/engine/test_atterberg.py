@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+import copy
 import json
+import timeit
 from typing import Any
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from server.engine import calculate, evaluate
 
@@ -120,3 +124,155 @@ def test_leaves_the_uscs_symbol_to_the_classification_of_a_coarse_soil() -> None
     r = calculate("atterberg", full_set(fines=40.0, sand=50.0, gravel=10.0)).results
     assert "uscs_symbol" not in r
     assert r["plasticity_chart"]["symbol"] == "CL"
+
+
+# -- quality flags --------------------------------------------------------------------------------
+
+def test_flags_a_point_above_the_u_line_as_suspect() -> None:
+    # ASTM D2487 Fig. 4: U-line PI = 0.9 (LL - 8) = 28.8 at LL 40; PL 10 gives PI 30, above it.
+    ev = calculate("atterberg", full_set(plastic_limit={"determinations": [det(10.0), det(10.2)]}))
+    assert ev.results["plasticity_chart"]["above_u_line"] is True
+    assert "above-u-line" in [f.code for f in ev.flags]
+
+
+def test_flags_a_natural_water_content_above_the_liquid_limit() -> None:
+    # LI above 1: wetter than the liquid limit, possibly sensitive (common practice).
+    ev = calculate("atterberg", full_set(water_content={"determinations": [det(45.0)]}))
+    assert "water-content-above-liquid-limit" in [f.code for f in ev.flags]
+    assert ev.results["descriptors"]["state"] == "liquid"
+
+
+def test_flags_equipment_used_past_its_calibration_date_as_an_error() -> None:
+    readings = full_set(tested_on="2026-12-01", equipment=[{"id": "BAL-02", "calibration_due": "2026-11-30"}])
+    flags = [(f.code, f.severity) for f in calculate("atterberg", readings).flags]
+    assert ("equipment-calibration-expired", "error") in flags
+
+
+def test_equipment_is_in_calibration_on_its_due_date() -> None:
+    readings = full_set(tested_on="2026-11-30", equipment=[{"id": "BAL-02", "calibration_due": "2026-11-30"}])
+    assert "equipment-calibration-expired" not in [f.code for f in calculate("atterberg", readings).flags]
+
+
+def test_checks_the_equipment_of_a_part_against_the_set_test_date() -> None:
+    ll = {**DAS_LL, "equipment": [{"id": "CUP-01", "calibration_due": "2026-06-30"}]}
+    ev = calculate("atterberg", full_set(tested_on="2026-12-01", liquid_limit=ll))
+    assert [f.code for f in ev.flags].count("equipment-calibration-expired") == 1
+    assert "CUP-01" in next(f.message for f in ev.flags if f.code == "equipment-calibration-expired")
+
+
+def test_refuses_a_test_date_that_is_not_a_date() -> None:
+    ev = evaluate("atterberg", full_set(tested_on="yesterday"))
+    assert [e.loc for e in ev.errors] == [("readings", "tested_on")]
+
+
+def test_refuses_a_clay_fraction_above_the_fines() -> None:
+    ev = evaluate("atterberg", full_set(clay_fraction=90.0))
+    assert [e.loc for e in ev.errors] == [("readings", "clay_fraction")]
+    assert "activity" not in ev.results
+
+
+def test_descriptors_and_interpretation_are_kept_apart_from_measured_results() -> None:
+    r = calculate("atterberg", full_set()).results
+    # Burmister (1949) PI 19 medium; ISO 14688-2 CI 0.25 soft; Skempton (1953) A 0.61 inactive.
+    assert r["descriptors"] == {"plasticity": "medium", "state": "plastic", "consistency": "soft",
+                                "activity": "inactive"}
+    assert all("indicative" in e["basis"] for e in r["interpretation"].values())
+
+
+def test_full_set_runs_with_a_cone_liquid_limit() -> None:
+    # Points on w = 30 + 1.5 (p - 20) (constructed): LL 30 at 20 mm (BS 1377-2:1990 cl. 4.3).
+    ll = {"method": "ll-cone", "cone": "80g-30deg", "trials": [
+        {"penetration_mm": [p, p], **det(30.0 + 1.5 * (p - 20.0))} for p in (16.0, 18.5, 21.0, 23.5)]}
+    r = calculate("atterberg", full_set(liquid_limit=ll)).results
+    assert r["liquid_limit"] == pytest.approx(30.0)
+    assert r["liquid_limit_method"] == "ll-cone"
+    assert r["liquid_limit_trials"][0]["penetration_mm"] == pytest.approx(16.0)
+    assert r["plasticity_index"] == 9.0  # reported LL 30 - reported PL 21
+    assert "flow_index" not in r
+
+
+def test_full_set_runs_with_a_one_point_liquid_limit() -> None:
+    # ASTM D4318 Method B: 40.0 % at 25 blows -> LL 40.0 (factor 1.000, REFERENCES.md table).
+    ll = {"method": "ll-cup-one-point", "trials": [{"blows": 25, **det(40.0)}, {"blows": 25, **det(40.2)}]}
+    r = calculate("atterberg", full_set(liquid_limit=ll)).results
+    assert r["liquid_limit"] == pytest.approx(40.1)
+    assert r["plasticity_index"] == 19.0  # reported LL 40 - reported PL 21
+
+
+# -- every bad input refused (hypothesis) ---------------------------------------------------------
+
+MASS_FIELDS = [
+    ("water_content", "determinations", 0, "tare_g"),
+    ("water_content", "determinations", 1, "wet_tare_g"),
+    ("liquid_limit", "trials", 0, "dry_tare_g"),
+    ("liquid_limit", "trials", 2, "wet_tare_g"),
+    ("plastic_limit", "determinations", 1, "tare_g"),
+]
+
+
+def _not_a_number(text: str) -> bool:
+    try:
+        float(text.strip())
+    except ValueError:
+        return True
+    return False
+
+
+def _set(readings: dict[str, Any], path: tuple[Any, ...], value: object) -> None:
+    node: Any = readings
+    for step in path[:-1]:
+        node = node[step]
+    node[path[-1]] = value
+
+
+BAD_MASS = st.one_of(
+    st.floats(max_value=-1e-6, allow_nan=False, allow_infinity=False),
+    st.text(max_size=8).filter(_not_a_number).filter(lambda t: t.strip() != ""),
+    st.booleans(),
+    st.lists(st.floats(0, 50), min_size=1, max_size=2),
+    st.just(float("nan")),
+    st.just(float("inf")),
+)
+
+
+@settings(database=None, max_examples=60)
+@given(path=st.sampled_from(MASS_FIELDS), bad=BAD_MASS)
+def test_every_bad_mass_is_refused_at_its_place(path: tuple[Any, ...], bad: object) -> None:
+    readings = copy.deepcopy(full_set())
+    _set(readings, path, bad)
+    ev = evaluate("atterberg", readings)
+    assert ("readings", *path) in {e.loc for e in ev.errors}
+    assert "plasticity_index" not in ev.results
+
+
+@settings(database=None, max_examples=60)
+@given(trial=st.integers(0, 2), bad=st.one_of(
+    st.integers(max_value=0), st.integers(min_value=101),
+    st.floats(1.01, 99.99).filter(lambda x: x != int(x)),
+    st.text(max_size=6).filter(_not_a_number).filter(lambda t: t.strip() != ""), st.booleans()))
+def test_every_bad_blow_count_is_refused_at_its_place(trial: int, bad: object) -> None:
+    readings = copy.deepcopy(full_set())
+    readings["liquid_limit"]["trials"][trial]["blows"] = bad
+    ev = evaluate("atterberg", readings)
+    assert [e.loc for e in ev.errors] == [("readings", "liquid_limit", "trials", trial, "blows")]
+    assert "liquid_limit" not in ev.results
+
+
+@settings(database=None, max_examples=40)
+@given(path=st.sampled_from(MASS_FIELDS), excess=st.floats(0.01, 20.0))
+def test_every_dry_mass_above_its_wet_mass_is_refused(path: tuple[Any, ...], excess: float) -> None:
+    readings = copy.deepcopy(full_set())
+    parent = readings[path[0]][path[1]][path[2]]
+    parent["dry_tare_g"] = parent["wet_tare_g"] + excess
+    ev = evaluate("atterberg", readings)
+    assert [e.loc for e in ev.errors] == [("readings", *path[:3], "dry_tare_g")]
+
+
+# -- speed ----------------------------------------------------------------------------------------
+
+def test_a_full_set_is_computed_in_well_under_a_millisecond() -> None:
+    # Aim (brief): well under 0.1 ms per full Atterberg set on a quiet machine. The bound here is
+    # 0.5 ms, best of several runs, so that a loaded test machine does not fail it by chance.
+    readings = full_set()
+    best = min(timeit.repeat(lambda: evaluate("atterberg", readings), number=200, repeat=5)) / 200
+    assert best < 0.5e-3

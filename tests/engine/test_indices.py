@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from server.engine.indices import (
     activity,
@@ -42,3 +44,11 @@ def test_soil_is_nonplastic_when_the_plastic_limit_is_not_below_the_liquid_limit
         ll: float, pl: float, np_: bool) -> None:
     # ASTM D4318: NP when PL >= LL (confirmed), compared on the reported whole numbers.
     assert is_nonplastic(ll, pl) is np_
+
+
+@settings(database=None)
+@given(w=st.floats(0.0, 300.0), pl=st.floats(5.0, 100.0), pi=st.integers(1, 150))
+def test_liquidity_and_consistency_index_add_up_to_one(w: float, pl: float, pi: int) -> None:
+    # CI = 1 - LI (definitions, REFERENCES.md: CI = (LL - w)/PI = 1 - LI).
+    ll = reported_limit(pl) + pi
+    assert liquidity_index(w, ll, pl) + consistency_index(w, ll, pl) == pytest.approx(1.0, abs=1e-9)

@@ -1,0 +1,1 @@
+"""Helpers shared by tests (no fixtures here; those live in conftest.py)."""
