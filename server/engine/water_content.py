@@ -89,9 +89,10 @@ def read_determinations(r: Readings, key: str, *, noun: str, min_items: int) -> 
             for item in aligned_items(r, key, noun=noun, min_items=min_items)]
 
 
-def aligned_items(r: Readings, key: str, *, noun: str, min_items: int) -> list[Readings | None]:
+def aligned_items(r: Readings, key: str, *, noun: str, min_items: int,
+                  max_items: int | None = None) -> list[Readings | None]:
     """The entries of a list of objects, one per typed row: None where the row is not an object."""
-    items = r.items(key, noun=noun, min_items=min_items)
+    items = r.items(key, noun=noun, min_items=min_items, max_items=max_items)
     raw = r.data.get(key)
     size = len(raw) if isinstance(raw, list | tuple) else 0
     if len(items) == size:

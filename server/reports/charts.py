@@ -249,7 +249,8 @@ def _frame(svg: _Svg, xa: Axis, ya: Axis, x_label: str, y_label: str) -> None:
         px = xa.to_px(v)
         svg.line(px, top, px, bottom, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
         if labelled:
-            svg.text(px, bottom + 13, _tick_text(v), text_anchor="middle", font_size=_n(SMALL), class_="x-tick")
+            svg.text(px, bottom + 13, _tick_text(v), text_anchor="middle", font_size=_n(SMALL),
+                     class_="x-tick")
     for v, labelled in ya.ticks():
         py = ya.to_px(v)
         svg.line(left, py, right, py, stroke=GRID, stroke_width="0.8" if labelled else "0.5")

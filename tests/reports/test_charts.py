@@ -28,10 +28,10 @@ DAS_TRIALS = [{"blows": 15, "water_content": 42.0}, {"blows": 20, "water_content
 DAS_FIT = {"x": "blows", "log_x": True, "slope": -10.72468960148271, "intercept": 54.662225750847284,
            "r2": 0.9970743789609344, "target_x": 25}
 # Fictional cone test of our own; least-squares line computed: LL 54.98 at 20 mm (BS 1377-2:1990 cl. 4.3).
-CONE_TRIALS = [{"penetration_mm": 15.8, "water_content": 48.3}, {"penetration_mm": 18.1, "water_content": 52.1},
-               {"penetration_mm": 20.9, "water_content": 56.4}, {"penetration_mm": 23.6, "water_content": 60.6}]
-CONE_FIT = {"x": "penetration_mm", "log_x": False, "slope": 1.5715532286212919, "intercept": 23.54755671902268,
-            "r2": 0.999776532937812, "target_x": 20.0}
+CONE_TRIALS = [{"penetration_mm": d, "water_content": w}
+               for d, w in ((15.8, 48.3), (18.1, 52.1), (20.9, 56.4), (23.6, 60.6))]
+CONE_FIT = {"x": "penetration_mm", "log_x": False, "slope": 1.5715532286212919,
+            "intercept": 23.54755671902268, "r2": 0.999776532937812, "target_x": 20.0}
 
 
 def parse(svg: str) -> ET.Element:
@@ -181,7 +181,8 @@ def test_marks_the_cone_liquid_limit_at_20_mm_on_a_linear_axis() -> None:
 
 
 def test_plots_one_point_trials_without_a_line() -> None:
-    root = parse(flow_curve_svg([{"blows": 23, "water_content": 41.0}, {"blows": 27, "water_content": 40.1}], None))
+    trials = [{"blows": 23, "water_content": 41.0}, {"blows": 27, "water_content": 40.1}]
+    root = parse(flow_curve_svg(trials, None))
     assert not by_class(root, "polyline", "fit")
     assert len(list(root.iter(f"{NS}circle"))) == 2
 
@@ -203,7 +204,8 @@ def test_xy_chart_places_points_on_a_log_axis() -> None:
     frame = Frame(480.0, 300.0)
     (line,) = by_class(root, "polyline", "series")
     for (x, y), (size, passing) in zip(points_of(line), grading.points, strict=True):
-        assert x == pytest.approx(frame.left + (math.log10(size) + 2) / 4 * (frame.right - frame.left), abs=0.02)
+        decades = (math.log10(size) - math.log10(0.01)) / 4  # 0.01 to 100 mm: four decades
+        assert x == pytest.approx(frame.left + decades * (frame.right - frame.left), abs=0.02)
         assert y == pytest.approx(frame.y(passing, 0, 100), abs=0.02)
 
 

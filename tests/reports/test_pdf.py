@@ -7,6 +7,7 @@ check values name where each number comes from.
 from __future__ import annotations
 
 import hashlib
+import os
 import subprocess
 import tempfile
 from dataclasses import replace
@@ -36,7 +37,8 @@ def _det(container: str, tare: float, wet: float, dry: float) -> dict[str, Any]:
     return {"container": container, "tare_g": tare, "wet_tare_g": wet, "dry_tare_g": dry}
 
 
-def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Firm brown sandy CLAY") -> TestEntry:
+def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Firm brown sandy CLAY",
+              ) -> TestEntry:
     """A CL sample: the liquid-limit trials and fit of Das's multipoint example, the PL of Liu & Evett."""
     results = {
         "water_content": 32.946,
@@ -74,13 +76,15 @@ def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Fir
         },
     }
     readings = {
-        "water_content": {"determinations": [_det("T-17", 15.20, 45.62, 38.11), _det("T-04", 14.88, 46.96, 38.98)]},
+        "water_content": {"determinations": [_det("T-17", 15.20, 45.62, 38.11),
+                                             _det("T-04", 14.88, 46.96, 38.98)]},
         "liquid_limit": {"method": "ll-cup-multipoint", "trials": [
             {"blows": 15, **_det("L-1", 16.02, 38.77, 32.04)},
             {"blows": 20, **_det("L-2", 15.87, 39.10, 32.37)},
             {"blows": 28, **_det("L-3", 16.11, 39.55, 32.95)},
         ]},
-        "plastic_limit": {"determinations": [_det("P-1", 11.56, 20.47, 18.93), _det("P-2", 11.68, 21.27, 19.57)]},
+        "plastic_limit": {"determinations": [_det("P-1", 11.56, 20.47, 18.93),
+                                             _det("P-2", 11.68, 21.27, 19.57)]},
         "clay_fraction": 31.0,
         "fines": 86.0,
     }
@@ -139,7 +143,8 @@ def fat_clay() -> TestEntry:
             {"penetration_mm": [20.8, 21.0], **_det("C-3", 20.12, 45.70, 36.53)},
             {"penetration_mm": [23.5, 23.7], **_det("C-4", 20.08, 46.10, 36.30)},
         ]},
-        "plastic_limit": {"determinations": [_det("P-7", 11.60, 21.00, 19.01), _det("P-8", 11.52, 20.84, 18.86)]},
+        "plastic_limit": {"determinations": [_det("P-7", 11.60, 21.00, 19.01),
+                                             _det("P-8", 11.52, 20.84, 18.86)]},
     }
     return TestEntry("S3", "TP2", 0.50, None, "B", "Stiff dark grey CLAY", "atterberg", results, readings,
                      revision=0, method_title="Atterberg limits")
@@ -158,8 +163,9 @@ def fictional_job(tests: list[TestEntry] | None = None) -> ReportData:
         revision=0,
         issue_date=date(2025, 3, 14),
         issued_at_iso="2025-03-14T16:05:00+00:00",
-        approver=Signatory("Dr Ada Marsh", "Laboratory manager", "Reviewed the readings, calculations and flags "
-                           "and approves the results for issue", "2025-03-14T15:58:00+00:00"),
+        approver=Signatory("Dr Ada Marsh", "Laboratory manager",
+                           "Reviewed the readings, calculations and flags and approves the results for issue",
+                           "2025-03-14T15:58:00+00:00"),
         verify_url="https://claybench.example/verify/R-2025-031-01",
         tests=tests if tests is not None else [lean_clay(), nonplastic_silt(), fat_clay()],
         methods=[
@@ -170,6 +176,10 @@ def fictional_job(tests: list[TestEntry] | None = None) -> ReportData:
             MethodNote("Plastic limit", "ASTM D4318-17"),
         ],
     )
+
+
+def summary_page(pages: list[str]) -> str:
+    return next(p for p in pages if "Values are rounded for reporting only" in p)
 
 
 @pytest.fixture(scope="module")
@@ -195,7 +205,7 @@ def test_prints_sample_ids_limits_and_symbols(pages: list[str]) -> None:
     text = "\n".join(pages)
     for sample in ("BH1", "S1", "S2", "TP2", "S3"):
         assert sample in text
-    summary = next(p for p in pages if "Summary of results" in p)
+    summary = summary_page(pages)
     # CL sample: LL 39.67 -> 40, PL 21.2 -> 21, PI 19 (Das problem set; Liu & Evett; ASTM D4318 whole numbers)
     assert "40 21 19" in summary
     # CH sample: LL 54.98 -> 55, PL 26.95 -> 27, PI 28 (REFERENCES.md USCS example)
@@ -208,7 +218,7 @@ def test_prints_sample_ids_limits_and_symbols(pages: list[str]) -> None:
 
 
 def test_prints_the_water_content_to_one_decimal(pages: list[str]) -> None:
-    summary = next(p for p in pages if "Summary of results" in p)
+    summary = summary_page(pages)
     assert "32.9" in summary  # 32.946 % to 0.1 % (ASTM D2216 Method B)
     assert "18.4" in summary
 
@@ -226,7 +236,8 @@ def test_numbers_every_page_as_page_n_of_m(pages: list[str]) -> None:
         assert f"page {n} of {total}" in text
 
 
-def test_prints_the_content_fingerprint_and_verify_url_on_every_page(pages: list[str], report: ReportData) -> None:
+def test_prints_the_content_fingerprint_and_verify_url_on_every_page(pages: list[str], report: ReportData,
+                                                                     ) -> None:
     fp = content_fingerprint(report)
     for text in pages:
         assert fp in text
@@ -275,9 +286,8 @@ def test_writes_the_creation_date_from_the_issue_record(pdf_bytes: bytes) -> Non
     assert info["/CreationDate"].startswith("D:20250314160500")
 
 
-def test_restores_the_source_date_epoch_after_rendering(report: ReportData, monkeypatch: pytest.MonkeyPatch) -> None:
-    import os
-
+def test_restores_the_source_date_epoch_after_rendering(report: ReportData,
+                                                        monkeypatch: pytest.MonkeyPatch) -> None:
     monkeypatch.setenv("SOURCE_DATE_EPOCH", "12345")
     render_report_pdf(report)
     assert os.environ["SOURCE_DATE_EPOCH"] == "12345"
@@ -319,7 +329,7 @@ def test_first_page_is_not_blank_when_rasterised(pdf_bytes: bytes) -> None:
 def test_summary_page_is_landscape(pdf_bytes: bytes) -> None:
     reader = PdfReader(BytesIO(pdf_bytes))
     for page in reader.pages:
-        if "Summary of results" in (page.extract_text() or ""):
+        if "Values are rounded for reporting only" in (page.extract_text() or ""):
             box = page.mediabox
             assert float(box.width) > float(box.height)  # A4 landscape: 842 x 595 pt (ISO 216)
             break
