@@ -20,6 +20,7 @@ import pytest
 from fastapi.testclient import TestClient
 from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
+from sqlmodel import select
 
 from server.config import Settings
 from server.db.migrate import upgrade
@@ -43,10 +44,22 @@ def _pg_admin_url() -> str | None:
     return None
 
 
+PEOPLE = (("tech", "technician"), ("review", "reviewer"), ("review2", "reviewer"), ("admin", "admin"))
+
+
+def _prepare_template(url: str) -> None:
+    """Migrate, then add the test users once (argon2 hashing is deliberately slow)."""
+    upgrade(url)
+    database = Database(url)
+    for name, role in PEOPLE:
+        create_user(database, None, name, f"{name.title()} Person", role, PASSWORDS[name])
+    database.dispose()
+
+
 @pytest.fixture(scope="session")
 def sqlite_template(tmp_path_factory: pytest.TempPathFactory) -> Path:
     path = tmp_path_factory.mktemp("template") / "template.sqlite3"
-    upgrade(f"sqlite:///{path}")
+    _prepare_template(f"sqlite:///{path}")
     return path
 
 
@@ -61,7 +74,7 @@ def pg_template() -> Iterator[tuple[str, str] | None]:
     engine = create_engine(admin, isolation_level="AUTOCOMMIT")
     with engine.connect() as conn:
         conn.execute(text(f'CREATE DATABASE "{name}"'))
-    upgrade(make_url(admin).set(database=name).render_as_string(hide_password=False))
+    _prepare_template(make_url(admin).set(database=name).render_as_string(hide_password=False))
     yield admin, name
     with engine.connect() as conn:
         conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
@@ -119,10 +132,10 @@ class People:
 
 @pytest.fixture
 def people(db: Database) -> People:
-    made = {name: create_user(db, None, name, f"{name.title()} Person", role, PASSWORDS[name])
-            for name, role in (("tech", "technician"), ("review", "reviewer"), ("review2", "reviewer"),
-                               ("admin", "admin"))}
-    return People(**made)
+    """The four test users every test database starts with (see ``_prepare_template``)."""
+    with db.session() as s:
+        found = {u.username: u for u in s.exec(select(User))}
+    return People(**{name: found[name] for name, _ in PEOPLE})
 
 
 @pytest.fixture

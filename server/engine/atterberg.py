@@ -169,10 +169,14 @@ def atterberg_method(r: Readings, out: Outcome) -> None:
         else:
             pl = plastic_limit_part(pr, out, b)
 
-    clay = r.number("clay_fraction", name="clay fraction", unit="%", required=False, above=0.0, maximum=100.0)
+    clay = r.number("clay_fraction", name="clay fraction", unit="%", required=False,
+                    minimum=0.0, maximum=100.0)
     fines = r.number("fines", name="fines", unit="%", required=False, minimum=0.0, maximum=100.0)
     sand = r.number("sand", name="sand", unit="%", required=False, minimum=0.0, maximum=100.0)
     gravel = r.number("gravel", name="gravel", unit="%", required=False, minimum=0.0, maximum=100.0)
+    if clay is not None and fines is not None and clay > fines:
+        r.refuse("clay_fraction", f"clay fraction ({clay:g} %) is above the fines ({fines:g} %)")
+        clay = None
     if clay is not None:
         out.results["clay_fraction"] = clay
     for key, value in (("fines", fines), ("sand", sand), ("gravel", gravel)):
@@ -183,9 +187,6 @@ def atterberg_method(r: Readings, out: Outcome) -> None:
         if abs(total - 100.0) > 1.0:
             out.flag("fractions-do-not-sum", "warning",
                      f"fines, sand and gravel add up to {total:g} %, not 100 %")
-    if clay is not None and fines is not None and clay > fines:
-        r.refuse("clay_fraction", f"clay fraction ({clay:g} %) is above the fines ({fines:g} %)")
-        clay = None
 
     fine_soil = fines is None or fines >= 50.0
     if ll_np or pl_np:
@@ -225,16 +226,16 @@ def atterberg_method(r: Readings, out: Outcome) -> None:
             out.flag("water-content-above-liquid-limit", "warning",
                      f"the natural water content ({w.value:.1f} %) is above the liquid limit ({llr:.0f}): "
                      "the soil may be sensitive; check the sample and the strength tests")
-    if clay is not None:
+    if clay:  # no activity for a clay fraction of zero (A = PI / 0 has no meaning)
         out.results["activity"] = activity(pi, clay)
         u["activity"] = expanded(u_difference(ll.u, pl.u) / clay)
     position = plasticity_chart.chart_position(llr, pi)
     out.results["plasticity_chart"] = position
     if fine_soil:
         out.results["uscs_symbol"] = plasticity_chart.chart_symbol(llr, pi)
-    if position["above_u_line"]:
+    if plasticity_chart.beyond_u_line(llr, pi):
         out.flag("above-u-line", "warning",
-                 f"the point (LL {llr:.0f}, PI {pi:.0f}) lies above the U-line, the upper bound of "
+                 f"the point (LL {llr:.0f}, PI {pi:.0f}) lies beyond the U-line, the upper bound of "
                  "natural soils (ASTM D2487 Fig. 4): check the readings")
     _finish(out)
 

@@ -39,9 +39,10 @@ method can turn it into a field-level refusal or a flag.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
-from server.engine.plasticity_chart import chart_symbol, on_or_above_a_line
+from server.engine.plasticity_chart import a_line, chart_symbol, on_or_above_a_line
 from server.engine.rounding import round_half_up
 
 # --- ASTM D2487 thresholds (REFERENCES.md "Classification") -------------------------------------
@@ -323,24 +324,29 @@ def uscs_borderline(
     main = classify(ll, pi, fines, sand, gravel)
     t, f = BORDERLINE_LIMITS, BORDERLINE_FRACTIONS
     trials: list[tuple[float | None, float | None, float | None, float | None, float | None]] = []
-    plastic = not nonplastic and pi is not None and pi > 0.0
-    for d in (-t, t):
-        if plastic and ll is not None:
-            trials.append((max(ll + d, 0.0), pi, fines, sand, gravel))
-        if plastic and pi is not None:
-            trials.append((ll, max(pi + d, 0.0), fines, sand, gravel))
+    # Only a decision within reach of its threshold can change the symbol, so the trials are run
+    # only for those (LL 50 and the A-line, whose slope is 0.73; PI 4 and 7; fines 5, 12 and 50;
+    # gravel against sand).
+    if not nonplastic and ll is not None and pi is not None and pi > 0.0:
+        gap = abs(pi - a_line(ll))
+        if abs(ll - HIGH_LL) <= t or gap <= 0.73 * t:
+            trials += [(max(ll - t, 0.0), pi, fines, sand, gravel), (ll + t, pi, fines, sand, gravel)]
+        if gap <= t or abs(pi - 4.0) <= t or abs(pi - 7.0) <= t:
+            trials += [(ll, max(pi - t, 0.0), fines, sand, gravel), (ll, pi + t, fines, sand, gravel)]
     if fines is not None:
         split = None if sand is None and gravel is None else _coarse_split(fines, sand, gravel)
-        for d in (-f, f):
-            moved = min(max(fines + d, 0.0), 100.0)
-            if split is None:
-                trials.append((ll, pi, moved, None, None))
-                continue
+        if any(abs(fines - b) <= f for b in (CLEAN_MAX_FINES, DUAL_MAX_FINES, FINE_GRAINED_MIN_FINES)):
+            for d in (-f, f):
+                moved = min(max(fines + d, 0.0), 100.0)
+                if split is None:
+                    trials.append((ll, pi, moved, None, None))
+                else:
+                    s, g = split
+                    scale = (100.0 - moved) / (s + g) if s + g > 0.0 else 0.0
+                    trials.append((ll, pi, moved, s * scale, g * scale))
+        if split is not None and fines < FINE_GRAINED_MIN_FINES + f and abs(split[0] - split[1]) <= 2.0 * f:
             s, g = split
-            scale = (100.0 - moved) / (s + g) if s + g > 0.0 else 0.0
-            trials.append((ll, pi, moved, s * scale, g * scale))
-            if 0.0 <= s + d and 0.0 <= g - d:
-                trials.append((ll, pi, fines, s + d, g - d))
+            trials += [(ll, pi, fines, s + d, g - d) for d in (-f, f) if s + d >= 0.0 and g - d >= 0.0]
     others: list[str] = []
     for trial in trials:
         try:
@@ -378,7 +384,10 @@ def group_index(fines: float, ll: float, pi: float, *, group: str | None = None)
     value = group_index_value(fines, ll, pi, group=group)
     if value <= 0.0:
         return 0
-    return int(round_half_up(value, 0))
+    whole = math.floor(value)
+    if abs(value - whole - 0.5) < 1e-9:  # near a half: decide on the decimal text (rounding.py)
+        return int(round_half_up(value, 0))
+    return whole + (value - whole > 0.5)
 
 
 Tri = bool | None  # a criterion that holds, fails, or cannot be judged for want of an input
@@ -425,31 +434,32 @@ def aashto(
     p = 0.0 if nonplastic else pi
     assert p is not None
     p2, p0425 = passing_2mm, passing_0425mm
-    ll_low, ll_high = _at_most(ll, 40.0), _above(ll, 40.0)
-    silty, clayey = p <= 10.0, p > 10.0
     granular = fines <= GRANULAR_MAX_FINES
-    criteria: list[tuple[str, Tri]] = [
-        ("A-1-a", _all(fines <= 15.0, _at_most(p2, 50.0), _at_most(p0425, 30.0), p <= 6.0)),
-        ("A-1-b", _all(fines <= 25.0, _at_most(p0425, 50.0), p <= 6.0)),
-        ("A-3", _all(fines <= 10.0, _above(p0425, 50.0), nonplastic)),
-        ("A-2-4", _all(granular, ll_low, silty)),
-        ("A-2-5", _all(granular, ll_high, silty)),
-        ("A-2-6", _all(granular, ll_low, clayey)),
-        ("A-2-7", _all(granular, ll_high, clayey)),
-        ("A-4", _all(ll_low, silty)),
-        ("A-5", _all(ll_high, silty)),
-        ("A-6", _all(ll_low, clayey)),
-        ("A-7-5", _all(ll_high, clayey, p <= (ll or 0.0) - 30.0)),
-        ("A-7-6", _all(ll_high, clayey)),
-    ]
-    for group, holds in criteria:
-        if holds is False:
-            continue
-        if holds is None:
-            raise MissingInput(*_missing_for(group, ll, p2, p0425))
-        gi = 0 if group in ZERO_GI_GROUPS else group_index(fines, ll or 0.0, p, group=group)
-        return Aashto(group, gi)
-    raise AssertionError("M 145 Table 2 has a group for every soil")  # pragma: no cover
+    if granular:
+        # A-1-a, A-1-b and A-3 first, left to right; A-2 then takes every other granular soil.
+        early: list[tuple[str, Tri]] = []
+        if p <= 6.0 and fines <= 25.0:
+            early.append(("A-1-a", _all(fines <= 15.0, _at_most(p2, 50.0), _at_most(p0425, 30.0))))
+            early.append(("A-1-b", _at_most(p0425, 50.0)))
+        if nonplastic and fines <= 10.0:
+            early.append(("A-3", _above(p0425, 50.0)))
+        for group, holds in early:
+            if holds is None:
+                raise MissingInput(*_missing_for(group, ll, p2, p0425))
+            if holds:
+                return Aashto(group, 0)
+    if ll is None:
+        raise MissingInput(*_missing_for("A-2-4" if granular else "A-4", ll, p2, p0425))
+    high, clayey = ll > 40.0, p > 10.0  # "41 min" / "11 min" read as above 40 / above 10
+    if granular:
+        group = ("A-2-7" if high else "A-2-6") if clayey else ("A-2-5" if high else "A-2-4")
+    elif not clayey:
+        group = "A-5" if high else "A-4"
+    elif not high:
+        group = "A-6"
+    else:
+        group = "A-7-5" if p <= ll - 30.0 else "A-7-6"
+    return Aashto(group, group_index(fines, ll, p, group=group))
 
 
 def _missing_for(

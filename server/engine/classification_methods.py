@@ -45,8 +45,10 @@ nonplastic or without limits), ``nonplastic``, ``plasticity_index`` (as used, wh
 ``organic`` and ``oven_dried_ll_ratio`` (when the oven-dried liquid limit is given). Example::
 
     {"uscs_symbol": "CL", "uscs_name": "Lean clay", "uscs_borderline": null,
-     "aashto_group": "A-7-6", "group_index": 18, "nonplastic": false, "plasticity_index": 19.0,
-     "plasticity_chart": {"liquid_limit": 41.0, "plasticity_index": 19.0, "a_line_pi": 15.33, ...}}
+     "aashto_group": "A-7-6", "group_index": 17, "nonplastic": false, "plasticity_index": 19.0,
+     "plasticity_chart": {"liquid_limit": 41.0, "plasticity_index": 19.0, "a_line_pi": 15.33,
+                          "u_line_pi": 29.7, "above_a_line": true, "above_u_line": false,
+                          "symbol": "CL", "beyond_u_line": false}}
 
 Flags: ``plastic-limit-not-below-liquid-limit`` (warning), ``above-u-line`` (warning),
 ``near-classification-boundary`` (warning), ``aashto-not-classified`` (warning: what is missing).
@@ -118,8 +120,7 @@ def _read_limits(r: Readings, out: Outcome) -> _Limits:
     given = nonplastic or any(r.present(k) for k in ("liquid_limit", "plastic_limit", "plasticity_index"))
     if nonplastic:
         return _Limits(ll=ll, nonplastic=True, given=True)
-    if r.has_errors_under("liquid_limit") or r.has_errors_under("plastic_limit") \
-            or r.has_errors_under("plasticity_index"):
+    if _errors_in(r, ("liquid_limit", "plastic_limit", "plasticity_index")):
         return _Limits(given=given)
     if ll is None and (pl is not None or pi is not None):
         r.refuse("liquid_limit", "liquid limit is required with a plastic limit or plasticity index")
@@ -209,7 +210,7 @@ def _read_coefficients(r: Readings, g: _Grading) -> None:
     cc = r.number("cc", name="coefficient of curvature Cc", required=False, above=0.0)
     ds = [r.number(k, name=n, unit="mm", required=False, above=0.0)
           for k, n in (("d10_mm", "D10"), ("d30_mm", "D30"), ("d60_mm", "D60"))]
-    if any(r.has_errors_under(k) for k in ("cu", "cc", "d10_mm", "d30_mm", "d60_mm")):
+    if _errors_in(r, ("cu", "cc", "d10_mm", "d30_mm", "d60_mm")):
         return
     if (cu is None) != (cc is None):
         r.refuse("cc" if cc is None else "cu", "Cu and Cc go together: give both")
@@ -267,7 +268,8 @@ def _require(r: Readings, lim: _Limits, g: _Grading, peat: bool) -> None:
 
 
 def _errors_in(r: Readings, keys: tuple[str, ...]) -> bool:
-    return any(r.has_errors_under(k) for k in keys)
+    """True when a refusal was recorded at or below one of these fields."""
+    return bool(r.errors) and any(r.has_errors_under(k) for k in keys)
 
 
 @method("classification", title="Soil classification (USCS and AASHTO)",
@@ -286,7 +288,7 @@ def classification_method(r: Readings, out: Outcome) -> None:
     _read_coefficients(r, g)
     ll_od = r.number("liquid_limit_oven_dried", name="oven-dried liquid limit", unit="%", required=False,
                      above=0.0, maximum=MAX_LIMIT)
-    if ll_od is not None and lim.ll is None and not r.has_errors_under("liquid_limit"):
+    if ll_od is not None and lim.ll is None and not _errors_in(r, ("liquid_limit",)):
         r.refuse("liquid_limit", "liquid limit (not dried) is required with the oven-dried liquid limit")
         ll_od = None
     _require(r, lim, g, peat)

@@ -71,7 +71,8 @@ def size_at_percent(curve: Curve, percent: float) -> float | None:
             continue
         if min(p_lo, p_hi) <= percent <= max(p_lo, p_hi):
             s = (percent - p_lo) / (p_hi - p_lo)
-            return math.exp(math.log(d_lo) + s * (math.log(d_hi) - math.log(d_lo)))
+            d = math.exp(math.log(d_lo) + s * (math.log(d_hi) - math.log(d_lo)))
+            return min(max(d, d_lo), d_hi)  # no rounding step outside the segment
     if len(pts) == 1 and pts[0][1] == percent:
         return pts[0][0]
     return None

@@ -236,7 +236,7 @@ def _write_fractions(curve: list[tuple[float, float]], out: Outcome) -> None:
             out.flag("boundary-sieve-missing", "warning",
                      f"no {_mm(size)} sieve and the curve does not reach it: the split at {_mm(size)} "
                      "is not reported")
-        elif value not in (0.0, 100.0) or g.percent_at_size(curve, size) is not None:
+        elif g.percent_at_size(curve, size) is not None:  # else proven 0 or 100 % beyond the ends
             out.flag("boundary-sieve-missing", "warning",
                      f"no {_mm(size)} sieve: percent passing {_mm(size)} is interpolated on log size "
                      f"({fmt(round(value, 1))} %)")
@@ -324,6 +324,7 @@ class HydrometerInputs:
 
 
 def _read_inputs(r: Readings, zero: list[tuple[float, float]] | None) -> HydrometerInputs | None:
+    """The test-wide values; the bounds on Gs and corrections only catch typing slips (our own)."""
     dry = r.number("dry_mass_g", name="dry mass of the specimen", unit="g", above=0.0)
     gs = r.number("specific_gravity", name="specific gravity of the solids", minimum=1.5, maximum=4.0)
     meter = _read_hydrometer_type(r)
@@ -454,13 +455,13 @@ def read_hydrometer(r: Readings, out: Outcome, *, sieve: SieveData | None = None
                                          f"passing the separation sieve ({fmt(got, '%')})")
             p75 = None
     points = _read_points(r, inputs, zero, sep_pct, out)
-    if sep_pct is None:
+    if sep_pct is None or inputs is None:
         return None
     out.results["hydrometer_points"] = [
         {"minutes": p.minutes, "diameter_mm": p.diameter_mm, "percent_finer": p.percent_finer}
         for p in points
     ]
-    if r.has_errors_under() or inputs is None or not points:
+    if r.has_errors_under() or not points:
         return points
     curve = [(p.diameter_mm, p.percent_finer) for p in points]
     _flag_monotone(curve, out, "hydrometer readings")

@@ -1,8 +1,8 @@
 """Indices formed from the limits: PI, LI, CI and activity.
 
-The limits are reported to the nearest whole number (ASTM D4318-17 cl. 19; BS 1377-2:1990
-cl. 4.3.6 and 5.5), and the indices are formed from those reported limits, so that the report
-reads consistently: PI = LL - PL of the printed numbers (ASTM D4318-17 cl. 19.1).
+The limits are reported to the nearest whole number (ASTM D4318-17; BS 1377-2:1990
+cl. 4.3 and 5; from memory), and the indices are formed from those reported limits, so that the report
+reads consistently: PI = LL - PL of the printed numbers (ASTM D4318-17; REFERENCES.md).
 """
 
 from __future__ import annotations
@@ -26,7 +26,7 @@ def reported_limit(value: float) -> float:
 
 
 def is_nonplastic(ll: float, pl: float) -> bool:
-    """Non-plastic when the plastic limit is equal to or above the liquid limit (ASTM D4318-17 cl. 19.2).
+    """Non-plastic when the plastic limit is equal to or above the liquid limit (ASTM D4318-17).
 
     Compared on the reported whole-number limits, so that a soil reported NP never shows a
     plasticity index of zero or below.
@@ -35,12 +35,12 @@ def is_nonplastic(ll: float, pl: float) -> bool:
 
 
 def plasticity_index(ll: float, pl: float) -> float:
-    """PI = LL - PL, from the reported whole-number limits (ASTM D4318-17 cl. 19.1)."""
+    """PI = LL - PL, from the reported whole-number limits (ASTM D4318-17; REFERENCES.md)."""
     return reported_limit(ll) - reported_limit(pl)
 
 
 def liquidity_index(w: float, ll: float, pl: float) -> float:
-    """LI = (w - PL) / PI, with the reported whole-number LL and PL (definition, e.g. Das 2010 §4.8).
+    """LI = (w - PL) / PI, with the reported whole-number LL and PL (definition; REFERENCES.md).
 
     Using the reported limits keeps LI + CI = 1 with the PI printed on the report.
     """
@@ -49,7 +49,7 @@ def liquidity_index(w: float, ll: float, pl: float) -> float:
 
 
 def consistency_index(w: float, ll: float, pl: float) -> float:
-    """CI = (LL - w) / PI, with the reported whole-number LL and PL (ISO 14688-2:2017 cl. 5.8).
+    """CI = (LL - w) / PI, with the reported whole-number LL and PL (definition, ISO 14688-2).
 
     Using the reported limits keeps LI + CI = 1 with the PI printed on the report.
     """

@@ -43,7 +43,7 @@ def cu_ratio_nc(pi: float) -> float:
 
 def swell_potential(pi: float) -> float:
     """Swell potential S = 2.16e-3 PI^2.44 %, compacted clay (Seed, Woodward & Lundgren 1962)."""
-    return 2.16e-3 * pi**2.44
+    return 2.16e-3 * math.pow(pi, 2.44)
 
 
 def swell_class(s: float) -> str:

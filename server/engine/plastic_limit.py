@@ -1,7 +1,7 @@
 """Plastic limit: the water content at which a rolled thread crumbles.
 
-Two or more determinations (threads of 3.2 mm, ASTM D4318-17 cl. 16; 3 mm, BS 1377-2:1990
-cl. 5.3), averaged (ASTM D4318-17 cl. 17; BS 1377-2:1990 cl. 5.4). BS 1377-2 asks for a repeat
+Two or more determinations (threads of 3.2 mm, ASTM D4318-17; 3 mm, BS 1377-2:1990 cl. 5),
+averaged (ASTM D4318-17; BS 1377-2:1990 cl. 5). BS 1377-2 asks for a repeat
 when two determinations differ by more than 0.5 % water content.
 """
 
@@ -12,7 +12,7 @@ from server.engine.readings import Readings
 from server.engine.uncertainty import Balance, Measured, expanded, u_mean, u_water_content
 from server.engine.water_content import mean, read_determinations
 
-# BS 1377-2:1990 cl. 5.4: repeat when the two results differ by more than 0.5 % (confirmed).
+# BS 1377-2:1990 cl. 5: repeat when the two results differ by more than 0.5 % (confirmed).
 MAX_SPREAD = 0.5
 _TOL = 1e-9
 
@@ -34,7 +34,7 @@ def plastic_limit_part(r: Readings, out: Outcome, balance: Balance) -> Measured 
     if spread > MAX_SPREAD + _TOL:
         out.flag("pl-determinations-apart", "warning",
                  f"the plastic-limit determinations are {spread:.2f} % apart, more than {MAX_SPREAD} % "
-                 "(BS 1377-2:1990 cl. 5.4): repeat the test")
+                 "(BS 1377-2:1990 cl. 5): repeat the test")
     pl = mean(values)
     u = u_mean([u_water_content(d.tare_g, d.wet_tare_g, d.dry_tare_g, balance.u_mass) for d in good])
     out.results["plastic_limit"] = pl

@@ -71,6 +71,15 @@ def _u_from_resolution(resolution: float) -> float:
     return resolution / math.sqrt(12.0)
 
 
+def _length_u(r: Readings) -> float | None:
+    """u of a length reading from the stated (or default) resolution; None if the field is refused."""
+    res = r.number("length_resolution_mm", name="length resolution", unit="mm", required=False, above=0.0,
+                   maximum=10.0)
+    if r.has_errors_under("length_resolution_mm"):
+        return None
+    return _u_from_resolution(DEFAULT_LENGTH_RESOLUTION_MM if res is None else res)
+
+
 def _specimen(r: Readings, key: str, label: str) -> Readings | None:
     return r.child(key, label=label, required=(key == "undisturbed"))
 
@@ -103,8 +112,7 @@ def vane_method(r: Readings, out: Outcome) -> None:
     d = r.number("diameter_mm", name="vane diameter", unit="mm", above=0.0, maximum=200.0)
     h = r.number("height_mm", name="vane height", unit="mm", above=0.0, maximum=400.0)
     res_t = r.number("torque_resolution_nm", name="torque resolution", unit="N·m", required=False, above=0.0)
-    res_l = r.number("length_resolution_mm", name="length resolution", unit="mm", required=False, above=0.0)
-    u_l = _u_from_resolution(DEFAULT_LENGTH_RESOLUTION_MM if res_l is None else res_l)
+    u_l = _length_u(r)
     cus: dict[str, float | None] = {}
     urels: dict[str, float | None] = {}
     for key, label in _SPECIMENS:
@@ -113,10 +121,10 @@ def vane_method(r: Readings, out: Outcome) -> None:
         if spec is None:
             continue
         torque = spec.number("torque_nm", name="peak torque", unit="N·m", above=0.0, maximum=1000.0)
-        if torque is None or d is None or h is None or r.has_errors_under("torque_resolution_nm"):
+        if torque is None or d is None or h is None:
             continue
         cus[key] = st.vane_strength_kpa(torque, d, h)
-        if res_t is not None:
+        if res_t is not None and u_l is not None:
             urels[key] = st.u_rel_vane(torque, _u_from_resolution(res_t), d, h, u_l)
     _write_strengths(out, cus, urels)
 
@@ -145,7 +153,8 @@ def fall_cone_method(r: Readings, out: Outcome) -> None:
     factor = r.number("cone_factor", name="cone factor", required=False, above=0.0, maximum=5.0)
     res = r.number("penetration_resolution_mm", name="penetration resolution", unit="mm", required=False,
                    above=0.0, maximum=5.0)
-    u_pen = _u_from_resolution(DEFAULT_PENETRATION_RESOLUTION_MM if res is None else res)
+    u_pen = (None if r.has_errors_under("penetration_resolution_mm")
+             else _u_from_resolution(DEFAULT_PENETRATION_RESOLUTION_MM if res is None else res))
     if factor is None and angle is not None:
         factor = st.DEFAULT_CONE_FACTOR[int(angle)]
     if factor is not None and not r.has_errors_under("cone_factor"):
@@ -162,16 +171,17 @@ def fall_cone_method(r: Readings, out: Outcome) -> None:
             continue
         mean_pen = sum(pens) / len(pens)
         out.results[f"{key}_penetration_mm"] = mean_pen
-        if mass is None or factor is None or r.has_errors_under("penetration_resolution_mm"):
+        if mass is None or factor is None:
             continue
         cus[key] = st.fall_cone_strength_kpa(mass, mean_pen, factor)
-        urels[key] = 2.0 * st.u_mean_penetration(pens, u_pen) / mean_pen
+        if u_pen is not None:
+            urels[key] = 2.0 * st.u_mean_penetration(pens, u_pen) / mean_pen
     _write_strengths(out, cus, urels)
 
 
 # -- unconfined compression ----------------------------------------------------------------------
 def _read_ucs_specimen(spec: Readings, out: Outcome, prefix: str, u_load: float | None,
-                       u_len: float) -> tuple[float | None, float | None]:
+                       u_len: float | None) -> tuple[float | None, float | None]:
     """One specimen: its stress-strain curve, qu, failure strain and flags; (cu, relative u)."""
     d = spec.number("diameter_mm", name="specimen diameter", unit="mm", above=0.0, maximum=500.0)
     h = spec.number("height_mm", name="specimen height", unit="mm", above=0.0, maximum=1000.0)
@@ -225,7 +235,7 @@ def _read_ucs_specimen(spec: Readings, out: Outcome, prefix: str, u_load: float 
                  "before 15 % strain: qu is only a lower bound")
     cu = fail.stress_kpa / 2.0
     urel: float | None = None
-    if u_load is not None and fail.stress_kpa > 0.0:
+    if u_load is not None and u_len is not None and fail.stress_kpa > 0.0:
         dh_f = fail.strain_pct / 100.0 * h
         area_m2 = math.pi * (d / 1000.0) ** 2 / 4.0 / (1.0 - dh_f / h)
         load_f = fail.stress_kpa * 1000.0 * area_m2
@@ -239,9 +249,8 @@ def _read_ucs_specimen(spec: Readings, out: Outcome, prefix: str, u_load: float 
 def unconfined_method(r: Readings, out: Outcome) -> None:
     """Stress-strain with area correction, qu by the D2166 rule, cu = qu / 2; sensitivity."""
     res_load = r.number("load_resolution_n", name="load resolution", unit="N", required=False, above=0.0)
-    res_l = r.number("length_resolution_mm", name="length resolution", unit="mm", required=False, above=0.0)
-    u_load = None if res_load is None else _u_from_resolution(res_load)
-    u_len = _u_from_resolution(DEFAULT_LENGTH_RESOLUTION_MM if res_l is None else res_l)
+    u_len = _length_u(r)
+    u_load = None if res_load is None or u_len is None else _u_from_resolution(res_load)
     cus: dict[str, float | None] = {}
     urels: dict[str, float | None] = {}
     for key, label in _SPECIMENS:

@@ -25,7 +25,7 @@ from server.engine.readings import Readings
 
 COVERAGE_FACTOR = 2.0
 
-# Balance readability of 0.01 g: ASTM D2216-19 cl. 6.2 / ASTM D4318-17 cl. 6.7 ask for a balance
+# Balance readability of 0.01 g: ASTM D2216-19 and ASTM D4318-17 ask for a balance
 # readable to 0.01 g for specimens of this size (from memory).
 DEFAULT_RESOLUTION_G = 0.01
 # Calibration standard uncertainty of half the readability when the certificate value is not

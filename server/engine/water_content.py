@@ -1,7 +1,7 @@
 """Water content of a soil specimen from its tare, wet and dry masses.
 
 w = (m_wet+tare - m_dry+tare) / (m_dry+tare - m_tare) x 100, in per cent of the dry mass
-(ASTM D2216-19 cl. 12.1; ISO 17892-1:2014 cl. 5). Every Atterberg test is a set of such
+(ASTM D2216-19, calculation; ISO 17892-1:2014). Every Atterberg test is a set of such
 determinations, so the same reader refuses the same bad masses wherever they appear.
 """
 
@@ -26,12 +26,12 @@ class Determination:
 
     @property
     def water_content(self) -> float:
-        """Water content in per cent of the dry mass (ASTM D2216-19 cl. 12.1)."""
+        """Water content in per cent of the dry mass (ASTM D2216-19)."""
         return water_content(self.tare_g, self.wet_tare_g, self.dry_tare_g)
 
 
 def water_content(tare_g: float, wet_tare_g: float, dry_tare_g: float) -> float:
-    """Mass of water over mass of dry soil, in per cent (ASTM D2216-19 cl. 12.1).
+    """Mass of water over mass of dry soil, in per cent (ASTM D2216-19).
 
     The caller guarantees ``dry_tare_g > tare_g`` (there is dry soil); ``read_determination``
     refuses anything else.
@@ -44,8 +44,7 @@ def _mass(r: Readings, key: str, name: str) -> float | None:
     runs on every keystroke at the bench); anything else goes through the full reader, which
     gives the same answer and words the refusal."""
     raw = r.data.get(key)
-    kind = type(raw)
-    if (kind is float or kind is int) and 0.0 <= raw < math.inf:
+    if (type(raw) is float or type(raw) is int) and 0.0 <= raw < math.inf:
         return float(raw)
     return r.number(key, name=name, unit="g", minimum=0.0)
 

@@ -190,7 +190,7 @@ class _Svg:
         self.title = title
         self.parts: list[str] = []
 
-    def add(self, tag: str, text: str | None = None, **attrs: object) -> None:
+    def add(self, tag: str, text: str | None = None, /, **attrs: object) -> None:
         body = " ".join(f'{k.rstrip("_").replace("_", "-")}="{_t(v)}"' for k, v in attrs.items())
         if text is None:
             self.parts.append(f"<{tag} {body}/>")

@@ -24,9 +24,9 @@ from typing import Any
 import segno
 from jinja2 import Environment, FileSystemLoader, StrictUndefined
 from markupsafe import Markup
-from weasyprint import HTML
-from weasyprint.text.fonts import FontConfiguration
-from weasyprint.urls import URLFetcher
+from weasyprint import HTML  # type: ignore[import-untyped]
+from weasyprint.text.fonts import FontConfiguration  # type: ignore[import-untyped]
+from weasyprint.urls import URLFetcher  # type: ignore[import-untyped]
 
 from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
 
@@ -86,6 +86,7 @@ def _epoch(data: ReportData) -> str:
 def render_report_pdf(data: ReportData) -> bytes:
     """The report as A4 PDF bytes; the same data gives the same bytes."""
     html = render_report_html(data)
+    pdf: bytes | None = None
     with _LOCK:
         previous = os.environ.get("SOURCE_DATE_EPOCH")
         os.environ["SOURCE_DATE_EPOCH"] = _epoch(data)

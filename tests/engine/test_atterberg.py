@@ -168,7 +168,12 @@ def test_refuses_a_test_date_that_is_not_a_date() -> None:
 def test_refuses_a_clay_fraction_above_the_fines() -> None:
     ev = evaluate("atterberg", full_set(clay_fraction=90.0))
     assert [e.loc for e in ev.errors] == [("readings", "clay_fraction")]
-    assert "activity" not in ev.results
+    assert "activity" not in ev.results and "clay_fraction" not in ev.results
+
+
+def test_gives_no_activity_for_a_clay_fraction_of_zero() -> None:
+    r = calculate("atterberg", full_set(clay_fraction=0.0)).results
+    assert r["clay_fraction"] == 0.0 and "activity" not in r
 
 
 def test_descriptors_and_interpretation_are_kept_apart_from_measured_results() -> None:

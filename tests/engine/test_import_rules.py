@@ -15,6 +15,8 @@ def _outside_imports(path: Path) -> list[str]:
     bad: list[str] = []
     for node in ast.walk(tree):
         names: list[str] = []
+        if not isinstance(node, ast.Import | ast.ImportFrom):
+            continue
         if isinstance(node, ast.Import):
             names = [alias.name for alias in node.names]
         elif isinstance(node, ast.ImportFrom):

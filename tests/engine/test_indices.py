@@ -14,6 +14,7 @@ from server.engine.indices import (
     plasticity_index,
     reported_limit,
 )
+from server.engine.rounding import round_half_up
 
 
 def test_plasticity_index_comes_from_the_reported_whole_number_limits() -> None:
@@ -52,3 +53,10 @@ def test_liquidity_and_consistency_index_add_up_to_one(w: float, pl: float, pi: 
     # CI = 1 - LI (definitions, REFERENCES.md: CI = (LL - w)/PI = 1 - LI).
     ll = reported_limit(pl) + pi
     assert liquidity_index(w, ll, pl) + consistency_index(w, ll, pl) == pytest.approx(1.0, abs=1e-9)
+
+
+@settings(database=None)
+@given(value=st.one_of(st.floats(0.0, 500.0), st.integers(0, 1000).map(lambda n: n / 2)))
+def test_reported_limit_rounds_exactly_as_round_half_up(value: float) -> None:
+    # The short path of reported_limit must agree with rounding.round_half_up (common practice: half up).
+    assert reported_limit(value) == round_half_up(value, 0)

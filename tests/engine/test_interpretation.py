@@ -33,8 +33,8 @@ def test_undrained_strength_ratio_of_a_normally_consolidated_clay() -> None:
 
 
 def test_swell_potential_and_its_class() -> None:
-    # Seed, Woodward & Lundgren (1962): S = 2.16e-3 PI^2.44; PI 30 -> 30^2.44 = 4019.5, S = 8.68 % (computed), "high"
-    # (classes from memory: 5-25 % high).
+    # Seed, Woodward & Lundgren (1962): S = 2.16e-3 PI^2.44; PI 30 -> 30^2.44 = 4019.5,
+    # S = 8.68 % (computed), "high" (classes from memory: 5-25 % high).
     assert swell_potential(30) == pytest.approx(8.68, abs=0.01)
     assert swell_class(swell_potential(30)) == "high"
     assert swell_class(1.5) == "low" and swell_class(25.0) == "high" and swell_class(26.0) == "very high"
@@ -44,7 +44,8 @@ def test_every_entry_has_value_unit_source_and_says_indicative() -> None:
     notes = interpret({"nonplastic": False, "liquid_limit": 39.67, "plasticity_index": 19.0,
                        "liquidity_index": 0.75})
     assert set(notes) == {"compression_index_undisturbed", "compression_index_remoulded",
-                          "remoulded_undrained_strength_kpa", "undrained_strength_ratio_nc", "swell_potential"}
+                          "remoulded_undrained_strength_kpa", "undrained_strength_ratio_nc",
+                          "swell_potential"}
     for entry in notes.values():
         assert {"value", "unit", "source"} <= set(entry)
         assert "indicative" in entry["basis"]

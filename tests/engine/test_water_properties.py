@@ -59,8 +59,8 @@ def test_density_agrees_with_iapws95_to_one_ppm(temperature_c: float,
 
 
 @pytest.mark.parametrize("temperature_c", TEMPERATURES_C)
-def test_viscosity_agrees_with_iapws_at_one_atmosphere(temperature_c: float,
-                                                       iapws95_at_one_atmosphere: dict[float, IAPWS95]) -> None:
+def test_viscosity_agrees_with_iapws_at_one_atmosphere(
+        temperature_c: float, iapws95_at_one_atmosphere: dict[float, IAPWS95]) -> None:
     # `iapws` IAPWS95(T, P).mu: IAPWS 2008 viscosity at the IAPWS-95 density.
     assert water_viscosity(temperature_c) == pytest.approx(iapws95_at_one_atmosphere[temperature_c].mu,
                                                            rel=2e-6)
