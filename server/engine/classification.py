@@ -23,8 +23,9 @@ USCS, ASTM D2487-17 (REFERENCES.md "Classification"; Table 1 and Figs. 1a, 1b, 4
   "with gravel"; >= 30 "sandy"/"gravelly", plus "with gravel"/"with sand" when the other coarse
   fraction is >= 15 %; coarse soils add "with sand"/"with gravel" at >= 15 % of the other;
   organic fines in a coarse soil add "with organic fines";
-- nonplastic fines (no PL, or PL >= LL, ASTM D4318) classify as ML: a nonplastic fine soil is a
-  silt, a coarse soil with nonplastic fines is GM or SM (common practice);
+- nonplastic fines (no PL, or PL >= LL, ASTM D4318) plot at PI 0, below the A-line: a silt, ML
+  (MH when a liquid limit of 50 or more was measured), and a coarse soil with nonplastic fines
+  is GM or SM (common practice);
 - peat (PT) is identified by eye (ASTM D2487 cl. 1 and D2488): a flag the caller passes.
 
 AASHTO M 145 (REFERENCES.md "Classification"; Table 2 read left to right, A-3 placed before A-2):
@@ -75,7 +76,6 @@ FINE_NAMES = {
     "CH": "fat clay",
     "MH": "elastic silt",
 }
-FINE_SYMBOLS = frozenset({"CL", "CL-ML", "ML", "CH", "MH", "OL", "OH", "PT"})
 
 
 class MissingInput(ValueError):
@@ -130,10 +130,15 @@ def fines_symbol(ll: float | None, pi: float | None, *, nonplastic: bool = False
     if nonplastic or pi is None or pi <= 0.0:
         if not nonplastic and pi is None:
             raise MissingInput(("liquid_limit", "plastic_limit"), "the limits of the fines are needed")
-        return "ML"
+        return _nonplastic_symbol(ll)
     if ll is None:
         raise MissingInput(("liquid_limit",), "the liquid limit is needed")
     return chart_symbol(ll, pi)
+
+
+def _nonplastic_symbol(ll: float | None) -> str:
+    """A nonplastic soil plots at PI 0, below the A-line: MH with a measured LL of 50 or more, else ML."""
+    return "MH" if ll is not None and ll >= HIGH_LL else "ML"
 
 
 def _coarse_split(
@@ -177,7 +182,7 @@ def _fine_grained(
 ) -> Uscs:
     """Fine-grained soil (50 % or more fines, or fines not given): symbol from the chart."""
     if nonplastic:
-        symbol = "ML"
+        symbol = _nonplastic_symbol(ll)
     else:
         if ll is None or pi is None:
             raise MissingInput(("liquid_limit", "plastic_limit"), "the liquid and plastic limits are needed")

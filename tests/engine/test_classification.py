@@ -127,9 +127,11 @@ def test_group_name_prefix_is_written_in_lower_case_inside_the_name() -> None:
 
 
 def test_nonplastic_fine_soil_is_a_silt() -> None:
-    # ASTM D4318: NP when no plastic limit; a nonplastic fine soil is ML (common practice).
+    # ASTM D4318: NP when no plastic limit; it plots at PI 0, below the A-line (common practice).
     assert uscs(None, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0) == Uscs("ML", "Silt")
     assert uscs(30.0, 0.0, fines=90.0, sand=10.0, gravel=0.0).symbol == "ML"  # PI 0 is nonplastic
+    # ASTM D2487 Fig. 1a: LL >= 50 below the A-line is MH.
+    assert uscs(55.0, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0) == Uscs("MH", "Elastic silt")
 
 
 def test_fines_not_given_classify_from_the_chart_alone() -> None:
