@@ -58,12 +58,24 @@ def cmd_calc(args: argparse.Namespace) -> int:
     try:
         request: Any = json.loads(raw)
     except json.JSONDecodeError as exc:
-        json.dump({"detail": [{"loc": ["body"], "msg": f"not valid JSON: {exc}", "type": "invalid"}]}, sys.stdout)
+        json.dump(
+            {"detail": [{"loc": ["body"], "msg": f"not valid JSON: {exc}", "type": "invalid"}]}, sys.stdout
+        )
         print()
         return 2
     if not isinstance(request, dict) or not isinstance(request.get("method"), str):
-        json.dump({"detail": [{"loc": ["method"], "msg": "a JSON object with a method id is required",
-                               "type": "missing"}]}, sys.stdout)
+        json.dump(
+            {
+                "detail": [
+                    {
+                        "loc": ["method"],
+                        "msg": "a JSON object with a method id is required",
+                        "type": "missing",
+                    }
+                ]
+            },
+            sys.stdout,
+        )
         print()
         return 2
     try:
@@ -101,7 +113,9 @@ def parser() -> argparse.ArgumentParser:
     d = sub.add_parser("demo", help="create a demo database with a fictional job, then serve it")
     d.add_argument("--host", default="127.0.0.1")
     d.add_argument("--port", type=int, default=8000)
-    d.add_argument("--keep", action="store_true", help="keep an existing demo database instead of starting afresh")
+    d.add_argument(
+        "--keep", action="store_true", help="keep an existing demo database instead of starting afresh"
+    )
     d.add_argument("--no-serve", action="store_true", help="load the demo data and stop")
     d.set_defaults(fn=cmd_demo)
 

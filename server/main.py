@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from urllib.parse import urlencode
+
 from fastapi import FastAPI, Request
 from fastapi.responses import JSONResponse, RedirectResponse
 from fastapi.staticfiles import StaticFiles
@@ -21,13 +23,21 @@ from server.web.templating import render
 def create_app(settings: Settings | None = None, db: Database | None = None) -> FastAPI:
     """Build the app for these settings; tests pass their own settings and database."""
     settings = settings or get_settings()
-    app = FastAPI(title="Claybench", version=__version__,
-                  description="Index testing for a soils laboratory: calculations, bench, review, reports.")
+    app = FastAPI(
+        title="Claybench",
+        version=__version__,
+        description="Index testing for a soils laboratory: calculations, bench, review, reports.",
+    )
     app.state.settings = settings
     app.state.db = db or Database(settings.database_url)
-    app.add_middleware(SessionMiddleware, secret_key=settings.resolved_secret_key(),
-                       session_cookie="claybench_session", max_age=settings.session_max_age_s,
-                       same_site="lax", https_only=settings.https_only_cookies)
+    app.add_middleware(
+        SessionMiddleware,
+        secret_key=settings.resolved_secret_key(),
+        session_cookie="claybench_session",
+        max_age=settings.session_max_age_s,
+        same_site="lax",
+        https_only=settings.https_only_cookies,
+    )
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
     for module in (signin, jobs, bench, review, client):
@@ -37,9 +47,11 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     def healthz(request: Request) -> JSONResponse:
         try:
             with request.app.state.db.session() as s:
-                s.exec(text("SELECT 1"))  # type: ignore[call-overload]
+                s.exec(text("SELECT 1"))
         except Exception as exc:  # noqa: BLE001 - any database failure means "not healthy"
-            return JSONResponse({"status": "database unavailable", "error": type(exc).__name__}, status_code=503)
+            return JSONResponse(
+                {"status": "database unavailable", "error": type(exc).__name__}, status_code=503
+            )
         return JSONResponse({"status": "ok", "version": __version__})
 
     @app.exception_handler(SignInRequired)
@@ -48,7 +60,8 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
             return JSONResponse({"detail": "sign in required"}, status_code=401)
         if request.headers.get("hx-request") == "true":
             return Response(status_code=401, headers={"HX-Redirect": "/signin"})
-        return RedirectResponse(f"/signin?next={request.url.path}", status_code=303)
+        target = request.url.path + (f"?{request.url.query}" if request.url.query else "")
+        return RedirectResponse(f"/signin?{urlencode({'next': target})}", status_code=303)
 
     @app.exception_handler(RoleRequired)
     def _role(request: Request, exc: RoleRequired) -> Response:

@@ -31,8 +31,12 @@ from server.services.users import create_user
 
 PG_ENV = "CLAYBENCH_TEST_POSTGRES_URL"
 BACKENDS = ["sqlite", "postgresql"]
-PASSWORDS = {"tech": "tech-password-1", "review": "review-password-1", "review2": "review2-password-1",
-             "admin": "admin-password-1"}
+PASSWORDS = {
+    "tech": "tech-password-1",
+    "review": "review-password-1",
+    "review2": "review2-password-1",
+    "admin": "admin-password-1",
+}
 
 
 def _pg_admin_url() -> str | None:
@@ -82,8 +86,9 @@ def pg_template() -> Iterator[tuple[str, str] | None]:
 
 
 @pytest.fixture
-def database_url(backend: str, tmp_path: Path, sqlite_template: Path,
-                 pg_template: tuple[str, str] | None) -> Iterator[str]:
+def database_url(
+    backend: str, tmp_path: Path, sqlite_template: Path, pg_template: tuple[str, str] | None
+) -> Iterator[str]:
     """A fresh, migrated database for one test, on the backend of this run of the test."""
     if backend == "sqlite":
         path = tmp_path / "claybench.sqlite3"
@@ -118,8 +123,12 @@ def db(database_url: str) -> Iterator[Database]:
 
 @pytest.fixture
 def settings(tmp_path: Path, database_url: str) -> Settings:
-    return Settings(data_dir=tmp_path / "data", DATABASE_URL=database_url, secret_key="t" * 48,
-                    public_base_url="http://testserver")
+    return Settings(
+        data_dir=tmp_path / "data",
+        DATABASE_URL=database_url,
+        secret_key="t" * 48,
+        public_base_url="http://testserver",
+    )
 
 
 @dataclass

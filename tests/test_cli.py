@@ -18,9 +18,18 @@ from tests.support.bad_inputs import BAD_ATTERBERG
 from tests.support.scenario import ATTERBERG
 
 
-def claybench(*args: str, stdin: str = "", env: dict[str, str] | None = None) -> subprocess.CompletedProcess[str]:
-    return subprocess.run([sys.executable, "-m", "server.cli", *args], input=stdin, capture_output=True, text=True,
-                          env={**os.environ, **(env or {})}, timeout=120, check=False)
+def claybench(
+    *args: str, stdin: str = "", env: dict[str, str] | None = None
+) -> subprocess.CompletedProcess[str]:
+    return subprocess.run(
+        [sys.executable, "-m", "server.cli", *args],
+        input=stdin,
+        capture_output=True,
+        text=True,
+        env={**os.environ, **(env or {})},
+        timeout=120,
+        check=False,
+    )
 
 
 def test_calc_gives_the_same_answer_as_the_api(app_client: TestClient) -> None:
@@ -56,10 +65,19 @@ def test_migrate_and_create_user_work_on_the_configured_database(tmp_path: Path)
     url = f"sqlite:///{tmp_path / 'cli.sqlite3'}"
     env = {"DATABASE_URL": url, "CLAYBENCH_DATA_DIR": str(tmp_path)}
     assert claybench("migrate", env=env).returncode == 0
-    made = claybench("create-user", "Lab.Admin", "--role", "admin", "--full-name", "Lab Admin",
-                     env={**env, "CLAYBENCH_NEW_PASSWORD": "a-long-password"})
+    made = claybench(
+        "create-user",
+        "Lab.Admin",
+        "--role",
+        "admin",
+        "--full-name",
+        "Lab Admin",
+        env={**env, "CLAYBENCH_NEW_PASSWORD": "a-long-password"},
+    )
     assert made.returncode == 0, made.stderr
-    refused = claybench("create-user", "shorty", "--role", "admin", env={**env, "CLAYBENCH_NEW_PASSWORD": "short"})
+    refused = claybench(
+        "create-user", "shorty", "--role", "admin", env={**env, "CLAYBENCH_NEW_PASSWORD": "short"}
+    )
     assert refused.returncode == 2 and "at least" in refused.stderr
     db = Database(url)
     with db.session() as s:

@@ -21,8 +21,9 @@ from tests.support.http import post_form, sign_in
 from tests.support.scenario import ATTERBERG, form_fields, small_job
 
 
-def test_atterberg_test_goes_from_bench_to_client_download(app_client: TestClient, db: Database,
-                                                           people: People) -> None:
+def test_atterberg_test_goes_from_bench_to_client_download(
+    app_client: TestClient, db: Database, people: People
+) -> None:
     job = small_job(db, people.admin)
     bench_path = f"/tests/{job.test_id}"
 
@@ -31,11 +32,21 @@ def test_atterberg_test_goes_from_bench_to_client_download(app_client: TestClien
     page = app_client.get(bench_path)
     assert page.status_code == 200
     version = re.search(r'name="version" value="(\d+)"', page.text).group(1)  # type: ignore[union-attr]
-    preview = post_form(app_client, bench_path, f"{bench_path}/preview", form_fields(ATTERBERG),
-                        headers={"HX-Request": "true"})
+    preview = post_form(
+        app_client,
+        bench_path,
+        f"{bench_path}/preview",
+        form_fields(ATTERBERG),
+        headers={"HX-Request": "true"},
+    )
     assert 'id="res-liquid_limit"' in preview.text and "40 %" in preview.text  # LL 39.67 shown as 40 (Das)
-    saved = post_form(app_client, bench_path, f"{bench_path}/readings",
-                      [*form_fields(ATTERBERG), ("version", version), ("then", "submit")], follow_redirects=False)
+    saved = post_form(
+        app_client,
+        bench_path,
+        f"{bench_path}/readings",
+        [*form_fields(ATTERBERG), ("version", version), ("then", "submit")],
+        follow_redirects=False,
+    )
     assert saved.status_code == 303, saved.text
     assert "submitted" in app_client.get(bench_path).text
     app_client.post("/signout", data={"csrf_token": ""})
@@ -46,8 +57,13 @@ def test_atterberg_test_goes_from_bench_to_client_download(app_client: TestClien
     review_path = f"/review/{job.test_id}"
     page = app_client.get(review_path)
     version = re.search(r'name="version" value="(\d+)"', page.text).group(1)  # type: ignore[union-attr]
-    approved = post_form(app_client, review_path, f"{review_path}/approve",
-                         {"version": version, "password": PASSWORDS["review"]}, follow_redirects=False)
+    approved = post_form(
+        app_client,
+        review_path,
+        f"{review_path}/approve",
+        {"version": version, "password": PASSWORDS["review"]},
+        follow_redirects=False,
+    )
     assert approved.status_code == 303, approved.text
     job_path = f"/jobs/{job.job_id}"
     issued = post_form(app_client, job_path, f"{job_path}/reports", {}, follow_redirects=False)

@@ -12,13 +12,17 @@ class CalculationRequest(BaseModel):
 
     model_config = ConfigDict(
         json_schema_extra={
-            "examples": [{
-                "method": "plastic-limit",
-                "readings": {"determinations": [
-                    {"container": "T-3", "tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
-                    {"container": "T-4", "tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57},
-                ]},
-            }]
+            "examples": [
+                {
+                    "method": "plastic-limit",
+                    "readings": {
+                        "determinations": [
+                            {"container": "T-3", "tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
+                            {"container": "T-4", "tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57},
+                        ]
+                    },
+                }
+            ]
         }
     )
 

@@ -48,7 +48,7 @@ def sign_out(request: Request) -> None:
 def signed_in_user(request: Request) -> User | None:
     """The active user the session names, or None (also when the session was revoked)."""
     if "user" in request.state._state:
-        return request.state.user  # type: ignore[no-any-return]
+        return request.state.user
     user = None
     uid = request.session.get("uid")
     if isinstance(uid, int):
@@ -110,4 +110,6 @@ async def csrf_protect(request: Request) -> None:
         value = form.get("csrf_token")
         sent = value if isinstance(value, str) else None
     if not expected or not sent or not hmac.compare_digest(str(expected), sent):
-        raise CsrfRefused("the form has expired or did not come from this site; reload the page and try again")
+        raise CsrfRefused(
+            "the form has expired or did not come from this site; reload the page and try again"
+        )

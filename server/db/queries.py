@@ -48,7 +48,8 @@ def readings_authors(session: Session, test_id: int) -> set[int]:
     """Everyone who entered or changed readings of this test revision (from the audit trail)."""
     rows = session.exec(
         select(AuditEvent.actor_id).where(
-            AuditEvent.entity == "lab_test", AuditEvent.entity_id == test_id,
+            AuditEvent.entity == "lab_test",
+            AuditEvent.entity_id == test_id,
             col(AuditEvent.action).in_(["readings", "amend"]),
         )
     ).all()
@@ -149,17 +150,23 @@ def job_sheet(session: Session, job_id: int) -> JobSheet | None:
         return None
     client = session.get(Client, job.client_id)
     assert client is not None
-    locations = list(session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code))))
+    locations = list(
+        session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code)))
+    )
     samples: dict[int, list[Sample]] = {loc.id or 0: [] for loc in locations}
     for sample in session.exec(
-        select(Sample).join(Location, col(Location.id) == Sample.location_id)
-        .where(Location.job_id == job_id).order_by(col(Sample.depth_from_m), col(Sample.code))
+        select(Sample)
+        .join(Location, col(Location.id) == Sample.location_id)
+        .where(Location.job_id == job_id)
+        .order_by(col(Sample.depth_from_m), col(Sample.code))
     ):
         samples[sample.location_id].append(sample)
     tests: dict[int, list[LabTest]] = {}
     for row in current_tests(session, job_id):
         tests.setdefault(row.sample.id or 0, []).append(row.test)
-    links = list(session.exec(
-        select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
-    ))
+    links = list(
+        session.exec(
+            select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
+        )
+    )
     return JobSheet(job, client, locations, samples, tests, job_reports(session, job_id), links)

@@ -30,8 +30,9 @@ def make_engine(url: str) -> Engine:
         return create_engine(url, pool_size=10, max_overflow=20, pool_pre_ping=True)
     if parsed.database and parsed.database != ":memory:":
         Path(parsed.database).parent.mkdir(parents=True, exist_ok=True)
-    engine = create_engine(url, connect_args={"check_same_thread": False, "timeout": 5},
-                           pool_size=10, max_overflow=20)
+    engine = create_engine(
+        url, connect_args={"check_same_thread": False, "timeout": 5}, pool_size=10, max_overflow=20
+    )
 
     @event.listens_for(engine, "connect")
     def _pragmas(dbapi_conn: Any, _record: Any) -> None:

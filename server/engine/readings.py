@@ -47,7 +47,7 @@ class Readings:
 
     def __init__(
         self,
-        data: Mapping[str, Any],
+        data: Mapping[Any, Any],
         loc: Loc = (),
         label: str = "",
         errors: list[FieldError] | None = None,
@@ -74,12 +74,12 @@ class Readings:
         return any(e.loc[:n] == prefix for e in self.errors)
 
     # -- fields ---------------------------------------------------------------------------
-    def present(self, key: str) -> bool:
+    def present(self, key: str | int) -> bool:
         return key in self.data and self.data[key] is not None and self.data[key] != ""
 
     def number(
         self,
-        key: str,
+        key: str | int,
         *,
         name: str,
         unit: str = "",
@@ -94,18 +94,16 @@ class Readings:
         ``minimum``/``maximum`` are inclusive bounds, ``above`` an exclusive lower bound.
         Numeric strings are accepted (form fields arrive as text); anything else is refused.
         """
-        if not self.present(key):
-            if required:
-                self.refuse(key, f"{name} is required", "missing")
-            return None
-        raw = self.data[key]
-        if isinstance(raw, bool):
-            self.refuse(key, f"{name} must be a number, not {raw!r}")
-            return None
-        try:
-            value = float(str(raw).strip()) if isinstance(raw, str) else float(raw)
-        except (TypeError, ValueError):
-            self.refuse(key, f"{name} must be a number, not {raw!r}")
+        raw: Any = self.data.get(key)
+        kind = type(raw)
+        value: float | None
+        if kind is float:  # the common cases, kept fast: the engine reads many numbers
+            value = raw
+        elif kind is int and -(2**53) < raw < 2**53:
+            value = float(raw)
+        else:
+            value = self._parse_number(key, raw, name=name, required=required)
+        if value is None:
             return None
         if not math.isfinite(value):
             self.refuse(key, f"{name} must be a finite number")
@@ -123,6 +121,21 @@ class Readings:
             self.refuse(key, f"{name} ({fmt(value, unit)}) is above {fmt(maximum, unit)}")
             return None
         return int(value) if integer else value
+
+    def _parse_number(self, key: str | int, raw: Any, *, name: str, required: bool) -> float | None:
+        """The slow path of ``number``: absent values, numeric text, and refusals."""
+        if raw is None or raw == "":
+            if required:
+                self.refuse(key, f"{name} is required", "missing")
+            return None
+        if isinstance(raw, bool) or not isinstance(raw, str | int | float):
+            self.refuse(key, f"{name} must be a number, not {raw!r}")
+            return None
+        try:
+            return float(raw.strip()) if isinstance(raw, str) else float(raw)
+        except (ValueError, OverflowError):
+            self.refuse(key, f"{name} must be a number, not {raw!r}")
+            return None
 
     def numbers(
         self,
@@ -145,8 +158,14 @@ class Readings:
         child = Readings({i: v for i, v in enumerate(raw)}, (*self.loc, key), self.label, self.errors)
         values: list[float] = []
         for i in range(len(raw)):
-            v = child.number(i, name=f"{name} {i + 1}", unit=unit, minimum=minimum,  # type: ignore[arg-type]
-                             maximum=maximum, above=above)
+            v = child.number(
+                i,
+                name=f"{name} {i + 1}",
+                unit=unit,
+                minimum=minimum,
+                maximum=maximum,
+                above=above,
+            )
             if v is not None:
                 values.append(v)
         if len(values) != len(raw):
@@ -156,7 +175,9 @@ class Readings:
             return None
         return values
 
-    def choice(self, key: str, *, name: str, choices: Sequence[str], default: str | None = None) -> str | None:
+    def choice(
+        self, key: str, *, name: str, choices: Sequence[str], default: str | None = None
+    ) -> str | None:
         """One of a fixed set of words (a cone type, a specimen state)."""
         if not self.present(key):
             if default is not None:
@@ -197,19 +218,20 @@ class Readings:
             return None
         return Readings(raw, (*self.loc, key), label, self.errors)
 
-    def items(self, key: str, *, noun: str, min_items: int = 0,
-              max_items: int | None = None) -> list[Readings]:
+    def items(
+        self, key: str, *, noun: str, min_items: int = 0, max_items: int | None = None
+    ) -> list[Readings]:
         """A list of objects (trials, determinations), each labelled "noun n" after this label."""
         raw = self.data.get(key)
         if raw is None:
             raw = []
-        if not isinstance(raw, Sequence) or isinstance(raw, str):
+        if type(raw) is not list and (not isinstance(raw, Sequence) or isinstance(raw, str)):
             self.refuse(key, f"{noun}s must be a list")
             return []
         out: list[Readings] = []
         for i, item in enumerate(raw):
             prefix = f"{self.label}, {noun} {i + 1}" if self.label else f"{noun} {i + 1}"
-            if not isinstance(item, Mapping):
+            if type(item) is not dict and not isinstance(item, Mapping):
                 self.errors.append(FieldError((*self.loc, key, i), f"{prefix} must be an object"))
                 continue
             out.append(Readings(item, (*self.loc, key, i), prefix, self.errors))

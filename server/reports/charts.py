@@ -147,6 +147,8 @@ class Axis:
     def ticks(self) -> list[tuple[float, bool]]:
         """(value, labelled) for every grid line, in increasing order."""
         if not self.log:
+            if self.step <= 0:
+                return [(self.lo, True), (self.hi, True)]
             count = round((self.hi - self.lo) / self.step)
             return [(round(self.lo + i * self.step, 9), True) for i in range(count + 1)]
         decades = math.log10(self.hi / self.lo)
@@ -365,13 +367,16 @@ def flow_curve_svg(
                      stroke_dasharray="4 3", class_="ll-marker")
         at = f"{_tick_text(target)} mm" if cone else f"N = {_tick_text(target)}"
         label = f"LL = {reported('liquid_limit', ll)} at {at}"
-        # Left of the marker, on the side of the horizontal the fitted line leaves free.
+        # Beside the marker, on the side of the dashed horizontal that the fitted line leaves free:
+        # left of it when there is room, else right of it.
         assert slope is not None
-        dy = 11.0 if slope < 0 else -5.0
+        below, above = 11.0, -5.0
         if tx - 4 - len(label) * SMALL * 0.6 >= left:
-            svg.text(tx - 4, ty + dy, label, text_anchor="end", font_size=_n(SMALL), class_="ll-label")
+            svg.text(tx - 4, ty + (below if slope < 0 else above), label, text_anchor="end",
+                     font_size=_n(SMALL), class_="ll-label")
         else:
-            svg.text(tx + 5, ty - dy + 6 if dy < 0 else ty - 5, label, font_size=_n(SMALL), class_="ll-label")
+            svg.text(tx + 5, ty + (above if slope < 0 else below), label, font_size=_n(SMALL),
+                     class_="ll-label")
         r2 = _num(fit.get("r2")) if fit is not None else None
         if r2 is not None:
             svg.text(right - 4, top + 12, f"fitted line, r\u00b2 = {r2:.3f}", text_anchor="end",
@@ -488,7 +493,8 @@ def plasticity_chart_svg(
     svg.text(x - 6, y, "U-line", text_anchor="end", font_size=_n(SMALL), font_style="italic")
 
     tries = ((7.0, 3.5, "start"), (-7.0, 3.5, "end"), (0.0, -7.0, "middle"), (0.0, 13.0, "middle"),
-             (6.0, -6.0, "start"), (-6.0, -6.0, "end"), (6.0, 12.0, "start"), (-6.0, 12.0, "end"))
+             (6.0, -6.0, "start"), (-6.0, -6.0, "end"), (6.0, 12.0, "start"), (-6.0, 12.0, "end"),
+             (0.0, -16.0, "middle"), (0.0, 22.0, "middle"), (14.0, 3.5, "start"), (-14.0, 3.5, "end"))
     for lab, x, y in marks:
         svg.add("circle", cx=_n(x), cy=_n(y), r="3.4", fill="#fff", stroke=INK, stroke_width="1.3",
                 class_="point")

@@ -244,6 +244,7 @@ class ChartPoint:
 class ReportView:
     data: ReportData
     issue_date: str
+    signed_at: str
     summary: tuple[SummaryRow, ...]
     sections: tuple[TestSection, ...]
     chart_points: tuple[ChartPoint, ...]
@@ -337,11 +338,30 @@ def _round2(value: float) -> str:
 
 
 def _depth_range(t: TestEntry) -> str:
+    """'1.20–1.65 m', or one depth when only the top is known, or '—'."""
+    if t.depth_from_m is None and t.depth_to_m is None:
+        return DASH
     a = DASH if t.depth_from_m is None else _round2(t.depth_from_m)
-    b = DASH if t.depth_to_m is None else _round2(t.depth_to_m)
     if t.depth_to_m is None:
         return f"{a} m"
-    return f"{a}–{b} m"
+    return f"{a}–{_round2(t.depth_to_m)} m"
+
+
+def moment(iso: str) -> str:
+    """An ISO 8601 time as '2025-03-14 15:58 UTC' (or with its offset); other text as given."""
+    try:
+        when = datetime.fromisoformat(iso)
+    except ValueError:
+        return iso
+    text = when.strftime("%Y-%m-%d %H:%M")
+    offset = when.utcoffset()
+    if offset is None:
+        return text
+    if not offset:
+        return f"{text} UTC"
+    minutes = int(offset.total_seconds() // 60)
+    sign = "+" if minutes > 0 else "-"
+    return f"{text} UTC{sign}{abs(minutes) // 60:02d}:{abs(minutes) % 60:02d}"
 
 
 def _sample_key(t: TestEntry) -> tuple[str, str, float | None, float | None]:
@@ -429,8 +449,7 @@ def result_lines(results: Mapping[str, Any]) -> tuple[ResultLine, ...]:
 
     for key, label, unit in RESULT_LABELS:
         if key in _NP_KEYS and (key in results or _nonplastic(results)):
-            lines.append(ResultLine(label, _limit(key, results), unit if key not in _NP_KEYS else "",
-                                    u_text(key)))
+            lines.append(ResultLine(label, _limit(key, results), unit, u_text(key)))
         elif results.get(key) is not None:
             lines.append(ResultLine(label, show(key, results[key]), unit, u_text(key)))
     if results.get("uscs_symbol") or results.get("uscs_name"):
@@ -513,7 +532,7 @@ def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
     fit = fit if isinstance(fit, Mapping) else None
     svg = flow_curve_svg(rows, fit)
     if fit is None:
-        return svg, "Trials of the one-point method; no line is fitted."
+        return svg, "The trials as tested; no line is fitted to them (one-point method)."
     slope, intercept = _number(fit.get("slope")), _number(fit.get("intercept"))
     cone = fit.get("x") == "penetration_mm"
     fx = ("log10 d" if fit.get("log_x") else "d") if cone else "log10 N"
@@ -616,6 +635,7 @@ def build_view(data: ReportData) -> ReportView:
     return ReportView(
         data=data,
         issue_date=data.issue_date.isoformat(),
+        signed_at=moment(data.approver.signed_at),
         summary=tuple(summary_row(g) for g in groups),
         sections=tuple(section_for(i, t) for i, t in enumerate(data.tests)),
         chart_points=tuple(p for p, _, _ in points),

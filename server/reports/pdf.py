@@ -24,9 +24,9 @@ from typing import Any
 import segno
 from jinja2 import Environment, FileSystemLoader, StrictUndefined
 from markupsafe import Markup
-from weasyprint import HTML  # type: ignore[import-untyped]
-from weasyprint.text.fonts import FontConfiguration  # type: ignore[import-untyped]
-from weasyprint.urls import URLFetcher  # type: ignore[import-untyped]
+from weasyprint import HTML
+from weasyprint.text.fonts import FontConfiguration
+from weasyprint.urls import URLFetcher
 
 from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
 

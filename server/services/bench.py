@@ -34,8 +34,9 @@ def load_test(session: Session, test_id: int) -> LabTest:
     return test
 
 
-def change_status(session: Session, actor: User, test: LabTest, action: Action,
-                  expected_version: int, **values: Any) -> str:
+def change_status(
+    session: Session, actor: User, test: LabTest, action: Action, expected_version: int, **values: Any
+) -> str:
     """Apply an allowed move under the optimistic lock; returns the status before it."""
     try:
         step = move(test.status, action, actor.role)
@@ -48,8 +49,9 @@ def change_status(session: Session, actor: User, test: LabTest, action: Action,
     return step.before.value
 
 
-def save_readings(db: Database, actor: User, test_id: int, readings: dict[str, Any],
-                  expected_version: int) -> Saved:
+def save_readings(
+    db: Database, actor: User, test_id: int, readings: dict[str, Any], expected_version: int
+) -> Saved:
     """Store readings as the draft of a test, with the engine's results and flags."""
     with db.transaction() as s:
         test = load_test(s, test_id)
@@ -58,10 +60,25 @@ def save_readings(db: Database, actor: User, test_id: int, readings: dict[str, A
         if wrong:
             raise Invalid(wrong)
         before = {"status": test.status, "readings": test.readings}
-        change_status(s, actor, test, Action.enter, expected_version,
-                      readings=readings, results=ev.results, flags=[f.to_dict() for f in ev.flags])
-        audit.record(s, actor, "lab_test", test_id, "readings", before=before,
-                     after={"status": test.status, "readings": readings})
+        change_status(
+            s,
+            actor,
+            test,
+            Action.enter,
+            expected_version,
+            readings=readings,
+            results=ev.results,
+            flags=[f.to_dict() for f in ev.flags],
+        )
+        audit.record(
+            s,
+            actor,
+            "lab_test",
+            test_id,
+            "readings",
+            before=before,
+            after={"status": test.status, "readings": readings},
+        )
     return Saved(test, ev)
 
 
@@ -72,10 +89,12 @@ def submit(db: Database, actor: User, test_id: int, expected_version: int) -> La
         ev = evaluate(test.method, test.readings or {})
         if ev.errors:
             raise Invalid(ev.errors)
-        before = change_status(s, actor, test, Action.submit, expected_version,
-                               submitted_at=utcnow(), return_reason=None)
-        audit.record(s, actor, "lab_test", test_id, "submit",
-                     before={"status": before}, after={"status": test.status})
+        before = change_status(
+            s, actor, test, Action.submit, expected_version, submitted_at=utcnow(), return_reason=None
+        )
+        audit.record(
+            s, actor, "lab_test", test_id, "submit", before={"status": before}, after={"status": test.status}
+        )
         return test
 
 

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from server.engine import METHODS, InputError, calculate as engine_calculate
+from server.engine import METHODS, InputError
+from server.engine import calculate as engine_calculate
 from server.services.errors import Invalid
 
 
@@ -17,4 +18,7 @@ def calculate(method: str, readings: Any) -> dict[str, Any]:
 
 
 def methods() -> list[dict[str, str]]:
-    return [{"id": m.id, "title": m.title, "standard": m.standard} for m in sorted(METHODS.values(), key=lambda m: m.id)]
+    return [
+        {"id": m.id, "title": m.title, "standard": m.standard}
+        for m in sorted(METHODS.values(), key=lambda m: m.id)
+    ]

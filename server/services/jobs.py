@@ -8,14 +8,16 @@ from datetime import date
 from sqlmodel import select
 
 from server.db.session import Database
-from server.db.tables import Client, Job, LabTest, Laboratory, Location, Sample, User
+from server.db.tables import Client, Job, Laboratory, LabTest, Location, Sample, User
 from server.engine import METHODS
 from server.services import audit
 from server.services.errors import Conflict, NotFound, invalid
 from server.workflow.states import Status
 
 
-def set_laboratory(db: Database, actor: User | None, name: str, address: str, accreditation: str) -> Laboratory:
+def set_laboratory(
+    db: Database, actor: User | None, name: str, address: str, accreditation: str
+) -> Laboratory:
     """The laboratory's details printed on reports (one record, created or updated)."""
     with db.transaction() as s:
         lab = s.exec(select(Laboratory)).first()
@@ -42,8 +44,15 @@ def create_client(db: Database, actor: User, name: str, contact: str = "") -> Cl
         return client
 
 
-def create_job(db: Database, actor: User, client_id: int, code: str, title: str, site: str = "",
-               due_date: date | None = None) -> Job:
+def create_job(
+    db: Database,
+    actor: User,
+    client_id: int,
+    code: str,
+    title: str,
+    site: str = "",
+    due_date: date | None = None,
+) -> Job:
     code = code.strip()
     if not code:
         raise invalid("code", "a job code is required")
@@ -52,7 +61,9 @@ def create_job(db: Database, actor: User, client_id: int, code: str, title: str,
             raise NotFound(f"client {client_id} does not exist")
         if s.exec(select(Job).where(Job.code == code)).first():
             raise Conflict(f"job {code!r} exists already")
-        job = Job(client_id=client_id, code=code, title=title.strip() or code, site=site.strip(), due_date=due_date)
+        job = Job(
+            client_id=client_id, code=code, title=title.strip() or code, site=site.strip(), due_date=due_date
+        )
         s.add(job)
         s.flush()
         audit.record(s, actor, "job", job.id or 0, "create", after=job.model_dump(mode="json"))
@@ -70,8 +81,16 @@ def add_location(db: Database, actor: User, job_id: int, code: str, kind: str = 
         return loc
 
 
-def add_sample(db: Database, actor: User, location_id: int, code: str, depth_from_m: float, depth_to_m: float,
-               sample_type: str = "disturbed", description: str = "") -> Sample:
+def add_sample(
+    db: Database,
+    actor: User,
+    location_id: int,
+    code: str,
+    depth_from_m: float,
+    depth_to_m: float,
+    sample_type: str = "disturbed",
+    description: str = "",
+) -> Sample:
     if depth_from_m < 0:
         raise invalid("depth_from_m", "depth from must be 0 m or more")
     if depth_to_m < depth_from_m:
@@ -79,16 +98,27 @@ def add_sample(db: Database, actor: User, location_id: int, code: str, depth_fro
     with db.transaction() as s:
         if s.get(Location, location_id) is None:
             raise NotFound(f"location {location_id} does not exist")
-        sample = Sample(location_id=location_id, code=code.strip(), depth_from_m=depth_from_m,
-                        depth_to_m=depth_to_m, sample_type=sample_type, description=description.strip())
+        sample = Sample(
+            location_id=location_id,
+            code=code.strip(),
+            depth_from_m=depth_from_m,
+            depth_to_m=depth_to_m,
+            sample_type=sample_type,
+            description=description.strip(),
+        )
         s.add(sample)
         s.flush()
         audit.record(s, actor, "sample", sample.id or 0, "create", after=sample.model_dump(mode="json"))
         return sample
 
 
-def request_tests(db: Database, actor: User, sample_ids: Iterable[int], methods: Iterable[str],
-                  assigned_to_id: int | None = None) -> list[LabTest]:
+def request_tests(
+    db: Database,
+    actor: User,
+    sample_ids: Iterable[int],
+    methods: Iterable[str],
+    assigned_to_id: int | None = None,
+) -> list[LabTest]:
     """Request each method on each sample (one transaction for the whole batch)."""
     methods = list(methods)
     unknown = [m for m in methods if m not in METHODS]
@@ -100,11 +130,22 @@ def request_tests(db: Database, actor: User, sample_ids: Iterable[int], methods:
             if s.get(Sample, sample_id) is None:
                 raise NotFound(f"sample {sample_id} does not exist")
             for m in methods:
-                test = LabTest(sample_id=sample_id, method=m, status=Status.requested.value,
-                               requested_by_id=actor.id, assigned_to_id=assigned_to_id)
+                test = LabTest(
+                    sample_id=sample_id,
+                    method=m,
+                    status=Status.requested.value,
+                    requested_by_id=actor.id,
+                    assigned_to_id=assigned_to_id,
+                )
                 s.add(test)
                 s.flush()
-                audit.record(s, actor, "lab_test", test.id or 0, "request",
-                             after={"sample_id": sample_id, "method": m, "status": test.status})
+                audit.record(
+                    s,
+                    actor,
+                    "lab_test",
+                    test.id or 0,
+                    "request",
+                    after={"sample_id": sample_id, "method": m, "status": test.status},
+                )
                 created.append(test)
         return created

@@ -40,12 +40,23 @@ def create_link(db: Database, actor: User, job_id: int, days_valid: int, label: 
     with db.transaction() as s:
         if s.get(Job, job_id) is None:
             raise NotFound(f"job {job_id} does not exist")
-        link = ShareLink(job_id=job_id, token_hash=token_hash(token), label=label.strip()[:200],
-                         created_by_id=actor.id or 0, expires_at=utcnow() + timedelta(days=days_valid))
+        link = ShareLink(
+            job_id=job_id,
+            token_hash=token_hash(token),
+            label=label.strip()[:200],
+            created_by_id=actor.id or 0,
+            expires_at=utcnow() + timedelta(days=days_valid),
+        )
         s.add(link)
         s.flush()
-        audit.record(s, actor, "share_link", link.id or 0, "create",
-                     after={"job_id": job_id, "label": link.label, "expires_at": link.expires_at.isoformat()})
+        audit.record(
+            s,
+            actor,
+            "share_link",
+            link.id or 0,
+            "create",
+            after={"job_id": job_id, "label": link.label, "expires_at": link.expires_at.isoformat()},
+        )
         return NewLink(link, token)
 
 
@@ -57,8 +68,15 @@ def revoke_link(db: Database, actor: User, link_id: int) -> ShareLink:
         if link.revoked_at is None:
             link.revoked_at = utcnow()
             s.add(link)
-            audit.record(s, actor, "share_link", link_id, "revoke", before={"revoked_at": None},
-                         after={"revoked_at": link.revoked_at.isoformat()})
+            audit.record(
+                s,
+                actor,
+                "share_link",
+                link_id,
+                "revoke",
+                before={"revoked_at": None},
+                after={"revoked_at": link.revoked_at.isoformat()},
+            )
         return link
 
 
@@ -71,7 +89,9 @@ class ClientView:
     reports: list[Report] | None = None
 
 
-def open_link(db: Database, token: str, *, path: str, remote_addr: str = "", user_agent: str = "") -> ClientView:
+def open_link(
+    db: Database, token: str, *, path: str, remote_addr: str = "", user_agent: str = ""
+) -> ClientView:
     """What a link holder may see: the job's issued reports. Logs the access either way."""
     with db.transaction() as s:
         link = s.exec(select(ShareLink).where(ShareLink.token_hash == token_hash(token))).first()
@@ -83,8 +103,15 @@ def open_link(db: Database, token: str, *, path: str, remote_addr: str = "", use
             outcome = "expired"
         else:
             outcome = "ok"
-        s.add(LinkAccess(link_id=link.id or 0, path=path[:300], outcome=outcome,
-                         remote_addr=remote_addr[:64], user_agent=user_agent[:300]))
+        s.add(
+            LinkAccess(
+                link_id=link.id or 0,
+                path=path[:300],
+                outcome=outcome,
+                remote_addr=remote_addr[:64],
+                user_agent=user_agent[:300],
+            )
+        )
         if outcome != "ok":
             return ClientView(outcome)
         job = s.get(Job, link.job_id)

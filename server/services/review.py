@@ -18,8 +18,16 @@ from server.workflow.states import Action, may_sign
 DEFAULT_MEANING = "Reviewed and approved: readings checked, results verified against the method"
 
 
-def approve(db: Database, actor: User, test_id: int, password: str, expected_version: int,
-            *, meaning: str = DEFAULT_MEANING, self_approval_forbidden: bool = True) -> LabTest:
+def approve(
+    db: Database,
+    actor: User,
+    test_id: int,
+    password: str,
+    expected_version: int,
+    *,
+    meaning: str = DEFAULT_MEANING,
+    self_approval_forbidden: bool = True,
+) -> LabTest:
     """Sign a submitted test as approved."""
     with db.transaction() as s:
         signer = s.get(User, actor.id)
@@ -29,12 +37,32 @@ def approve(db: Database, actor: User, test_id: int, password: str, expected_ver
         if not may_sign(signer.id or 0, readings_authors(s, test_id), self_approval_forbidden):
             raise Forbidden("you entered readings of this test, so another reviewer must approve it")
         now = utcnow()
-        before = change_status(s, signer, test, Action.approve, expected_version, approved_at=now,
-                               approved_by_id=signer.id, approver_role=signer.role,
-                               signature_meaning=meaning)
-        audit.record(s, signer, "lab_test", test_id, "approve", before={"status": before},
-                     after={"status": test.status, "signed_by": signer.full_name, "role": signer.role,
-                            "meaning": meaning, "signed_at": now.isoformat()})
+        before = change_status(
+            s,
+            signer,
+            test,
+            Action.approve,
+            expected_version,
+            approved_at=now,
+            approved_by_id=signer.id,
+            approver_role=signer.role,
+            signature_meaning=meaning,
+        )
+        audit.record(
+            s,
+            signer,
+            "lab_test",
+            test_id,
+            "approve",
+            before={"status": before},
+            after={
+                "status": test.status,
+                "signed_by": signer.full_name,
+                "role": signer.role,
+                "meaning": meaning,
+                "signed_at": now.isoformat(),
+            },
+        )
         return test
 
 
@@ -46,6 +74,14 @@ def return_test(db: Database, actor: User, test_id: int, reason: str, expected_v
     with db.transaction() as s:
         test = load_test(s, test_id)
         before = change_status(s, actor, test, Action.return_, expected_version, return_reason=reason)
-        audit.record(s, actor, "lab_test", test_id, "return", before={"status": before},
-                     after={"status": test.status}, reason=reason)
+        audit.record(
+            s,
+            actor,
+            "lab_test",
+            test_id,
+            "return",
+            before={"status": before},
+            after={"status": test.status},
+            reason=reason,
+        )
         return test

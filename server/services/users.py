@@ -12,8 +12,9 @@ from server.services.errors import Conflict, invalid
 from server.workflow.states import Role
 
 
-def create_user(db: Database, actor: User | None, username: str, full_name: str, role: str,
-                password: str) -> User:
+def create_user(
+    db: Database, actor: User | None, username: str, full_name: str, role: str, password: str
+) -> User:
     """Add a user; the audit event records who added whom, never the password."""
     username = username.strip().lower()
     if not username or not username.replace("-", "").replace(".", "").replace("_", "").isalnum():
@@ -26,12 +27,22 @@ def create_user(db: Database, actor: User | None, username: str, full_name: str,
     with db.transaction() as s:
         if s.exec(select(User).where(User.username == username)).first():
             raise Conflict(f"user {username!r} exists already")
-        user = User(username=username, full_name=full_name.strip() or username, role=role,
-                    password_hash=hash_password(password))
+        user = User(
+            username=username,
+            full_name=full_name.strip() or username,
+            role=role,
+            password_hash=hash_password(password),
+        )
         s.add(user)
         s.flush()
-        audit.record(s, actor, "user", user.id or 0, "create",
-                     after={"username": username, "full_name": user.full_name, "role": role})
+        audit.record(
+            s,
+            actor,
+            "user",
+            user.id or 0,
+            "create",
+            after={"username": username, "full_name": user.full_name, "role": role},
+        )
         return user
 
 

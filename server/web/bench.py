@@ -73,8 +73,10 @@ def sheet_view(method: str, readings: dict[str, Any], ev: Evaluation) -> list[Se
                 rows.append(SheetRow(i + 1, cells, _row_result(ev, section, i)))
             views.append(SectionView(section, rows))
         else:
-            cells = [Cell(inp, "r." + inp.key, lookup(readings, inp.key), errors.get(inp.key))
-                     for inp in section.inputs]
+            cells = [
+                Cell(inp, "r." + inp.key, lookup(readings, inp.key), errors.get(inp.key))
+                for inp in section.inputs
+            ]
             views.append(SectionView(section, [SheetRow(0, cells, None)]))
     return views
 
@@ -95,11 +97,29 @@ def flow_svg(ev: Evaluation) -> str | None:
     return charts.flow_curve_svg(trials, fit)
 
 
-def _page(request: Request, row: TestRow, readings: dict[str, Any], ev: Evaluation, *,
-          status_code: int = 200, message: str | None = None, problem: str | None = None) -> Response:
-    return render(request, "pages/bench.html", status_code=status_code, row=row, test=row.test,
-                  editable=is_editable(row.test.status), sections=sheet_view(row.test.method, readings, ev),
-                  ev=ev, chart=flow_svg(ev), message=message, problem=problem)
+def _page(
+    request: Request,
+    row: TestRow,
+    readings: dict[str, Any],
+    ev: Evaluation,
+    *,
+    status_code: int = 200,
+    message: str | None = None,
+    problem: str | None = None,
+) -> Response:
+    return render(
+        request,
+        "pages/bench.html",
+        status_code=status_code,
+        row=row,
+        test=row.test,
+        editable=is_editable(row.test.status),
+        sections=sheet_view(row.test.method, readings, ev),
+        ev=ev,
+        chart=flow_svg(ev),
+        message=message,
+        problem=problem,
+    )
 
 
 @router.get("/tests/{test_id}")
@@ -116,8 +136,14 @@ async def bench_preview(request: Request, test_id: int, user: Staff) -> Response
     row = load_row(request, test_id)
     readings = readings_from_form((await request.form()).multi_items())  # type: ignore[arg-type]
     ev = bench.preview(row.test.method, readings)
-    return render(request, "partials/bench_results.html", test=row.test,
-                  sections=sheet_view(row.test.method, readings, ev), ev=ev, chart=flow_svg(ev))
+    return render(
+        request,
+        "partials/bench_results.html",
+        test=row.test,
+        sections=sheet_view(row.test.method, readings, ev),
+        ev=ev,
+        chart=flow_svg(ev),
+    )
 
 
 @router.post("/tests/{test_id}/readings")
@@ -142,9 +168,19 @@ async def save_readings(request: Request, test_id: int, user: Staff) -> Response
     return RedirectResponse(f"/tests/{test_id}?saved=1", status_code=303)
 
 
-def _refused(request: Request, test_id: int, readings: dict[str, Any], exc: ServiceError, what: str) -> Response:
+def _refused(
+    request: Request, test_id: int, readings: dict[str, Any], exc: ServiceError, what: str
+) -> Response:
     """The sheet again, as typed, with the refusal and every field's message."""
     row = load_row(request, test_id)
-    detail = f"{len(exc.errors)} value(s) need attention, listed below" if isinstance(exc, Invalid) else str(exc)
-    return _page(request, row, readings, bench.preview(row.test.method, readings),
-                 status_code=http_status(exc), problem=f"{what}: {detail}.")
+    detail = (
+        f"{len(exc.errors)} value(s) need attention, listed below" if isinstance(exc, Invalid) else str(exc)
+    )
+    return _page(
+        request,
+        row,
+        readings,
+        bench.preview(row.test.method, readings),
+        status_code=http_status(exc),
+        problem=f"{what}: {detail}.",
+    )

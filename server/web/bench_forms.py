@@ -55,18 +55,40 @@ MASSES = (
 
 SHEETS: dict[str, tuple[Section, ...]] = {
     "atterberg": (
-        Rows("water_content.determinations", "Natural water content", "determination", MASSES, 2,
-             "water_content_determinations"),
-        Rows("liquid_limit.trials", "Liquid limit, cup method (three or more trials)", "trial",
-             (Input("blows", "Blows", kind="integer"), *MASSES), 5, "liquid_limit_trials", "water_content",
-             fixed={"liquid_limit.method": "ll-cup-multipoint"}),
-        Rows("plastic_limit.determinations", "Plastic limit", "determination", MASSES, 3,
-             "plastic_limit_determinations"),
-        Values("Grading (from the particle-size test, % by dry mass)", (
-            Input("clay_fraction", "Finer than 2 µm", "%"),
-            Input("fines", "Fines (< 75 µm)", "%"),
-            Input("sand", "Sand", "%"),
-            Input("gravel", "Gravel", "%"),
-        )),
+        Rows(
+            "water_content.determinations",
+            "Natural water content",
+            "determination",
+            MASSES,
+            2,
+            "water_content_determinations",
+        ),
+        Rows(
+            "liquid_limit.trials",
+            "Liquid limit, cup method (three or more trials)",
+            "trial",
+            (Input("blows", "Blows", kind="integer"), *MASSES),
+            5,
+            "liquid_limit_trials",
+            "water_content",
+            fixed={"liquid_limit.method": "ll-cup-multipoint"},
+        ),
+        Rows(
+            "plastic_limit.determinations",
+            "Plastic limit",
+            "determination",
+            MASSES,
+            3,
+            "plastic_limit_determinations",
+        ),
+        Values(
+            "Grading (from the particle-size test, % by dry mass)",
+            (
+                Input("clay_fraction", "Finer than 2 µm", "%"),
+                Input("fines", "Fines (< 75 µm)", "%"),
+                Input("sand", "Sand", "%"),
+                Input("gravel", "Gravel", "%"),
+            ),
+        ),
     ),
 }

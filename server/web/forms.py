@@ -51,7 +51,7 @@ def readings_from_form(fields: Iterable[tuple[str, str]], prefix: str = "r.") ->
     for name, raw in fields:
         if not name.startswith(prefix):
             continue
-        parts: list[Any] = [int(p) if p.isdigit() else p for p in name[len(prefix):].split(".")]
+        parts: list[Any] = [int(p) if p.isdigit() else p for p in name[len(prefix) :].split(".")]
         node = root
         for part in parts[:-1]:
             node = node.setdefault(part, {})

@@ -39,12 +39,26 @@ def _job_page(request: Request, job_id: int, **extra: object) -> Response:
         if sheet is None:
             raise HTTPException(404, "no such job")
         link_ids = [link.id for link in sheet.links]
-        accesses = list(s.exec(
-            select(LinkAccess).where(col(LinkAccess.link_id).in_(link_ids))
-            .order_by(col(LinkAccess.at).desc()).limit(20)
-        )) if link_ids else []
-    return render(request, "pages/job.html", sheet=sheet, accesses=accesses,
-                  new_link=extra.get("new_link"), error=extra.get("error"))
+        accesses = (
+            list(
+                s.exec(
+                    select(LinkAccess)
+                    .where(col(LinkAccess.link_id).in_(link_ids))
+                    .order_by(col(LinkAccess.at).desc())
+                    .limit(20)
+                )
+            )
+            if link_ids
+            else []
+        )
+    return render(
+        request,
+        "pages/job.html",
+        sheet=sheet,
+        accesses=accesses,
+        new_link=extra.get("new_link"),
+        error=extra.get("error"),
+    )
 
 
 @router.get("/jobs/{job_id}")
@@ -55,25 +69,40 @@ def job_page(request: Request, job_id: int, user: Staff) -> Response:
 @router.get("/samples/{sample_id}")
 def sample_page(request: Request, sample_id: int, user: Staff) -> Response:
     with database(request).session() as s:
-        rows = test_rows(s, col(LabTest.sample_id) == sample_id, order=(col(LabTest.method), col(LabTest.revision)))
+        rows = test_rows(
+            s, col(LabTest.sample_id) == sample_id, order=(col(LabTest.method), col(LabTest.revision))
+        )
         if not rows:
             raise HTTPException(404, "no tests on this sample")
-    return render(request, "pages/sample.html", rows=rows, sample=rows[0].sample, location=rows[0].location,
-                  job=rows[0].job)
+    return render(
+        request,
+        "pages/sample.html",
+        rows=rows,
+        sample=rows[0].sample,
+        location=rows[0].location,
+        job=rows[0].job,
+    )
 
 
 @router.post("/jobs/{job_id}/reports")
 def issue_report(request: Request, job_id: int, user: Checker) -> Response:
     try:
-        report = reports.issue_report(database(request), user, job_id, request.app.state.settings.public_base_url)
+        report = reports.issue_report(
+            database(request), user, job_id, request.app.state.settings.public_base_url
+        )
     except ServiceError as exc:
         return _job_page(request, job_id, error=str(exc))
     return RedirectResponse(f"/jobs/{job_id}#report-{report.id}", status_code=303)
 
 
 @router.post("/jobs/{job_id}/links")
-def create_link(request: Request, job_id: int, user: Checker, days_valid: Annotated[int, Form()] = 30,
-                label: Annotated[str, Form()] = "") -> Response:
+def create_link(
+    request: Request,
+    job_id: int,
+    user: Checker,
+    days_valid: Annotated[int, Form()] = 30,
+    label: Annotated[str, Form()] = "",
+) -> Response:
     try:
         made = links.create_link(database(request), user, job_id, days_valid, label)
     except ServiceError as exc:

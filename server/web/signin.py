@@ -16,8 +16,15 @@ router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False
 
 
 def _safe_next(target: str | None) -> str:
-    """Only a path on this site: never an open redirect to another host."""
-    if target and target.startswith("/") and not target.startswith("//"):
+    """Only a path on this site: never an open redirect to another host (no "//", no backslash,
+    no control character, which some browsers read as a host separator)."""
+    if (
+        target
+        and target.startswith("/")
+        and not target.startswith("//")
+        and "\\" not in target
+        and all(ch.isprintable() and not ch.isspace() for ch in target)
+    ):
         return target
     return "/"
 
@@ -30,12 +37,21 @@ def signin_page(request: Request, next: str | None = None) -> Response:
 
 
 @router.post("/signin")
-def signin(request: Request, username: Annotated[str, Form()], password: Annotated[str, Form()],
-           next: Annotated[str, Form()] = "/") -> Response:
+def signin(
+    request: Request,
+    username: Annotated[str, Form()],
+    password: Annotated[str, Form()],
+    next: Annotated[str, Form()] = "/",
+) -> Response:
     user = authenticate(database(request), username, password)
     if user is None:
-        return render(request, "pages/signin.html", status_code=400, next=_safe_next(next),
-                      error="Username or password not recognised, or the account is not active.")
+        return render(
+            request,
+            "pages/signin.html",
+            status_code=400,
+            next=_safe_next(next),
+            error="Username or password not recognised, or the account is not active.",
+        )
     sign_in(request, user)
     return RedirectResponse(_safe_next(next), status_code=303)
 

@@ -10,8 +10,10 @@ from tests.support.scenario import ATTERBERG, PL_DETERMINATIONS
 
 
 def test_computes_a_plastic_limit_with_its_flags(app_client: TestClient) -> None:
-    reply = app_client.post("/api/v1/calculations",
-                            json={"method": "plastic-limit", "readings": {"determinations": PL_DETERMINATIONS}})
+    reply = app_client.post(
+        "/api/v1/calculations",
+        json={"method": "plastic-limit", "readings": {"determinations": PL_DETERMINATIONS}},
+    )
     assert reply.status_code == 200, reply.text
     body = reply.json()
     assert body["method"] == "plastic-limit" and isinstance(body["flags"], list)
@@ -45,7 +47,9 @@ def test_refuses_bad_readings_field_by_field(app_client: TestClient, case: str) 
 
 def test_names_the_trial_and_both_masses_when_dry_exceeds_wet(app_client: TestClient) -> None:
     readings, _, _ = BAD_ATTERBERG["dry mass above wet mass"]
-    errors = app_client.post("/api/v1/calculations", json={"method": "atterberg", "readings": readings}).json()["detail"]
+    errors = app_client.post(
+        "/api/v1/calculations", json={"method": "atterberg", "readings": readings}
+    ).json()["detail"]
     message = next(e["msg"] for e in errors if e["loc"][-1] == "dry_tare_g")
     assert "trial 2" in message and "38.5 g" in message and "38.16 g" in message
 
@@ -58,7 +62,10 @@ def test_refuses_an_unknown_method(app_client: TestClient) -> None:
 
 def test_refuses_a_body_that_is_not_the_contract(app_client: TestClient) -> None:
     assert app_client.post("/api/v1/calculations", json={"readings": {}}).status_code == 422
-    assert app_client.post("/api/v1/calculations", json={"method": "atterberg", "readings": [1, 2]}).status_code == 422
+    assert (
+        app_client.post("/api/v1/calculations", json={"method": "atterberg", "readings": [1, 2]}).status_code
+        == 422
+    )
 
 
 def test_lists_the_methods_with_their_standards(app_client: TestClient) -> None:

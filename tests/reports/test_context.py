@@ -19,6 +19,7 @@ from server.reports.context import (
     build_view,
     canonical_json,
     content_fingerprint,
+    moment,
     readings_tables,
     result_lines,
     summary_row,
@@ -281,3 +282,10 @@ def test_report_data_cannot_be_changed_after_it_is_built() -> None:
     with pytest.raises(dataclasses.FrozenInstanceError):
         data.revision = 2  # type: ignore[misc]
     assert isinstance(data.tests, tuple)
+
+
+def test_shows_the_signature_time_in_utc_or_with_its_offset() -> None:
+    assert moment("2025-03-14T15:58:00+00:00") == "2025-03-14 15:58 UTC"
+    assert moment("2025-03-14T16:58:00+01:00") == "2025-03-14 16:58 UTC+01:00"
+    assert moment("not a time") == "not a time"
+    assert build_view(report()).signed_at == "2025-03-14 15:58 UTC"

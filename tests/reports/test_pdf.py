@@ -266,7 +266,7 @@ def test_prints_readings_each_water_content_and_quality_remarks(pages: list[str]
 
 
 def test_lists_methods_and_deviations(pages: list[str]) -> None:
-    text = "\n".join(pages)
+    text = " ".join(" ".join(pages).split())
     assert "ASTM D4318-17, Method A" in text
     assert "Specimens air-dried before test (client request)" in text
 

@@ -33,8 +33,12 @@ def test_refuses_a_wrong_value_and_stores_nothing(db: Database, people: People, 
         bench.save_readings(db, people.tech, job.test_id, readings, before.version)
     assert ("readings", *path) in [e.loc for e in refused.value.errors]
     after, events_after = _state(db, job.test_id)
-    assert (after.readings, after.version, after.status, events_after) == (None, before.version, "requested",
-                                                                           events_before)
+    assert (after.readings, after.version, after.status, events_after) == (
+        None,
+        before.version,
+        "requested",
+        events_before,
+    )
 
 
 def test_keeps_an_unfinished_sheet_as_a_draft_but_will_not_hand_it_in(db: Database, people: People) -> None:
@@ -70,7 +74,9 @@ def test_a_stale_version_is_refused_and_the_newer_readings_are_kept(db: Database
     assert _state(db, job.test_id)[0].readings == first.test.readings
 
 
-def test_every_saved_change_is_an_audit_event_that_replays_to_the_readings(db: Database, people: People) -> None:
+def test_every_saved_change_is_an_audit_event_that_replays_to_the_readings(
+    db: Database, people: People
+) -> None:
     job = small_job(db, people.admin)
     versions = []
     v = 1
@@ -80,8 +86,15 @@ def test_every_saved_change_is_an_audit_event_that_replays_to_the_readings(db: D
         v = bench.save_readings(db, people.tech, job.test_id, readings, v).test.version
         versions.append(readings)
     with db.session() as s:
-        events = s.exec(select(AuditEvent).where(AuditEvent.entity == "lab_test", AuditEvent.entity_id == job.test_id,
-                                                 AuditEvent.action == "readings").order_by(AuditEvent.id)).all()
+        events = s.exec(
+            select(AuditEvent)
+            .where(
+                AuditEvent.entity == "lab_test",
+                AuditEvent.entity_id == job.test_id,
+                AuditEvent.action == "readings",
+            )
+            .order_by(AuditEvent.id)
+        ).all()
         stored = s.get(LabTest, job.test_id)
     assert [e.after["readings"] for e in events if e.after] == versions
     assert events[-1].after is not None and events[-1].after["readings"] == stored.readings  # type: ignore[union-attr]

@@ -21,9 +21,15 @@ def _submitted(db: Database, people: People, enterer: str = "tech") -> tuple[int
 
 def test_approval_records_who_when_role_and_meaning(db: Database, people: People) -> None:
     test_id, version = _submitted(db, people)
-    test = review.approve(db, people.review, test_id, PASSWORDS["review"], version, meaning="Checked against sheet")
+    test = review.approve(
+        db, people.review, test_id, PASSWORDS["review"], version, meaning="Checked against sheet"
+    )
     assert (test.status, test.approved_by_id, test.approver_role, test.signature_meaning) == (
-        "approved", people.review.id, "reviewer", "Checked against sheet")
+        "approved",
+        people.review.id,
+        "reviewer",
+        "Checked against sheet",
+    )
     assert test.approved_at is not None
 
 
@@ -43,7 +49,9 @@ def test_nobody_approves_a_test_they_entered(db: Database, people: People) -> No
 
 def test_the_rule_can_be_switched_off_by_the_laboratory(db: Database, people: People) -> None:
     test_id, version = _submitted(db, people, enterer="review")
-    test = review.approve(db, people.review, test_id, PASSWORDS["review"], version, self_approval_forbidden=False)
+    test = review.approve(
+        db, people.review, test_id, PASSWORDS["review"], version, self_approval_forbidden=False
+    )
     assert test.status == "approved"
 
 

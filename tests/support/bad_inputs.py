@@ -37,5 +37,9 @@ BAD_ATTERBERG: dict[str, tuple[dict[str, Any], list[str | int], str]] = {
     "blow count below 1": (_with([*LL, 0, "blows"], 0), [*LL, 0, "blows"], "below"),
     "blow count above 100": (_with([*LL, 0, "blows"], 101), [*LL, 0, "blows"], "above"),
     "text where a number belongs": (_with([*LL, 1, "wet_tare_g"], "forty"), [*LL, 1, "wet_tare_g"], "number"),
-    "fewer than three multipoint trials": (_with([*LL], ATTERBERG["liquid_limit"]["trials"][:2]), LL, "at least 3"),
+    "fewer than three multipoint trials": (
+        _with([*LL], ATTERBERG["liquid_limit"]["trials"][:2]),
+        LL,
+        "at least 3",
+    ),
 }

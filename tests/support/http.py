@@ -18,13 +18,21 @@ def csrf_of(page: Response) -> str:
 
 def sign_in(client: TestClient, username: str, password: str) -> None:
     page = client.get("/signin")
-    reply = client.post("/signin", data={"username": username, "password": password, "csrf_token": csrf_of(page),
-                                          "next": "/jobs"}, follow_redirects=False)
+    reply = client.post(
+        "/signin",
+        data={"username": username, "password": password, "csrf_token": csrf_of(page), "next": "/jobs"},
+        follow_redirects=False,
+    )
     assert reply.status_code == 303, reply.text
 
 
-def post_form(client: TestClient, page_path: str, action: str, data: dict[str, str] | list[tuple[str, str]],
-              **kwargs: object) -> Response:
+def post_form(
+    client: TestClient,
+    page_path: str,
+    action: str,
+    data: dict[str, str] | list[tuple[str, str]],
+    **kwargs: object,
+) -> Response:
     """Post a form found on ``page_path`` with the page's CSRF token added."""
     token = csrf_of(client.get(page_path))
     fields: dict[str, list[str]] = {}

@@ -62,8 +62,9 @@ class Job:
     test_id: int
 
 
-def small_job(db: Database, admin: User, *, description: str = "Firm brown CLAY",
-              method: str = "atterberg") -> Job:
+def small_job(
+    db: Database, admin: User, *, description: str = "Firm brown CLAY", method: str = "atterberg"
+) -> Job:
     """One client, job, borehole and sample with one requested test."""
     client = jobs.create_client(db, admin, "Test Client Ltd")
     job = jobs.create_job(db, admin, client.id or 0, "T-100", "Test job", "Test site")

@@ -14,22 +14,28 @@ from tests.support.http import post_form, sign_in
 from tests.support.scenario import ATTERBERG, form_fields, small_job
 
 
-def test_preview_shows_each_water_content_beside_its_row(app_client: TestClient, db: Database,
-                                                          people: People) -> None:
+def test_preview_shows_each_water_content_beside_its_row(
+    app_client: TestClient, db: Database, people: People
+) -> None:
     job = small_job(db, people.admin)
     sign_in(app_client, "tech", PASSWORDS["tech"])
     path = f"/tests/{job.test_id}"
-    reply = post_form(app_client, path, f"{path}/preview", form_fields(ATTERBERG), headers={"HX-Request": "true"})
+    reply = post_form(
+        app_client, path, f"{path}/preview", form_fields(ATTERBERG), headers={"HX-Request": "true"}
+    )
     assert reply.status_code == 200 and "<html" not in reply.text  # a fragment, not a page
     # ASTM D2216 formula on the scenario's masses: trial 1 of the liquid limit is 42.0 % (Das problem set)
     assert re.search(r'id="out-liquid_limit-trials-0" hx-swap-oob="true">42\.0<', reply.text)
-    assert re.search(r'id="out-plastic_limit-determinations-1" hx-swap-oob="true">21\.5<', reply.text)  # Liu & Evett
+    assert re.search(
+        r'id="out-plastic_limit-determinations-1" hx-swap-oob="true">21\.5<', reply.text
+    )  # Liu & Evett
     with db.session() as s:
         assert s.get(LabTest, job.test_id).readings is None  # type: ignore[union-attr]  # preview stores nothing
 
 
-def test_a_refused_value_is_named_at_its_field_and_nothing_is_saved(app_client: TestClient, db: Database,
-                                                                    people: People) -> None:
+def test_a_refused_value_is_named_at_its_field_and_nothing_is_saved(
+    app_client: TestClient, db: Database, people: People
+) -> None:
     job = small_job(db, people.admin)
     sign_in(app_client, "tech", PASSWORDS["tech"])
     path = f"/tests/{job.test_id}"
@@ -44,8 +50,9 @@ def test_a_refused_value_is_named_at_its_field_and_nothing_is_saved(app_client: 
     assert test is not None and (test.readings, test.version) == (None, 1)
 
 
-def test_a_second_page_on_the_same_test_gets_a_conflict_message(app_client: TestClient, db: Database,
-                                                                 people: People) -> None:
+def test_a_second_page_on_the_same_test_gets_a_conflict_message(
+    app_client: TestClient, db: Database, people: People
+) -> None:
     job = small_job(db, people.admin)
     sign_in(app_client, "tech", PASSWORDS["tech"])
     path = f"/tests/{job.test_id}"
@@ -55,7 +62,9 @@ def test_a_second_page_on_the_same_test_gets_a_conflict_message(app_client: Test
     assert second.status_code == 409 and "changed by someone else" in second.text
 
 
-def test_the_returned_reason_is_shown_on_the_bench(app_client: TestClient, db: Database, people: People) -> None:
+def test_the_returned_reason_is_shown_on_the_bench(
+    app_client: TestClient, db: Database, people: People
+) -> None:
     from server.services import bench, review
 
     job = small_job(db, people.admin)
