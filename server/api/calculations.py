@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
-from fastapi import APIRouter
+from typing import Annotated
+
+from fastapi import APIRouter, Body
 from fastapi.responses import JSONResponse
 
+from server.api.examples import EXAMPLES
 from server.api.schemas import CalculationRequest, CalculationResponse, ErrorResponse, MethodOut
 from server.services import calculations
 from server.services.errors import Invalid
@@ -17,7 +20,16 @@ router = APIRouter(prefix="/api/v1", tags=["calculations"])
     response_model=CalculationResponse,
     responses={422: {"model": ErrorResponse, "description": "readings refused, field by field"}},
 )
-def calculate(body: CalculationRequest) -> CalculationResponse | JSONResponse:
+def calculate(
+    body: Annotated[
+        CalculationRequest,
+        Body(
+            openapi_examples={
+                m: {"summary": m, "value": {"method": m, "readings": r}} for m, r in EXAMPLES.items()
+            }
+        ),
+    ],
+) -> CalculationResponse | JSONResponse:
     """Compute a method's results and quality flags from raw readings; stores nothing."""
     try:
         out = calculations.calculate(body.method, body.readings)

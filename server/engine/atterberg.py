@@ -7,11 +7,10 @@ section 3), so the bench page and the report read one shape whichever way a test
 
 from __future__ import annotations
 
-from datetime import date
-
 from server.engine import plasticity_chart
 from server.engine.contract import Outcome, method
 from server.engine.descriptors import describe
+from server.engine.equipment import check_equipment
 from server.engine.indices import (
     activity,
     consistency_index,
@@ -47,50 +46,21 @@ def _not_determinable(r: Readings) -> bool:
     return raw
 
 
-def _read_date(r: Readings, key: str, name: str) -> date | None:
-    if not r.present(key):
-        return None
-    raw = r.data[key]
-    try:
-        return date.fromisoformat(str(raw)) if isinstance(raw, str) else None
-    except ValueError:
-        pass
-    r.refuse(key, f"{name} must be a date written YYYY-MM-DD, not {raw!r}")
-    return None
-
-
-def check_equipment(r: Readings, out: Outcome, tested_on: date | None = None) -> date | None:
-    """Flag equipment used past its calibration due date (severity error).
-
-    Readings may carry ``"tested_on": "2026-12-01"`` and ``"equipment": [{"id": "BAL-02",
-    "calibration_due": "2026-11-30"}]``; equipment is in calibration up to and including its due
-    date. A part without its own test date uses the set's (``tested_on``). Returns the date used.
-    """
-    own = _read_date(r, "tested_on", "test date")
-    when = own or tested_on
-    if "equipment" not in r.data:
-        return when
-    for item in r.items("equipment", noun="equipment item"):
-        ident = item.text("id", required=True, max_length=60)
-        due = _read_date(item, "calibration_due", "calibration due date")
-        if when is not None and due is not None and when > due:
-            out.flag("equipment-calibration-expired", "error",
-                     f"equipment {ident or '(no id)'} was past its calibration due date "
-                     f"({due.isoformat()}) when the test was run ({when.isoformat()})")
-    return when
-
-
-def _common(r: Readings, out: Outcome, inherited: Balance = DEFAULT_BALANCE,
-            tested_on: date | None = None) -> tuple[Balance, date | None]:
-    balance = read_balance(r, inherited)
-    return balance, check_equipment(r, out, tested_on)
+def _common(
+    r: Readings, out: Outcome, inherited: Balance = DEFAULT_BALANCE, *, part: bool = False
+) -> Balance:
+    """The balance of this part; a part's own equipment list is checked here (the whole
+    set's is checked for every method by ``contract.evaluate``)."""
+    if part:
+        check_equipment(r, out, out.tested_on)
+    return read_balance(r, inherited)
 
 
 # -- single methods ------------------------------------------------------------------------------
 
 @method("water-content", title="Water content", standard="ASTM D2216-19; ISO 17892-1:2014")
 def water_content_method(r: Readings, out: Outcome) -> None:
-    balance, _ = _common(r, out)
+    balance = _common(r, out)
     water_content_part(_relabel(r, "water content"), out, balance)
 
 
@@ -110,7 +80,7 @@ def ll_cone_method(r: Readings, out: Outcome) -> None:
 
 
 def _liquid_limit_alone(method_id: str, r: Readings, out: Outcome) -> None:
-    balance, _ = _common(r, out)
+    balance = _common(r, out)
     if _not_determinable(r):
         out.results["liquid_limit_method"] = method_id
         out.results["nonplastic"] = True
@@ -120,7 +90,7 @@ def _liquid_limit_alone(method_id: str, r: Readings, out: Outcome) -> None:
 
 @method("plastic-limit", title="Plastic limit", standard=f"{_D4318}; BS 1377-2:1990 cl. 5")
 def plastic_limit_method(r: Readings, out: Outcome) -> None:
-    balance, _ = _common(r, out)
+    balance = _common(r, out)
     if _not_determinable(r):
         out.results["nonplastic"] = True
         return
@@ -138,19 +108,19 @@ def atterberg_method(r: Readings, out: Outcome) -> None:
     limit is marked not determinable or the plastic limit is equal to or above the liquid limit
     (ASTM D4318-17). Parts refused or still incomplete leave their derived results out.
     """
-    balance, when = _common(r, out)
+    balance = _common(r, out)
 
     w = None
     wr = r.child("water_content", label="water content", required=False)
     if wr is not None:
-        b, _ = _common(wr, out, balance, when)
+        b = _common(wr, out, balance, part=True)
         w = water_content_part(wr, out, b)
 
     ll = None
     ll_np = False
     lr = r.child("liquid_limit", label="liquid limit")
     if lr is not None:
-        b, _ = _common(lr, out, balance, when)
+        b = _common(lr, out, balance, part=True)
         ll_method = lr.choice("method", name="liquid limit method", choices=LL_METHODS)
         if _not_determinable(lr):
             ll_np = True
@@ -163,7 +133,7 @@ def atterberg_method(r: Readings, out: Outcome) -> None:
     pl_np = False
     pr = r.child("plastic_limit", label="plastic limit")
     if pr is not None:
-        b, _ = _common(pr, out, balance, when)
+        b = _common(pr, out, balance, part=True)
         if _not_determinable(pr):
             pl_np = True
         else:

@@ -14,8 +14,10 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from datetime import date
 from typing import Any, Literal
 
+from server.engine.equipment import check_equipment
 from server.engine.readings import FieldError, Readings
 
 Severity = Literal["warning", "error"]
@@ -76,6 +78,7 @@ class Outcome:
 
     results: dict[str, Any] = field(default_factory=dict)
     flags: list[Flag] = field(default_factory=list)
+    tested_on: date | None = None  # the test date of the whole set, for parts to inherit
 
     def flag(self, code: str, severity: Severity, message: str) -> None:
         self.flags.append(Flag(code, severity, message))
@@ -122,6 +125,7 @@ def evaluate(method_id: str, readings: Mapping[str, Any] | Any) -> Evaluation:
         return ev
     r = Readings(readings, loc=("readings",))
     out = Outcome()
+    out.tested_on = check_equipment(r, out)
     found.fn(r, out)
     ev.results = out.results
     ev.flags = out.flags

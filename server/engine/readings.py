@@ -45,6 +45,8 @@ class Readings:
     Children share the parent's error list, so one list holds every refusal of a test.
     """
 
+    __slots__ = ("data", "loc", "_label", "_item", "errors")
+
     def __init__(
         self,
         data: Mapping[Any, Any],
@@ -54,8 +56,17 @@ class Readings:
     ):
         self.data = data
         self.loc = loc
-        self.label = label
+        self._label = label
+        self._item: tuple[str, int] | None = None  # (noun, number) of a list item, labelled lazily
         self.errors: list[FieldError] = [] if errors is None else errors
+
+    @property
+    def label(self) -> str:
+        """The human prefix of this object's messages, built only when a message needs it."""
+        if self._item is None:
+            return self._label
+        noun, number = self._item
+        return f"{self._label}, {noun} {number}" if self._label else f"{noun} {number}"
 
     # -- refusals -------------------------------------------------------------------------
     def refuse(self, key: str | int | None, message: str, kind: str = "invalid") -> None:
@@ -229,12 +240,15 @@ class Readings:
             self.refuse(key, f"{noun}s must be a list")
             return []
         out: list[Readings] = []
+        parent, loc, errors = self.label, (*self.loc, key), self.errors
         for i, item in enumerate(raw):
-            prefix = f"{self.label}, {noun} {i + 1}" if self.label else f"{noun} {i + 1}"
             if type(item) is not dict and not isinstance(item, Mapping):
-                self.errors.append(FieldError((*self.loc, key, i), f"{prefix} must be an object"))
+                prefix = f"{parent}, {noun} {i + 1}" if parent else f"{noun} {i + 1}"
+                errors.append(FieldError((*loc, i), f"{prefix} must be an object"))
                 continue
-            out.append(Readings(item, (*self.loc, key, i), prefix, self.errors))
+            child = Readings(item, (*loc, i), parent, errors)
+            child._item = (noun, i + 1)
+            out.append(child)
         if len(raw) < min_items:
             self.refuse(key, f"at least {min_items} {noun}s are needed, {len(raw)} given", "missing")
         if max_items is not None and len(raw) > max_items:
