@@ -81,6 +81,27 @@ class Laboratory(SQLModel, table=True):
     accreditation: str = Field(default="", max_length=200)
 
 
+class Container(SQLModel, table=True):
+    """A moisture tin (or dish) of the laboratory's register, with its known empty mass."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=32, unique=True, index=True)
+    tare_g: float
+    active: bool = True
+    checked_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)  # when the tare was weighed
+
+
+class Equipment(SQLModel, table=True):
+    """A calibrated instrument: balance, oven, cup device, cone, vane, load frame, hydrometer, sieve."""
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=32, unique=True, index=True)
+    kind: str = Field(max_length=32)
+    description: str = Field(default="", max_length=200)
+    calibration_due: date | None = None
+    active: bool = True
+
+
 class Client(SQLModel, table=True):
     id: int | None = Field(default=None, primary_key=True)
     name: str = Field(max_length=200, unique=True)
@@ -190,12 +211,16 @@ class ReportTest(SQLModel, table=True):
 
 
 class ShareLink(SQLModel, table=True):
-    """A client's way in: only the SHA-256 of the random token is kept."""
+    """A client's way in: only the SHA-256 of the random token is kept.
+
+    A link opens the issued reports of one client; ``job_id`` limits it to one of their jobs.
+    """
 
     __tablename__ = "share_link"
 
     id: int | None = Field(default=None, primary_key=True)
-    job_id: int = Field(foreign_key="job.id", index=True)
+    client_id: int = Field(foreign_key="client.id", index=True)
+    job_id: int | None = Field(default=None, foreign_key="job.id", index=True)
     token_hash: str = Field(max_length=64, unique=True, index=True)
     label: str = Field(default="", max_length=200)
     created_by_id: int = Field(foreign_key="user.id")

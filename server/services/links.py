@@ -38,9 +38,11 @@ def create_link(db: Database, actor: User, job_id: int, days_valid: int, label: 
         raise invalid("days_valid", f"a link is valid for 1 to {MAX_DAYS} days")
     token = secrets.token_urlsafe(32)
     with db.transaction() as s:
-        if s.get(Job, job_id) is None:
+        job = s.get(Job, job_id)
+        if job is None:
             raise NotFound(f"job {job_id} does not exist")
         link = ShareLink(
+            client_id=job.client_id,
             job_id=job_id,
             token_hash=token_hash(token),
             label=label.strip()[:200],
@@ -114,5 +116,5 @@ def open_link(
         )
         if outcome != "ok":
             return ClientView(outcome)
-        job = s.get(Job, link.job_id)
-        return ClientView(None, job, job_reports(s, link.job_id))
+        job = s.get(Job, link.job_id) if link.job_id is not None else None
+        return ClientView(None, job, job_reports(s, link.job_id) if link.job_id is not None else [])
