@@ -107,20 +107,28 @@ def mean(values: list[float]) -> float:
     return sum(values) / len(values)
 
 
-def water_content_part(r: Readings, out: Outcome, balance: Balance) -> Measured | None:
-    """Natural water content: the mean of one or more determinations, with its uncertainty.
+def averaged_determinations(
+    r: Readings, out: Outcome, balance: Balance, result_key: str, min_items: int
+) -> tuple[list[Determination], Measured] | None:
+    """Read determinations and write each water content and, when every row is good, their mean.
 
-    Writes ``water_content_determinations`` (one entry per row, None where refused) and, when
-    every row is good, ``water_content``.
+    Writes ``{result_key}_determinations`` (one entry per row, None where refused) and
+    ``{result_key}`` with its uncertainty (the mean's, from each determination's masses).
+    Returns the good determinations and the mean, for a caller that checks their spread.
     """
-    dets = read_determinations(r, "determinations", noun="determination", min_items=1)
-    ws = [None if d is None else d.water_content for d in dets]
-    out.results["water_content_determinations"] = ws
+    dets = read_determinations(r, "determinations", noun="determination", min_items=min_items)
+    out.results[f"{result_key}_determinations"] = [None if d is None else d.water_content for d in dets]
     if r.has_errors_under("determinations") or not dets:
         return None
     good = [d for d in dets if d is not None]
-    w = mean([d.water_content for d in good])
+    value = mean([d.water_content for d in good])
     u = u_mean([u_water_content(d.tare_g, d.wet_tare_g, d.dry_tare_g, balance.u_mass) for d in good])
-    out.results["water_content"] = w
-    out.results.setdefault("uncertainty", {})["water_content"] = expanded(u)
-    return Measured(w, u)
+    out.results[result_key] = value
+    out.results.setdefault("uncertainty", {})[result_key] = expanded(u)
+    return good, Measured(value, u)
+
+
+def water_content_part(r: Readings, out: Outcome, balance: Balance) -> Measured | None:
+    """Natural water content: the mean of one or more determinations, with its uncertainty."""
+    found = averaged_determinations(r, out, balance, "water_content", min_items=1)
+    return None if found is None else found[1]
