@@ -21,7 +21,9 @@ from server.config import Settings
 from server.db.migrate import upgrade
 from server.db.session import Database
 from server.db.tables import User
-from server.services import bench, jobs, links, reports, review
+from server.demo_report import add_report_tests
+from server.engine import METHODS
+from server.services import bench, jobs, links, registers, reports, review
 from server.services.users import create_user
 
 LOGINS = (
@@ -117,9 +119,31 @@ LOCATIONS: dict[tuple[str, str], tuple[DemoSoil, ...]] = {
 }
 
 
+# The container register: tins T-01 to T-40, each with a tare weighed to 0.01 g (fictional).
+_TIN_RNG = random.Random(40)
+TINS: dict[str, float] = {f"T-{i:02d}": round(_TIN_RNG.uniform(11.0, 16.0), 2) for i in range(1, 41)}
+
+# The equipment register: (code, kind, description, days from today to the calibration due date).
+# BAL-02 is past its due date: the demo test weighed on it carries an error flag for the reviewer.
+EQUIPMENT: tuple[tuple[str, str, str, int], ...] = (
+    ("BAL-01", "balance", "Top-pan balance, 600 g x 0.01 g, bench 1", 200),
+    ("BAL-02", "balance", "Top-pan balance, 600 g x 0.01 g, bench 2", -12),
+    ("OVN-01", "oven", "Drying oven, 105-110 °C", 120),
+    ("CUP-01", "cup-device", "Liquid limit cup device, hand-operated", 20),
+    ("CONE-01", "cone", "Fall cone, 80 g / 30°", 90),
+    ("VANE-01", "vane", "Laboratory vane, 12.7 mm blade", 150),
+    ("LF-01", "load-frame", "Load frame, 10 kN, for unconfined compression", 60),
+    ("HYD-01", "hydrometer", "Hydrometer 152H", 300),
+    ("SV-063", "sieve", "Test sieve, 63 µm, 200 mm diameter", 180),
+)
+PAST_DUE_BALANCE = "BAL-02"
+WEIGHED_ON_PAST_DUE = "TP03-B3"  # a handed-in test the reviewer sees flagged
+
+
 def _determination(rng: random.Random, w: float, tin: str) -> dict[str, Any]:
-    """Masses to 0.01 g that give water content ``w`` (%) within rounding."""
-    tare = round(rng.uniform(11.0, 16.0), 2)
+    """Masses to 0.01 g that give water content ``w`` (%) within rounding, in a tin of the
+    register (its registered tare)."""
+    tare = TINS[tin]
     dry = rng.uniform(18.0, 30.0)
     return {
         "container": tin,
@@ -132,17 +156,18 @@ def _determination(rng: random.Random, w: float, tin: str) -> dict[str, Any]:
 def atterberg_readings(soil: DemoSoil, rng: random.Random) -> dict[str, Any]:
     """A full Atterberg set whose flow curve passes near (25 blows, LL)."""
     flow_index = 0.25 * soil.ll  # a plausible slope for the demo, not a correlation
+    tins = rng.sample(sorted(TINS), 8)  # eight different tins of the register for one set
     trials = []
     for i, blows in enumerate((34, 27, 21, 16)):
         w = soil.ll - flow_index * math.log10(blows / 25)
-        trials.append({"blows": blows, **_determination(rng, w, f"L{i + 1:02d}")})
+        trials.append({"blows": blows, **_determination(rng, w, tins[2 + i])})
     readings: dict[str, Any] = {
         "water_content": {
-            "determinations": [_determination(rng, soil.w, "N01"), _determination(rng, soil.w, "N02")]
+            "determinations": [_determination(rng, soil.w, tins[0]), _determination(rng, soil.w, tins[1])]
         },
         "liquid_limit": {"method": "ll-cup-multipoint", "trials": trials},
         "plastic_limit": {
-            "determinations": [_determination(rng, soil.pl, "P01"), _determination(rng, soil.pl, "P02")]
+            "determinations": [_determination(rng, soil.pl, tins[6]), _determination(rng, soil.pl, tins[7])]
         },
     }
     readings.update(soil.grading)
@@ -206,6 +231,7 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         "Unit 4, Quarry Lane, Fellgate FG2 7QL",
         "Demonstration laboratory (fictional); no accreditation",
     )
+    equipment = _fill_registers(db, admin)
     client = jobs.create_client(
         db, admin, "Selwyn Moor Water Company", "Design office, reservoir safety team"
     )
@@ -225,7 +251,11 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
                 db, admin, location.id or 0, soil.code, *soil.depth, soil.sample_type, soil.description
             )
             (test,) = jobs.request_tests(db, admin, [sample.id or 0], ["atterberg"], assigned_to_id=tech.id)
-            _advance(db, test.id or 0, soil, atterberg_readings(soil, rng), tech, reviewer)
+            readings = {**atterberg_readings(soil, rng), **_bench_equipment(soil, equipment)}
+            _advance(db, test.id or 0, soil, readings, tech, reviewer)
+    signers = [(users[name], pw) for name, _, _, pw in LOGINS if name in ("review", "review2")]
+    add_report_tests(db, admin, job.id or 0, tech, signers, rng)  # grading, classification, strength
+    _every_bench_page(db, job.id or 0, admin, tech)
     report = reports.issue_report(db, reviewer, job.id or 0, settings.public_base_url)
     link = links.create_link(db, reviewer, job.id or 0, 30, "Selwyn Moor design office")
     return DemoInfo(
@@ -234,6 +264,27 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         report.number,
         f"{settings.public_base_url.rstrip('/')}/share/{link.token}",
     )
+
+
+def _fill_registers(db: Database, admin: User) -> dict[str, dict[str, Any]]:
+    """The container and equipment registers; returns each instrument's entry for readings."""
+    for code, tare in TINS.items():
+        registers.add_container(db, admin, code, tare)
+    today = registers.today()
+    entries = {}
+    for code, kind, description, days in EQUIPMENT:
+        item = registers.add_equipment(db, admin, code, kind, description, today + timedelta(days=days))
+        entries[code] = registers.equipment_view(item, today)["reading"]
+    return entries
+
+
+def _bench_equipment(soil: DemoSoil, entries: dict[str, dict[str, Any]]) -> dict[str, Any]:
+    """The test date and the instruments used, as the bench records them from the register."""
+    balance = PAST_DUE_BALANCE if soil.code == WEIGHED_ON_PAST_DUE else "BAL-01"
+    return {
+        "tested_on": registers.today().isoformat(),
+        "equipment": [entries[balance], entries["OVN-01"], entries["CUP-01"]],
+    }
 
 
 def _advance(
@@ -259,6 +310,33 @@ def _advance(
             db,
             reviewer,
             test_id,
-            "Tin L03 tare differs from the register by 0.4 g; re-weigh the tin and correct trial 3.",
+            "The tin of trial 3 differs from its registered tare by 0.4 g; re-weigh it and correct trial 3.",
             test.version,
         )
+
+
+def _every_bench_page(db: Database, job_id: int, admin: User, tech: User) -> None:
+    """A bulk sample from a fourth pit with a test of every other method: most requested, the
+    fall-cone liquid limit and the sieving part-typed (drafts), so that every bench page opens."""
+    rng = random.Random(7)
+    location = jobs.add_location(db, admin, job_id, "TP04", "trial pit")
+    sample = jobs.add_sample(
+        db, admin, location.id or 0, "TP04-B1", 1.00, 1.40, "bulk", "Brown slightly gravelly sandy CLAY"
+    )
+    methods = [m for m in sorted(METHODS) if m != "atterberg"]
+    drafts: dict[str, dict[str, Any]] = {
+        "ll-cone": {
+            "cone": "80g-30deg",
+            "trials": [
+                {"penetration_mm": [15.8, 16.0], **_determination(rng, 34.0, "T-21")},
+                {"penetration_mm": [18.9, 19.1], **_determination(rng, 36.5, "T-22")},
+            ],
+        },
+        "sieve": {
+            "dry_mass_g": 1508.4,
+            "sieves": [{"size_mm": 37.5, "retained_g": 0.0}, {"size_mm": 20.0, "retained_g": 96.3}],
+        },
+    }
+    for test in jobs.request_tests(db, admin, [sample.id or 0], methods, assigned_to_id=tech.id):
+        if test.method in drafts:
+            bench.save_readings(db, tech, test.id or 0, drafts[test.method], test.version)

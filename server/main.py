@@ -16,7 +16,20 @@ from server.api import calculations as api_calculations
 from server.auth.sessions import CsrfRefused, RoleRequired, SignInRequired
 from server.config import ROOT, Settings, get_settings
 from server.db.session import Database
-from server.web import bench, client, jobs, reports, review, signin
+from server.web import (
+    admin_users,
+    audit,
+    bench,
+    client,
+    home,
+    jobs,
+    registers,
+    reports,
+    requests,
+    review,
+    signin,
+    turnaround,
+)
 from server.web.templating import render
 
 
@@ -40,7 +53,20 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     )
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
-    for module in (signin, jobs, bench, review, reports, client):
+    for module in (
+        signin,
+        jobs,
+        bench,
+        review,
+        reports,
+        client,
+        home,
+        audit,
+        turnaround,
+        admin_users,
+        registers,
+        requests,
+    ):
         app.include_router(module.router)
 
     @app.get("/healthz", include_in_schema=False)

@@ -19,13 +19,19 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from html import escape
 
+from server.engine.descriptors import activity_class
+from server.engine.grading import CLAY_SILT_MM, GRAVEL_SAND_MM, SAND_FINES_MM
 from server.engine.plasticity_chart import a_line, u_line
 from server.engine.rounding import reported
 
 __all__ = [
     "Axis",
+    "ProfileRow",
     "Series",
+    "activity_chart_svg",
+    "depth_profile_svg",
     "flow_curve_svg",
+    "grading_chart_svg",
     "plasticity_chart_svg",
     "xy_chart",
 ]
@@ -246,7 +252,7 @@ def _marker(svg: _Svg, shape: str, x: float, y: float, size: float = 3.6) -> Non
 def _frame(svg: _Svg, xa: Axis, ya: Axis, x_label: str, y_label: str) -> None:
     """Grid, tick labels, the plot border and the axis titles (with units)."""
     left, right = xa.px_lo, xa.px_hi
-    bottom, top = ya.px_lo, ya.px_hi
+    bottom, top = max(ya.px_lo, ya.px_hi), min(ya.px_lo, ya.px_hi)  # a depth axis runs downward
     for v, labelled in xa.ticks():
         px = xa.to_px(v)
         svg.line(px, top, px, bottom, stroke=GRID, stroke_width="0.8" if labelled else "0.5")
@@ -593,4 +599,177 @@ def xy_chart(
                 _marker(svg, shape, left + 14, ly, 3.0)
             svg.text(left + 36, ly + 3.5, s.label, font_size=_n(SMALL))
     svg.text(left, top - 9, title, font_weight="bold")
+    return svg.render()
+
+
+def _legend(svg: _Svg, x: float, y: float, entries: Sequence[tuple[str, str, str]]) -> None:
+    """A one-row legend: (marker shape, dash pattern or "" for none drawn, label) per entry."""
+    for shape, dash, label in entries:
+        if dash:
+            attrs: dict[str, object] = {"stroke": INK, "stroke_width": "1.2"}
+            if dash != "solid":
+                attrs["stroke_dasharray"] = dash
+            svg.line(x, y, x + 22, y, **attrs)
+        if shape != "none":
+            _marker(svg, shape, x + 11, y, 3.0)
+        svg.text(x + 27, y + 3.2, label, font_size=_n(SMALL))
+        x += 36 + len(label) * SMALL * 0.58
+
+
+# -- grading curves ----------------------------------------------------------------------------
+
+GRADING_SIZES_MM = (0.001, 100.0)
+
+
+def grading_chart_svg(
+    curves: Sequence[tuple[str, Sequence[tuple[float, float]]]],
+    *,
+    title: str = "Grading curves",
+    width: float = 640.0,
+    height: float = 330.0,
+) -> str:
+    """Percent passing against particle size (log scale), one series per sample.
+
+    The clay/silt, silt/sand and sand/gravel boundaries (2 µm, 75 µm, 4.75 mm) are drawn from
+    the engine's constants (ASTM D2487-17 section 3; Skempton 1953 for 2 µm) and named above the plot.
+    """
+    series = [Series(label, pts) for label, pts in curves]
+    sizes = [x for _, pts in curves for x, _ in pts if _num(x) is not None and x > 0]
+    lo = min([GRADING_SIZES_MM[0], *sizes])
+    hi = max([GRADING_SIZES_MM[1], *sizes])
+    svg_text = xy_chart(series, title=title, x_label="Particle size (mm, log scale)",
+                        y_label="Percent passing (%)", x_log=True, x_range=(lo, hi), y_range=(0.0, 100.0),
+                        width=width, height=height)
+    # The soil-fraction boundaries go in as dashed verticals, before the closing tag.
+    left, right, bottom, top = _box(width, height)
+    xa = log_axis(lo, hi, left, right)
+    extra = _Svg(width, height, title)
+    edges = [xa.lo, CLAY_SILT_MM, SAND_FINES_MM, GRAVEL_SAND_MM, xa.hi]
+    for size in edges[1:-1]:
+        px = xa.to_px(size)
+        extra.line(px, bottom, px, top, stroke=INK, stroke_width="0.7", stroke_dasharray="3 3",
+                   class_="fraction-edge")
+    for name, a, b in zip(("CLAY", "SILT", "SAND", "GRAVEL"), edges, edges[1:], strict=False):
+        extra.text((xa.to_px(a) + xa.to_px(b)) / 2, top + 10, name, text_anchor="middle",
+                   font_size=_n(SMALL - 0.5), fill="#444", class_="fraction-name")
+    return svg_text[: -len("</svg>")] + "".join(extra.parts) + "</svg>"
+
+
+# -- depth profile -----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ProfileRow:
+    """One sample on a depth profile: its label, depth (m) and w, LL, PL (%), any may be None."""
+
+    label: str
+    depth_m: float
+    water_content: float | None
+    liquid_limit: float | None
+    plastic_limit: float | None
+
+
+def depth_profile_svg(
+    rows: Sequence[ProfileRow],
+    *,
+    title: str = "Water content and limits against depth",
+    width: float = 330.0,
+    height: float = 380.0,
+) -> str:
+    """Natural water content, liquid limit and plastic limit against depth (downward), per sample.
+
+    Each sample's plastic and liquid limits are joined by a bar (the plastic range) with the
+    natural water content on it, the usual way a borehole's index profile is drawn (common practice).
+    """
+    svg = _Svg(width, height + 18, title)
+    left, right, bottom, top = _box(width, height)
+    values = [f for r in rows for v in (r.water_content, r.liquid_limit, r.plastic_limit)
+              if (f := _num(v)) is not None]
+    depths = [r.depth_m for r in rows if _num(r.depth_m) is not None]
+    xa = linear_axis(min(values, default=0.0) - 2.0, max(values, default=60.0) + 2.0, left, right, target=5)
+    d_lo, d_hi, d_step = nice_range(0.0, max(depths, default=1.0) * 1.08 + 0.1, target=6)
+    ya = Axis(0.0, d_hi, top, bottom, False, d_step)
+    _frame(svg, xa, ya, "Water content, w, and limits (%)", "Depth below ground (m)")
+    for r in rows:
+        if _num(r.depth_m) is None or not ya.contains(r.depth_m):
+            continue
+        y = ya.to_px(r.depth_m)
+        ll, pl, w = _num(r.liquid_limit), _num(r.plastic_limit), _num(r.water_content)
+        if ll is not None and pl is not None:
+            svg.line(xa.to_px(pl), y, xa.to_px(ll), y, stroke=INK, stroke_width="1.1", class_="plastic-range")
+        if pl is not None:
+            _marker(svg, "square", xa.to_px(pl), y, 2.8)
+        if ll is not None:
+            _marker(svg, "triangle", xa.to_px(ll), y, 2.8)
+        if w is not None:
+            _marker(svg, "circle", xa.to_px(w), y, 2.8)
+        xs = [xa.to_px(v) for v in (ll, pl, w) if v is not None]
+        if xs:
+            svg.text(min(max(xs) + 6, right - 2), y - 4, r.label, font_size=_n(SMALL - 1),
+                     text_anchor="end" if max(xs) + 6 > right - 40 else "start", class_="point-label")
+    _legend(svg, left, height + 6, (("circle", "", "w"), ("triangle", "", "LL"), ("square", "", "PL"),
+                                    ("none", "solid", "plastic range PL to LL")))
+    svg.text(left, top - 9, title, font_weight="bold")
+    return svg.render()
+
+
+# -- activity chart ----------------------------------------------------------------------------
+
+
+def activity_boundaries() -> tuple[float, ...]:
+    """The activities where the engine's activity class changes (Skempton 1953), found by bisection
+    on ``server.engine.descriptors.activity_class`` so the values are not restated here."""
+    out: list[float] = []
+    grid = [i / 100 for i in range(1, 501)]
+    for a, b in zip(grid, grid[1:], strict=False):
+        if activity_class(a) != activity_class(b):
+            lo, hi = a, b
+            for _ in range(50):
+                mid = (lo + hi) / 2
+                if activity_class(mid) == activity_class(a):
+                    lo = mid
+                else:
+                    hi = mid
+            out.append(round(hi, 6))
+    return tuple(out)
+
+
+def activity_chart_svg(
+    points: Sequence[tuple[str, float, float]],
+    *,
+    width: float = 560.0,
+    height: float = 350.0,
+) -> str:
+    """Plasticity index against clay fraction (% finer than 2 µm), each sample plotted and labelled,
+    with the lines of constant activity A = PI / clay fraction where the class changes (Skempton 1953)."""
+    clean = [(str(lab), c, pi) for lab, c, pi in points if _num(c) is not None and _num(pi) is not None]
+    max_c = max([60.0] + [c + 6 for _, c, _ in clean])
+    max_pi = max([60.0] + [pi + 6 for _, _, pi in clean])
+    svg = _Svg(width, height, "Activity chart")
+    left, right, bottom, top = _box(width, height)
+    xa = Axis(0.0, math.ceil(max_c / 10) * 10, left, right, False, 10.0)
+    ya = Axis(0.0, math.ceil(max_pi / 10) * 10, bottom, top, False, 10.0)
+    _frame(svg, xa, ya, "Clay fraction, finer than 2 µm (%)", "Plasticity index, PI")
+    bounds = activity_boundaries()
+    names = [activity_class(bounds[0] / 2)] + [activity_class(b + 1e-6) for b in bounds]
+    for i, a in enumerate(bounds):
+        c_end = min(xa.hi, ya.hi / a)
+        svg.polyline([(xa.to_px(0.0), ya.to_px(0.0)), (xa.to_px(c_end), ya.to_px(a * c_end))], stroke=INK,
+                     stroke_width="1.1", stroke_dasharray="7 4" if i else "", class_="activity-line")
+        svg.text(xa.to_px(c_end) - 4, ya.to_px(a * c_end) + (12 if a * c_end < ya.hi - 1 else 14),
+                 f"A = {_tick_text(a)}", text_anchor="end", font_size=_n(SMALL), font_style="italic")
+    # Class names inside their wedges, along the bisector of each wedge at 80 % of the width.
+    edges: list[float | None] = [0.0, *bounds, None]
+    for name, lo_a, hi_a in zip(names, edges, edges[1:], strict=False):
+        assert lo_a is not None
+        slope = (lo_a + hi_a) / 2 if hi_a is not None else lo_a * 1.8
+        c = min(xa.hi * 0.8, ya.hi * 0.85 / slope) if slope else xa.hi * 0.8
+        svg.text(xa.to_px(c), ya.to_px(slope * c) + 3, name, text_anchor="middle",
+                 font_size=_n(FONT_SIZE), font_weight="bold", fill="#555", class_="zone")
+    for lab, c, pi in clean:
+        x, y = xa.to_px(c), ya.to_px(pi)
+        svg.add("circle", cx=_n(x), cy=_n(y), r="3.2", fill="#fff", stroke=INK, stroke_width="1.3",
+                class_="point")
+        svg.text(x + 6, y - 4, lab, font_size=_n(SMALL), class_="point-label")
+    svg.text(left, top - 9, "Activity chart (Skempton 1953)", font_weight="bold")
     return svg.render()

@@ -20,13 +20,23 @@ import hashlib
 import json
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field, fields, is_dataclass
+from dataclasses import dataclass, field, fields, is_dataclass, replace
 from datetime import date, datetime
 from typing import Any
 
+from server.engine.indices import activity as activity_of
 from server.engine.plasticity_chart import chart_symbol
 from server.engine.rounding import reported, round_half_up
-from server.reports.charts import flow_curve_svg, plasticity_chart_svg
+from server.reports.charts import (
+    ProfileRow,
+    Series,
+    activity_chart_svg,
+    depth_profile_svg,
+    flow_curve_svg,
+    grading_chart_svg,
+    plasticity_chart_svg,
+    xy_chart,
+)
 
 DASH = "—"
 NP = "NP"
@@ -93,9 +103,20 @@ class TestEntry:
     flags: Sequence[Mapping[str, Any]] = ()
     revision: int = 0
     method_title: str = ""
+    approval: Signatory | None = None  # who approved this test revision, in what role, meaning, when
+    amendment_reason: str = ""  # why this revision replaced an earlier one (empty for revision 1)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "flags", tuple(self.flags))
+
+
+@dataclass(frozen=True)
+class RevisionNote:
+    """An earlier revision of the same report: its number, issue date and file SHA-256."""
+
+    revision: int
+    issued_on: str
+    sha256: str
 
 
 @dataclass(frozen=True)
@@ -116,9 +137,11 @@ class ReportData:
     tests: Sequence[TestEntry] = ()
     methods: Sequence[MethodNote] = ()
     cautions: Sequence[str] = DEFAULT_CAUTIONS
+    scope: str = ""  # which samples the report covers, in words ("all 12 samples with approved tests")
+    history: Sequence[RevisionNote] = ()  # earlier revisions this one supersedes, oldest first
 
     def __post_init__(self) -> None:
-        for name in ("tests", "methods", "cautions"):
+        for name in ("tests", "methods", "cautions", "history"):
             object.__setattr__(self, name, tuple(getattr(self, name)))
 
 
@@ -219,6 +242,8 @@ class TestSection:
     curve_svg: str
     curve_caption: str
     flags: tuple[FlagLine, ...]
+    approval: str = ""  # "name, role, signed at" of the test revision's approval
+    first_of_sample: bool = True  # starts a new page; a sample's further tests follow on
 
 
 @dataclass(frozen=True)
@@ -241,6 +266,47 @@ class ChartPoint:
 
 
 @dataclass(frozen=True)
+class ActivityPoint:
+    label: str
+    sample: str
+    clay_fraction: str
+    plasticity_index: str
+    activity: str
+
+
+@dataclass(frozen=True)
+class ApprovalLine:
+    """The signature on one test revision carried by the report."""
+
+    sample: str
+    test: str
+    revision: int
+    name: str
+    role: str
+    meaning: str
+    signed_at: str
+
+
+@dataclass(frozen=True)
+class AmendmentLine:
+    """A test revision that replaced an earlier one, and the reason recorded for it."""
+
+    sample: str
+    test: str
+    revision: int
+    reason: str
+
+
+@dataclass(frozen=True)
+class Figure:
+    """A chart as printed: its heading, the SVG, a caption."""
+
+    title: str
+    svg: str
+    caption: str = ""
+
+
+@dataclass(frozen=True)
 class ReportView:
     data: ReportData
     issue_date: str
@@ -252,6 +318,13 @@ class ReportView:
     interpretation: tuple[InterpretationEntry, ...]
     methods: tuple[MethodNote, ...]
     sample_count: int
+    approvals: tuple[ApprovalLine, ...] = ()
+    amendments: tuple[AmendmentLine, ...] = ()
+    history: tuple[RevisionNote, ...] = ()
+    depth_profiles: tuple[Figure, ...] = ()
+    grading_charts: tuple[Figure, ...] = ()
+    activity_chart: Figure | None = None
+    activity_points: tuple[ActivityPoint, ...] = ()
 
 
 # Result lines in the order a reader expects; LL, PL and PI carry no % sign (ASTM D4318 report
@@ -368,13 +441,40 @@ def _sample_key(t: TestEntry) -> tuple[str, str, float | None, float | None]:
     return (t.location_code, t.sample_code, t.depth_from_m, t.depth_to_m)
 
 
+# Where two tests of one sample give the same key, the test that measures it wins: the
+# classification test's USCS and AASHTO over the Atterberg set's chart symbol, a grading or
+# hydrometer test's clay fraction over a value typed into the Atterberg set.
+_PREFERRED: dict[str, tuple[str, ...]] = {
+    "uscs_symbol": ("classification", "atterberg"),
+    "uscs_name": ("classification", "atterberg"),
+    "aashto_group": ("classification",),
+    "group_index": ("classification",),
+    "clay_fraction": ("grading", "hydrometer", "atterberg", "classification"),
+}
+
+
+def _rank(key: str, method: str) -> int:
+    order = _PREFERRED.get(key, ())
+    return order.index(method) if method in order else len(order)
+
+
 def _merge(tests: Sequence[TestEntry]) -> dict[str, Any]:
-    """One sample's results from all its tests: for each key, the first test that gives it."""
+    """One sample's results from all its tests: for each key, the preferred test that gives it
+    (else the first). Activity is formed again from the PI and clay fraction shown (by the
+    engine's formula), so that it agrees with them when they come from two different tests."""
     merged: dict[str, Any] = {}
+    rank: dict[str, int] = {}
     for t in tests:
         for key, value in t.results.items():
-            if value is not None and key not in merged:
+            if value is None:
+                continue
+            r = _rank(key, t.method)
+            if key not in merged or r < rank[key]:
                 merged[key] = value
+                rank[key] = r
+    pi, clay = _number(merged.get("plasticity_index")), _number(merged.get("clay_fraction"))
+    if not _nonplastic(merged) and pi is not None and clay:
+        merged["activity"] = activity_of(pi, clay)
     return merged
 
 
@@ -523,7 +623,27 @@ def readings_tables(
     return tuple(tables), tuple(others)
 
 
-def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
+def grading_points(results: Mapping[str, Any]) -> list[tuple[float, float]]:
+    """(size in mm, percent passing) of a test's grading, largest size first: the combined sieve
+    and sedimentation curve, else the sieve curve, else the hydrometer points."""
+    for key, x_key, y_key in (("combined_curve", "size_mm", "percent_passing"),
+                              ("grading_curve", "size_mm", "percent_passing"),
+                              ("hydrometer_points", "diameter_mm", "percent_finer")):
+        rows = results.get(key)
+        if not isinstance(rows, list):
+            continue
+        pts = []
+        for row in rows:
+            if isinstance(row, Mapping):
+                x, y = _number(row.get(x_key)), _number(row.get(y_key))
+                if x is not None and y is not None and x > 0:
+                    pts.append((x, y))
+        if pts:
+            return sorted(pts, reverse=True)
+    return []
+
+
+def _flow_curve(results: Mapping[str, Any]) -> tuple[str, str]:
     trials = results.get("liquid_limit_trials")
     if not isinstance(trials, list) or not trials:
         return "", ""
@@ -545,6 +665,37 @@ def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
     if r2 is not None:
         caption += f" (r² = {r2:.3f})"
     return svg, caption + "."
+
+
+def _stress_strain(results: Mapping[str, Any]) -> tuple[str, str]:
+    series = []
+    for key, label in (("stress_strain", "undisturbed"), ("remoulded_stress_strain", "remoulded")):
+        rows = results.get(key)
+        if isinstance(rows, list):
+            pts = [(_number(row.get("strain_pct")), _number(row.get("stress_kpa")))
+                   for row in rows if isinstance(row, Mapping)]
+            series.append(Series(label, [(x, y) for x, y in pts if x is not None and y is not None]))
+    if not series:
+        return "", ""
+    svg = xy_chart(series, title="Stress against strain", x_label="Axial strain (%)",
+                   y_label="Axial stress, corrected area (kPa)", width=330.0, height=235.0)
+    qu, at = results.get("unconfined_strength_kpa"), results.get("strain_at_failure_pct")
+    caption = ""
+    if _number(qu) is not None and _number(at) is not None:
+        caption = (f"qu = {show('unconfined_strength_kpa', qu)} kPa at {show('strain_at_failure_pct', at)} % "
+                   f"strain ({results.get('failure_criterion') or 'peak'}).")
+    return svg, caption
+
+
+def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
+    """The chart of one test's own page: flow or cone curve, grading curve, or stress-strain."""
+    if results.get("liquid_limit_trials"):
+        return _flow_curve(results)
+    pts = grading_points(results)
+    if pts:
+        return (grading_chart_svg([("this sample", pts)], title="Grading curve", width=330.0, height=235.0),
+                "Percent passing against particle size; fraction boundaries at 2 µm, 75 µm and 4.75 mm.")
+    return _stress_strain(results)
 
 
 def _flags(t: TestEntry) -> tuple[FlagLine, ...]:
@@ -580,6 +731,8 @@ def section_for(index: int, t: TestEntry) -> TestSection:
         curve_svg=svg,
         curve_caption=caption,
         flags=_flags(t),
+        approval=(f"{t.approval.name}, {t.approval.role}, {moment(t.approval.signed_at)}"
+                  if t.approval is not None else ""),
     )
 
 
@@ -614,7 +767,7 @@ def _chart_points(groups: list[list[TestEntry]]) -> list[tuple[ChartPoint, float
     codes = [t.sample_code for t, _ in plotted]
     out = []
     for t, r in plotted:
-        label = t.sample_code if codes.count(t.sample_code) == 1 else f"{t.location_code}/{t.sample_code}"
+        label = _label(t, codes)
         ll, pi = float(r["liquid_limit"]), float(r["plasticity_index"])
         pos = r.get("plasticity_chart")
         symbol = pos.get("symbol") if isinstance(pos, Mapping) else None
@@ -622,6 +775,100 @@ def _chart_points(groups: list[list[TestEntry]]) -> list[tuple[ChartPoint, float
                            reported("plasticity_index", pi), str(symbol or chart_symbol(ll, pi)))
         out.append((point, ll, pi))
     return out
+
+
+def _sections(tests: Sequence[TestEntry]) -> tuple[TestSection, ...]:
+    """Each test's details; a sample's first test starts a page, its other tests follow on."""
+    out = []
+    for i, t in enumerate(tests):
+        first = i == 0 or _sample_key(tests[i - 1]) != _sample_key(t)
+        out.append(replace(section_for(i, t), first_of_sample=first))
+    return tuple(out)
+
+
+def _label(t: TestEntry, codes: Sequence[str]) -> str:
+    """A sample's label on a chart: its code, with the location when codes repeat."""
+    return t.sample_code if codes.count(t.sample_code) == 1 else f"{t.location_code}/{t.sample_code}"
+
+
+def _depth_of(t: TestEntry) -> float | None:
+    """Where a sample plots on a depth profile: the middle of its depth range (common practice)."""
+    if t.depth_from_m is None:
+        return t.depth_to_m
+    if t.depth_to_m is None:
+        return t.depth_from_m
+    return (t.depth_from_m + t.depth_to_m) / 2
+
+
+def depth_profiles(groups: list[list[TestEntry]]) -> tuple[Figure, ...]:
+    """One profile of w, LL and PL against depth for each location with any of them."""
+    by_location: dict[str, list[ProfileRow]] = {}
+    for tests in groups:
+        first, r = tests[0], _merge(tests)
+        depth = _depth_of(first)
+        w, ll, pl = (_number(r.get(k)) for k in ("water_content", "liquid_limit", "plastic_limit"))
+        if depth is None or (w is None and ll is None and pl is None):
+            continue
+        if _nonplastic(r):
+            pl = None
+        by_location.setdefault(first.location_code, []).append(
+            ProfileRow(first.sample_code, depth, w, ll, pl))
+    return tuple(
+        Figure(f"Location {loc}", depth_profile_svg(rows, title=f"{loc}: w, LL and PL against depth"),
+               "Each sample at the middle of its depth range; the bar joins its plastic and liquid limits.")
+        for loc, rows in by_location.items())
+
+
+GRADING_PER_CHART = 6  # series beyond this stop reading apart in black and white (common practice)
+
+
+def grading_charts(groups: list[list[TestEntry]]) -> tuple[Figure, ...]:
+    """The grading curves, by location, at most ``GRADING_PER_CHART`` samples to a chart."""
+    by_location: dict[str, list[tuple[str, list[tuple[float, float]]]]] = {}
+    for tests in groups:
+        pts: list[tuple[float, float]] = []
+        for t in sorted(tests, key=lambda t: _rank("clay_fraction", t.method)):
+            pts = grading_points(t.results)
+            if pts:
+                break
+        if pts:
+            by_location.setdefault(tests[0].location_code, []).append((tests[0].sample_code, pts))
+    out = []
+    for loc, curves in by_location.items():
+        for i in range(0, len(curves), GRADING_PER_CHART):
+            part = curves[i:i + GRADING_PER_CHART]
+            out.append(Figure(f"Location {loc}", grading_chart_svg(part, title=f"{loc}: grading curves"),
+                              "Samples: " + ", ".join(label for label, _ in part) + "."))
+    return tuple(out)
+
+
+def _activity_points(groups: list[list[TestEntry]]) -> list[tuple[ActivityPoint, float, float]]:
+    """Every plastic sample with a PI and a clay fraction above zero."""
+    found = []
+    for tests in groups:
+        r = _merge(tests)
+        pi, clay = _number(r.get("plasticity_index")), _number(r.get("clay_fraction"))
+        if not _nonplastic(r) and pi is not None and clay:
+            found.append((tests[0], r, clay, pi))
+    codes = [t.sample_code for t, _, _, _ in found]
+    return [(ActivityPoint(_label(t, codes), f"{t.location_code} / {t.sample_code}",
+                           show("clay_fraction", clay), reported("plasticity_index", pi),
+                           show("activity", r.get("activity"))), clay, pi)
+            for t, r, clay, pi in found]
+
+
+def approvals(tests: Sequence[TestEntry]) -> tuple[ApprovalLine, ...]:
+    return tuple(
+        ApprovalLine(f"{t.location_code} / {t.sample_code}", t.method_title or t.method, t.revision,
+                     t.approval.name, t.approval.role, t.approval.meaning, moment(t.approval.signed_at))
+        for t in tests if t.approval is not None)
+
+
+def amendments(tests: Sequence[TestEntry]) -> tuple[AmendmentLine, ...]:
+    return tuple(
+        AmendmentLine(f"{t.location_code} / {t.sample_code}", t.method_title or t.method, t.revision,
+                      t.amendment_reason)
+        for t in tests if t.amendment_reason)
 
 
 def build_view(data: ReportData) -> ReportView:
@@ -632,15 +879,28 @@ def build_view(data: ReportData) -> ReportView:
     for t in data.tests:
         interpretation.extend(interpretation_entries(t))
     chart = plasticity_chart_svg([(p.label, ll, pi) for p, ll, pi in points]) if points else ""
+    active = _activity_points(groups)
+    activity = None
+    if active:
+        activity = Figure("Activity chart", activity_chart_svg([(p.label, c, pi) for p, c, pi in active]),
+                          "Plasticity index against clay fraction; lines of constant activity A = PI / clay "
+                          "fraction at the class boundaries (Skempton 1953).")
     return ReportView(
         data=data,
         issue_date=data.issue_date.isoformat(),
         signed_at=moment(data.approver.signed_at),
         summary=tuple(summary_row(g) for g in groups),
-        sections=tuple(section_for(i, t) for i, t in enumerate(data.tests)),
+        sections=_sections(data.tests),
         chart_points=tuple(p for p, _, _ in points),
         plasticity_chart_svg=chart,
         interpretation=tuple(interpretation),
         methods=tuple(data.methods),
         sample_count=len(groups),
+        approvals=approvals(data.tests),
+        amendments=amendments(data.tests),
+        history=tuple(data.history),
+        depth_profiles=depth_profiles(groups),
+        grading_charts=grading_charts(groups),
+        activity_chart=activity,
+        activity_points=tuple(p for p, _, _ in active),
     )

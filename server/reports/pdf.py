@@ -30,7 +30,8 @@ from weasyprint.urls import URLFetcher
 
 from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
 
-__all__ = ["content_fingerprint", "canonical_json", "qr_svg", "render_report_html", "render_report_pdf"]
+__all__ = ["check_url", "content_fingerprint", "canonical_json", "qr_svg", "render_report_html",
+           "render_report_pdf"]
 
 TEMPLATES = Path(__file__).resolve().parents[2] / "templates"
 TEMPLATE = "reports/report.html"
@@ -66,15 +67,26 @@ def qr_svg(url: str) -> str:
     return str(segno.make(url, error="m", micro=False).svg_inline(scale=1.6, border=2, dark="#000"))
 
 
-def render_report_html(data: ReportData) -> str:
-    """The report as one self-contained HTML document (autoescaped; charts and QR inline)."""
+def check_url(data: ReportData, fingerprint: str) -> str:
+    """The verification address with the content fingerprint filled in: what the QR code holds,
+    so that scanning it checks this very report."""
+    joiner = "&" if "?" in data.verify_url else "?"
+    return f"{data.verify_url}{joiner}sha256={fingerprint}"
+
+
+def render_report_html(data: ReportData, *, preview: bool = False) -> str:
+    """The report as one self-contained HTML document (autoescaped; charts and QR inline).
+
+    ``preview`` marks every page as not issued (a look at a report before issuing it)."""
     view = build_view(data)
-    qr = Markup(qr_svg(data.verify_url)) if data.verify_url else Markup("")
+    fingerprint = content_fingerprint(data)
+    qr = Markup(qr_svg(check_url(data, fingerprint))) if data.verify_url else Markup("")
     return _environment().get_template(TEMPLATE).render(
         view=view,
         data=data,
-        fingerprint=content_fingerprint(data),
+        fingerprint=fingerprint,
         qr=qr,
+        preview=preview,
     )
 
 

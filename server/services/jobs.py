@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterable
 from datetime import date
 
-from sqlmodel import select
+from sqlmodel import col, select
 
 from server.db.session import Database
 from server.db.tables import Client, Job, Laboratory, LabTest, Location, Sample, User
@@ -118,18 +118,41 @@ def request_tests(
     sample_ids: Iterable[int],
     methods: Iterable[str],
     assigned_to_id: int | None = None,
+    *,
+    skip_existing: bool = False,
 ) -> list[LabTest]:
-    """Request each method on each sample (one transaction for the whole batch)."""
+    """Request each method on each sample (one transaction for the whole batch).
+
+    With ``skip_existing`` a method a sample already has (a revision not superseded) is left
+    out, so a bulk request can be repeated over a borehole without doubling its tests.
+    """
     methods = list(methods)
+    sample_ids = list(sample_ids)
     unknown = [m for m in methods if m not in METHODS]
     if unknown:
         raise invalid("methods", f"unknown method(s): {', '.join(unknown)}")
     created: list[LabTest] = []
     with db.transaction() as s:
+        if assigned_to_id is not None:
+            assignee = s.get(User, assigned_to_id)
+            if assignee is None or not assignee.active:
+                raise invalid("assigned_to_id", f"user {assigned_to_id} does not exist or is not active")
+        existing: set[tuple[int, str]] = set()
+        if skip_existing and sample_ids:
+            existing = {
+                (sid, m)
+                for sid, m in s.exec(
+                    select(LabTest.sample_id, LabTest.method).where(
+                        col(LabTest.sample_id).in_(sample_ids), LabTest.status != Status.superseded.value
+                    )
+                )
+            }
         for sample_id in sample_ids:
             if s.get(Sample, sample_id) is None:
                 raise NotFound(f"sample {sample_id} does not exist")
             for m in methods:
+                if (sample_id, m) in existing:
+                    continue
                 test = LabTest(
                     sample_id=sample_id,
                     method=m,
@@ -145,7 +168,12 @@ def request_tests(
                     "lab_test",
                     test.id or 0,
                     "request",
-                    after={"sample_id": sample_id, "method": m, "status": test.status},
+                    after={
+                        "sample_id": sample_id,
+                        "method": m,
+                        "status": test.status,
+                        "assigned_to_id": assigned_to_id,
+                    },
                 )
                 created.append(test)
         return created

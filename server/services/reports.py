@@ -1,35 +1,74 @@
-"""Issuing a report: gather a job's approved tests, render the PDF once, store it with its hash.
+"""Issuing and re-issuing a report: gather approved tests, render the PDF once, store it with its hash.
 
-The PDF is rendered outside the write transaction (it takes a second or more and the SQLite
-write lock must not be held that long); the transaction then checks that every test is still
-the approved revision that was rendered, and stores the bytes, SHA-256 and audit event
-together. A stored report is never rendered again: downloads serve the stored bytes.
+The PDF is rendered outside the write transaction (it takes seconds for a big job and the
+SQLite write lock must not be held that long); the transaction then checks that every test is
+still the approved revision that was rendered, and stores the bytes, SHA-256, content
+fingerprint and audit event together. A stored report is never rendered again: downloads
+serve the stored bytes.
+
+A re-issue after an amendment is revision n + 1 of the same report number, carrying the
+current approved revisions of the same samples and methods; the earlier revision is marked
+superseded (never deleted) and stays downloadable.
 """
 
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, func, select
 
-from server.db.queries import TestRow, current_tests
+from server.db.queries import TestRow, current_tests, users_by_id
 from server.db.session import Database
 from server.db.tables import Client, Job, Laboratory, LabTest, Report, ReportTest, User, utcnow
 from server.engine import METHODS
-from server.reports.context import LabInfo, MethodNote, ReportData, Signatory, TestEntry, content_fingerprint
-from server.reports.pdf import render_report_pdf
+from server.reports.context import (
+    LabInfo,
+    MethodNote,
+    ReportData,
+    RevisionNote,
+    Signatory,
+    TestEntry,
+    content_fingerprint,
+)
 from server.services import audit
 from server.services.errors import Conflict, Forbidden, NotFound, invalid
 from server.workflow.states import CHECKERS, Role
 
-REPORT_MEANING = "Authorised for issue: the results were reviewed and approved as listed"
+REPORT_MEANING = (
+    "Authorised for issue: I have checked that this report carries the approved results listed, "
+    "as approved, and I release it to the client"
+)
+ROLE_TITLES = {"technician": "Technician", "reviewer": "Reviewer", "admin": "Laboratory administrator"}
+# Optional free text in a test's readings: how the test departed from its standard.
+DEVIATION_KEY = "deviation"
 
 
-def _entry(row: TestRow) -> TestEntry:
-    method = METHODS.get(row.test.method)
+def _check_role(actor: User) -> None:
+    if Role(actor.role) not in CHECKERS:
+        raise Forbidden("only a reviewer or admin issues reports")
+
+
+def _iso(when: datetime | None) -> str:
+    return "" if when is None else when.replace(microsecond=0).isoformat()
+
+
+def _entry(row: TestRow, people: dict[int, User]) -> TestEntry:
+    t = row.test
+    method = METHODS.get(t.method)
+    approval = None
+    if t.approved_by_id is not None and t.approved_at is not None:
+        signer = people.get(t.approved_by_id)
+        approval = Signatory(
+            signer.full_name if signer else f"user {t.approved_by_id}",
+            ROLE_TITLES.get(t.approver_role or (signer.role if signer else ""), t.approver_role or ""),
+            t.signature_meaning or "",
+            _iso(t.approved_at),
+        )
     return TestEntry(
         sample_code=row.sample.code,
         location_code=row.location.code,
@@ -37,13 +76,49 @@ def _entry(row: TestRow) -> TestEntry:
         depth_to_m=row.sample.depth_to_m,
         sample_type=row.sample.sample_type,
         description=row.sample.description,
-        method=row.test.method,
-        method_title=method.title if method else row.test.method,
-        results=row.test.results or {},
-        readings=row.test.readings or {},
-        flags=row.test.flags or [],
-        revision=row.test.revision,
+        method=t.method,
+        method_title=method.title if method else t.method,
+        results=t.results or {},
+        readings=t.readings or {},
+        flags=t.flags or [],
+        revision=t.revision,
+        approval=approval,
+        amendment_reason=(t.amendment_reason or "") if t.revision > 1 else "",
     )
+
+
+def _parts(test: TestEntry) -> list[str]:
+    """The methods a test followed: itself, and for the Atterberg set each part's own method."""
+    out = [test.method]
+    if test.method == "atterberg":
+        r = test.readings
+        if isinstance(r.get("water_content"), dict):
+            out.append("water-content")
+        ll = r.get("liquid_limit")
+        if isinstance(ll, dict) and isinstance(ll.get("method"), str):
+            out.append(ll["method"])
+        if isinstance(r.get("plastic_limit"), dict):
+            out.append("plastic-limit")
+    return out
+
+
+def method_notes(tests: Sequence[TestEntry]) -> list[MethodNote]:
+    """Every method the report's tests followed, with its standard, and the deviations recorded
+    on them (a test's readings may carry ``"deviation": "..."``), named by sample."""
+    deviations: dict[str, list[str]] = {}
+    order: list[str] = []
+    for t in tests:
+        for m in _parts(t):
+            if m not in order:
+                order.append(m)
+        text = t.readings.get(DEVIATION_KEY)
+        if isinstance(text, str) and text.strip():
+            deviations.setdefault(t.method, []).append(f"{t.sample_code}: {text.strip()}")
+    known = [m for m in order if m in METHODS]
+    return [
+        MethodNote(METHODS[m].title, METHODS[m].standard, "; ".join(deviations.get(m, [])))
+        for m in sorted(known, key=lambda m: (m != "atterberg", METHODS[m].title))
+    ]
 
 
 def next_report_number(session: Session, job: Job) -> str:
@@ -54,20 +129,32 @@ def next_report_number(session: Session, job: Job) -> str:
     return f"{job.code}-R{int(count) + 1:02d}"
 
 
+def _scope(rows: Sequence[TestRow], approved: Sequence[TestRow]) -> str:
+    chosen = {r.sample.id for r in rows}
+    available = {r.sample.id for r in approved}
+    if chosen == available:
+        return f"All {len(chosen)} sample{'s' if len(chosen) != 1 else ''} of the job with approved tests."
+    return f"Selected samples: {len(chosen)} of the {len(available)} samples of the job with approved tests."
+
+
 def report_data(
     session: Session,
     job: Job,
-    rows: list[TestRow],
+    rows: Sequence[TestRow],
     issuer: User,
     number: str,
     revision: int,
     issued_at: datetime,
     base_url: str,
+    *,
+    scope: str = "",
+    history: Sequence[RevisionNote] = (),
 ) -> ReportData:
-    """The report's content from records (pure apart from the two look-ups of lab and client)."""
+    """The report's content from records: everything it prints, nothing it must look up later."""
     lab = session.exec(select(Laboratory)).first() or Laboratory(name="Laboratory")
     client = session.get(Client, job.client_id)
-    methods = sorted({r.test.method for r in rows})
+    people = users_by_id(session, [r.test.approved_by_id for r in rows])
+    tests = [_entry(r, people) for r in rows]
     return ReportData(
         lab=LabInfo(lab.name, lab.address, lab.accreditation),
         client_name=client.name if client else "",
@@ -77,45 +164,54 @@ def report_data(
         report_number=number,
         revision=revision,
         issue_date=issued_at.date(),
-        issued_at_iso=issued_at.replace(microsecond=0).isoformat(),
-        approver=Signatory(
-            issuer.full_name, issuer.role, REPORT_MEANING, issued_at.replace(microsecond=0).isoformat()
-        ),
+        issued_at_iso=_iso(issued_at),
+        approver=Signatory(issuer.full_name, ROLE_TITLES.get(issuer.role, issuer.role), REPORT_MEANING,
+                           _iso(issued_at)),
         verify_url=f"{base_url.rstrip('/')}/verify?number={number}&revision={revision}",
-        tests=[_entry(r) for r in rows],
-        methods=[MethodNote(METHODS[m].title, METHODS[m].standard) for m in methods if m in METHODS],
+        tests=tests,
+        methods=method_notes(tests),
+        scope=scope,
+        history=history,
     )
 
 
-def issue_report(db: Database, actor: User, job_id: int, base_url: str) -> Report:
-    """Issue revision 1 of a new report carrying every approved test of the job."""
-    if Role(actor.role) not in CHECKERS:
-        raise Forbidden("only a reviewer or admin issues reports")
-    issued_at = utcnow()
-    with db.session() as s:
-        job = s.get(Job, job_id)
-        if job is None:
-            raise NotFound(f"job {job_id} does not exist")
-        rows = [r for r in current_tests(s, job_id) if r.test.status == "approved"]
-        if not rows:
-            raise invalid("tests", "no approved test to report on this job")
-        number = next_report_number(s, job)
-        data = report_data(s, job, rows, actor, number, 1, issued_at, base_url)
-    pdf = render_report_pdf(data)
+@dataclass
+class _Prepared:
+    job_id: int
+    rows: list[TestRow]
+    data: ReportData
+    previous_id: int | None = None
+
+
+def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report:
+    """Store the rendered report, if nothing it carries changed while it was rendered."""
+    data, rows = prepared.data, prepared.rows
     with db.transaction() as s:
-        versions = dict(
-            s.exec(
-                select(LabTest.id, LabTest.version).where(col(LabTest.id).in_([r.test.id for r in rows]))
+        found = {
+            tid: (version, status)
+            for tid, version, status in s.exec(
+                select(LabTest.id, LabTest.version, LabTest.status).where(
+                    col(LabTest.id).in_([r.test.id for r in rows])
+                )
             ).all()
-        )
-        if any(versions.get(r.test.id) != r.test.version for r in rows):
+        }
+        if any(found.get(r.test.id) != (r.test.version, "approved") for r in rows):
             raise Conflict("a test changed while the report was being prepared; issue it again")
+        previous = None
+        if prepared.previous_id is None:
+            job = s.get(Job, prepared.job_id)
+            if job is None or next_report_number(s, job) != data.report_number:
+                raise Conflict("another report was issued on this job meanwhile; issue it again")
+        else:
+            previous = s.get(Report, prepared.previous_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
+            if previous is None or previous.status != "issued":
+                raise Conflict("this report was re-issued meanwhile; open the job again")
         report = Report(
-            job_id=job_id,
-            number=number,
-            revision=1,
+            job_id=prepared.job_id,
+            number=data.report_number,
+            revision=data.revision,
             status="issued",
-            issued_at=issued_at,
+            issued_at=datetime.fromisoformat(data.issued_at_iso),
             issued_by_id=actor.id or 0,
             sha256=hashlib.sha256(pdf).hexdigest(),
             fingerprint=content_fingerprint(data),
@@ -125,36 +221,208 @@ def issue_report(db: Database, actor: User, job_id: int, base_url: str) -> Repor
         s.flush()
         for r in rows:
             s.add(ReportTest(report_id=report.id or 0, test_id=r.test.id or 0))
-        audit.record(
-            s,
-            actor,
-            "report",
-            report.id or 0,
-            "issue",
-            after={
-                "number": number,
-                "revision": 1,
-                "sha256": report.sha256,
-                "tests": [r.test.id for r in rows],
-            },
-        )
+        after: dict[str, Any] = {
+            "number": data.report_number,
+            "revision": data.revision,
+            "sha256": report.sha256,
+            "fingerprint": report.fingerprint,
+            "tests": [r.test.id for r in rows],
+        }
+        if previous is not None:
+            previous.status = "superseded"
+            previous.superseded_by_id = report.id
+            s.add(previous)
+            after["supersedes"] = previous.id
+            audit.record(
+                s,
+                actor,
+                "report",
+                previous.id or 0,
+                "supersede",
+                before={"status": "issued", "superseded_by_id": None},
+                after={"status": "superseded", "superseded_by_id": report.id},
+            )
+        action = "issue" if previous is None else "reissue"
+        audit.record(s, actor, "report", report.id or 0, action, after=after)
         return report
+
+
+def _render(data: ReportData) -> bytes:
+    from server.reports.pdf import render_report_pdf  # WeasyPrint loads only when a report is issued
+
+    return render_report_pdf(data)
+
+
+def _chosen(
+    session: Session, job_id: int, sample_ids: Collection[int] | None
+) -> tuple[Job, list[TestRow], list[TestRow]]:
+    """The job, the approved tests to report (of the chosen samples, or all), and all approved."""
+    job = session.get(Job, job_id)
+    if job is None:
+        raise NotFound(f"job {job_id} does not exist")
+    approved = [r for r in current_tests(session, job_id) if r.test.status == "approved"]
+    if not approved:
+        raise invalid("tests", "no approved test to report on this job")
+    if sample_ids is None:
+        return job, approved, approved
+    wanted = set(sample_ids)
+    if not wanted:
+        raise invalid("samples", "choose at least one sample to report")
+    if wanted - {r.sample.id for r in approved}:
+        raise invalid("samples", "a chosen sample has no approved test on this job")
+    return job, [r for r in approved if r.sample.id in wanted], approved
+
+
+def new_report_data(
+    session: Session,
+    job_id: int,
+    issuer: User,
+    issued_at: datetime,
+    base_url: str,
+    sample_ids: Collection[int] | None = None,
+    *,
+    number: str | None = None,
+) -> tuple[ReportData, list[TestRow]]:
+    """The data of revision 1 of a new report of the job (or of its chosen samples), and the test
+    rows it carries. Given the same records and issue record, the same data: a stored report can
+    be rendered again from it byte for byte while its records are unchanged."""
+    job, rows, approved = _chosen(session, job_id, sample_ids)
+    number = number or next_report_number(session, job)
+    scope = _scope(rows, approved)
+    return report_data(session, job, rows, issuer, number, 1, issued_at, base_url, scope=scope), rows
+
+
+def issue_report(
+    db: Database,
+    actor: User,
+    job_id: int,
+    base_url: str,
+    sample_ids: Collection[int] | None = None,
+) -> Report:
+    """Issue revision 1 of a new report carrying every approved test of the job, or of the
+    chosen samples only."""
+    _check_role(actor)
+    with db.session() as s:
+        data, rows = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
+    return _store(db, actor, _Prepared(job_id, rows, data), _render(data))
+
+
+def preview_report_html(
+    db: Database,
+    actor: User,
+    job_id: int,
+    base_url: str,
+    sample_ids: Collection[int] | None = None,
+) -> str:
+    """The HTML of the report that issuing now would give, every page marked as a preview.
+    Nothing is stored; the charts are the same SVG the PDF would carry."""
+    _check_role(actor)
+    with db.session() as s:
+        data, _ = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
+    from server.reports.pdf import render_report_html
+
+    return render_report_html(data, preview=True)
+
+
+def _latest(rows: Sequence[TestRow]) -> dict[tuple[int, str], TestRow]:
+    latest: dict[tuple[int, str], TestRow] = {}
+    for r in rows:
+        key = (r.test.sample_id, r.test.method)
+        if key not in latest or r.test.revision > latest[key].test.revision:
+            latest[key] = r
+    return latest
+
+
+def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> Report:
+    """Issue revision n + 1 of an issued report after an amendment.
+
+    It carries the current approved revision of each sample and method of revision n; revision n
+    becomes superseded (with ``superseded_by_id``) and stays downloadable. Refused when a carried
+    test's newest revision is not approved yet, or when nothing was amended since revision n.
+    """
+    _check_role(actor)
+    issued_at = utcnow()
+    with db.session() as s:
+        old = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
+        if old is None:
+            raise NotFound(f"report {report_id} does not exist")
+        if old.status != "issued":
+            raise Conflict(
+                f"revision {old.revision} of report {old.number} is superseded; re-issue its current revision"
+            )
+        job = s.get(Job, old.job_id)
+        assert job is not None
+        carried_ids = set(s.exec(select(ReportTest.test_id).where(ReportTest.report_id == report_id)).all())
+        carried = s.exec(select(LabTest).where(col(LabTest.id).in_(carried_ids))).all()
+        keys = {(t.sample_id, t.method) for t in carried}
+        everything = current_tests(s, job.id or 0)
+        latest = _latest([r for r in everything if (r.test.sample_id, r.test.method) in keys])
+        pending = [r for r in latest.values() if r.test.status != "approved"]
+        if pending:
+            r = pending[0]
+            raise invalid(
+                "tests",
+                f"{r.sample.code} ({r.test.method}) revision {r.test.revision} is {r.test.status}, "
+                "not approved: approve it before re-issuing",
+            )
+        if len(latest) < len(keys):
+            raise invalid("tests", "a test carried by this report has no current revision")
+        rows = [r for r in everything if latest.get((r.test.sample_id, r.test.method)) is r]
+        if {r.test.id for r in rows} == carried_ids:
+            raise invalid(
+                "tests",
+                f"nothing in revision {old.revision} was amended since it was issued: it stays current",
+            )
+        earlier = s.exec(
+            select(Report.revision, Report.issued_at, Report.sha256)
+            .where(Report.number == old.number)
+            .order_by(col(Report.revision))
+        ).all()
+        history = [RevisionNote(rev, when.date().isoformat(), sha) for rev, when, sha in earlier]
+        approved = [r for r in everything if r.test.status == "approved"]
+        data = report_data(
+            s,
+            job,
+            rows,
+            actor,
+            old.number,
+            old.revision + 1,
+            issued_at,
+            base_url,
+            scope=_scope(rows, approved),
+            history=history,
+        )
+    return _store(db, actor, _Prepared(old.job_id, rows, data, old.id), _render(data))
 
 
 @dataclass
 class Verdict:
-    """The answer of the verification page: genuine and current, superseded, or unknown."""
+    """The answer of the verification page: genuine and current, superseded, or unknown.
+
+    ``matched`` says what matched: "file" (the SHA-256 of the PDF's bytes) or "content" (the
+    content fingerprint printed on its pages)."""
 
     state: str  # "current" | "superseded" | "unknown"
     report: Report | None = None
     current: Report | None = None  # the revision that replaces a superseded one
+    matched: str = ""
 
 
-def verify(db: Database, *, sha256: str | None = None, pdf: bytes | None = None) -> Verdict:
+def _clean(digest: str | None) -> str:
+    return "".join((digest or "").split()).lower()
+
+
+def verify(
+    db: Database,
+    *,
+    sha256: str | None = None,
+    pdf: bytes | None = None,
+    number: str | None = None,
+) -> Verdict:
     """Find the issued report whose PDF (or its SHA-256, or its printed content fingerprint)
-    this is. Reads only: verifying stores nothing."""
-    digest = hashlib.sha256(pdf).hexdigest() if pdf is not None else (sha256 or "").strip().lower()
-    if len(digest) != 64:
+    this is; with ``number``, only a report of that number counts. Reads only."""
+    digest = hashlib.sha256(pdf).hexdigest() if pdf is not None else _clean(sha256)
+    if len(digest) != 64 or any(c not in "0123456789abcdef" for c in digest):
         return Verdict("unknown")
     with db.session() as s:
         found = s.exec(
@@ -162,14 +430,15 @@ def verify(db: Database, *, sha256: str | None = None, pdf: bytes | None = None)
             .options(defer(Report.pdf))  # type: ignore[arg-type]
             .where((Report.sha256 == digest) | (Report.fingerprint == digest))
         ).first()
-        if found is None:
+        if found is None or (number and found.number != number.strip()):
             return Verdict("unknown")
+        matched = "file" if found.sha256 == digest else "content"
         if found.status != "superseded":
-            return Verdict("current", found)
+            return Verdict("current", found, matched=matched)
         newest = s.exec(
             select(Report)
             .options(defer(Report.pdf))  # type: ignore[arg-type]
-            .where(Report.number == found.number)
+            .where(Report.number == found.number, Report.status == "issued")
             .order_by(col(Report.revision).desc())
         ).first()
-        return Verdict("superseded", found, newest)
+        return Verdict("superseded", found, newest, matched=matched)

@@ -1,21 +1,148 @@
-"""Use-cases at the reviewer's desk: approve with a signature, return with a reason.
+"""Use-cases at the reviewer's desk: approve with a signature (one test or a batch), return with
+a reason.
 
 The signature is the reviewer's password entered again at the moment of approval; the record
-keeps who signed, when, in what role and what the signature means (DESIGN.md section 4).
+keeps who signed, when, in what role and what the signature means (DESIGN.md section 4;
+ISO/IEC 17025:2017 cl. 7.8.2.1 k: the identification of the person authorising the results).
+The password is checked before the write transaction (argon2 takes ~0.1 s and must not hold
+the SQLite write lock), then the signer is re-read inside it: a deactivated account or a
+password changed meanwhile signs nothing.
+
+Two reviewers acting on one test: the test row is locked for the change (``FOR UPDATE`` on
+PostgreSQL; SQLite serialises writers with ``BEGIN IMMEDIATE``) and the version each reviewer
+saw is compared, so exactly one acts and the other is told who acted first.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from sqlmodel import Session
+
 from server.auth.passwords import verify_password
-from server.db.queries import readings_authors
+from server.db.review_queries import last_event, revision_authors
 from server.db.session import Database
 from server.db.tables import LabTest, User, utcnow
 from server.services import audit
-from server.services.bench import change_status, load_test
-from server.services.errors import Forbidden, invalid
-from server.workflow.states import Action, may_sign
+from server.services.bench import change_status
+from server.services.errors import Conflict, Forbidden, NotFound, invalid
+from server.workflow.states import TRANSITIONS, Action, Role, Status, may_sign
 
 DEFAULT_MEANING = "Reviewed and approved: readings checked, results verified against the method"
+MAX_MEANING = 300
+MAX_REASON = 1000
+MAX_BATCH = 200
+
+_DONE = {
+    "approve": "approved",
+    "return": "returned",
+    "amend": "amended",
+    "supersede": "amended",
+    "submit": "handed in",
+    "readings": "changed the readings of",
+    "request": "requested",
+}
+
+
+@dataclass(frozen=True)
+class Signature:
+    """What the signer vouched for: checked once, then applied inside the transaction."""
+
+    signer_id: int
+    password_hash: str
+    meaning: str
+
+
+def check_signature(db: Database, actor: User, password: str, meaning: str) -> Signature:
+    """The signer's password and the meaning of the signature, refused field by field."""
+    meaning = " ".join(meaning.split())
+    if not meaning:
+        raise invalid("meaning", "say what the signature means (for example: reviewed and approved)")
+    if len(meaning) > MAX_MEANING:
+        raise invalid("meaning", f"the meaning of the signature is limited to {MAX_MEANING} characters")
+    with db.session() as s:
+        signer = s.get(User, actor.id)
+    if signer is None or not signer.active or not verify_password(password, signer.password_hash):
+        raise invalid("password", "the password does not match: the signature was not applied")
+    return Signature(signer.id or 0, signer.password_hash, meaning)
+
+
+def _signer(session: Session, signature: Signature) -> User:
+    signer = session.get(User, signature.signer_id)
+    if signer is None or not signer.active or signer.password_hash != signature.password_hash:
+        raise invalid("password", "the account changed while signing: the signature was not applied")
+    return signer
+
+
+def locked_test(session: Session, test_id: int, expected_version: int, verb: str) -> LabTest:
+    """The test, locked for this change, or a conflict that says who acted on it first."""
+    test = session.get(LabTest, test_id, with_for_update=True)
+    if test is None:
+        raise NotFound(f"test {test_id} does not exist")
+    if test.version != expected_version:
+        raise Conflict(stale_message(session, test, verb))
+    return test
+
+
+def allowed(test: LabTest, action: Action, role: str) -> None:
+    """Refuse a move the role may never make (403) apart from one the status does not allow (409)."""
+    found = TRANSITIONS.get((Status(test.status), action))
+    if found is not None and Role(role) not in found[1]:
+        raise Forbidden(f"a {role} may not {action.value} a test")
+
+
+def stale_message(session: Session, test: LabTest, verb: str) -> str:
+    """Why the change was refused, naming the person and time of the change that came first."""
+    found = last_event(session, "lab_test", test.id or 0)
+    what = f"this test changed after you opened it and is now {test.status}"
+    if found is not None:
+        event, person = found
+        who = person.full_name if person else event.actor
+        what = f"{who} {_DONE.get(event.action, event.action)} this test at {event.at:%Y-%m-%d %H:%M} UTC"
+        if (event.after or {}).get("status") != test.status:
+            what += f" and it is now {test.status}"
+        what += ", after you opened it"
+    return f"not {verb}: {what}; nothing was changed (reload to see it as it is now)"
+
+
+def _approve_one(
+    session: Session,
+    signer: User,
+    test: LabTest,
+    expected_version: int,
+    signature: Signature,
+    self_approval_forbidden: bool,
+    batch: int | None = None,
+) -> None:
+    allowed(test, Action.approve, signer.role)
+    if not may_sign(signer.id or 0, revision_authors(session, test.id or 0), self_approval_forbidden):
+        raise Forbidden(
+            f"you entered or amended readings of test {test.id}, so another reviewer must approve it"
+        )
+    now = utcnow()
+    before = change_status(
+        session,
+        signer,
+        test,
+        Action.approve,
+        expected_version,
+        approved_at=now,
+        approved_by_id=signer.id,
+        approver_role=signer.role,
+        signature_meaning=signature.meaning,
+    )
+    after: dict[str, object] = {
+        "status": test.status,
+        "signed_by": signer.full_name,
+        "signed_by_id": signer.id,
+        "role": signer.role,
+        "meaning": signature.meaning,
+        "signed_at": now.isoformat(),
+    }
+    if batch is not None:
+        after["batch_of"] = batch
+    audit.record(session, signer, "lab_test", test.id or 0, "approve", before={"status": before}, after=after)
 
 
 def approve(
@@ -29,41 +156,48 @@ def approve(
     self_approval_forbidden: bool = True,
 ) -> LabTest:
     """Sign a submitted test as approved."""
+    signature = check_signature(db, actor, password, meaning)
     with db.transaction() as s:
-        signer = s.get(User, actor.id)
-        if signer is None or not signer.active or not verify_password(password, signer.password_hash):
-            raise invalid("password", "the password does not match: the signature was not applied")
-        test = load_test(s, test_id)
-        if not may_sign(signer.id or 0, readings_authors(s, test_id), self_approval_forbidden):
-            raise Forbidden("you entered readings of this test, so another reviewer must approve it")
-        now = utcnow()
-        before = change_status(
-            s,
-            signer,
-            test,
-            Action.approve,
-            expected_version,
-            approved_at=now,
-            approved_by_id=signer.id,
-            approver_role=signer.role,
-            signature_meaning=meaning,
-        )
-        audit.record(
-            s,
-            signer,
-            "lab_test",
-            test_id,
-            "approve",
-            before={"status": before},
-            after={
-                "status": test.status,
-                "signed_by": signer.full_name,
-                "role": signer.role,
-                "meaning": meaning,
-                "signed_at": now.isoformat(),
-            },
-        )
+        signer = _signer(s, signature)
+        test = locked_test(s, test_id, expected_version, "approved")
+        _approve_one(s, signer, test, expected_version, signature, self_approval_forbidden)
         return test
+
+
+def approve_batch(
+    db: Database,
+    actor: User,
+    selection: Sequence[tuple[int, int]],
+    password: str,
+    *,
+    meaning: str = DEFAULT_MEANING,
+    self_approval_forbidden: bool = True,
+) -> list[LabTest]:
+    """One signature for several handed-in tests, all or none.
+
+    Only tests with no quality flag at all may be signed together: a flagged test needs its own
+    look (ISO/IEC 17025:2017 cl. 7.7.1, results reviewed before release). The batch is refused
+    whole when any test has a flag, was entered or amended by the signer, or changed meanwhile.
+    ``selection`` is (test id, version seen) pairs.
+    """
+    wanted = dict(selection)
+    if not wanted:
+        raise invalid("tests", "choose at least one test to approve")
+    if len(wanted) > MAX_BATCH:
+        raise invalid("tests", f"a batch is limited to {MAX_BATCH} tests")
+    signature = check_signature(db, actor, password, meaning)
+    with db.transaction() as s:
+        signer = _signer(s, signature)
+        tests = [locked_test(s, tid, wanted[tid], "approved") for tid in sorted(wanted)]  # fixed lock order
+        flagged = [t.id for t in tests if t.flags]
+        if flagged:
+            listed = ", ".join(str(i) for i in flagged)
+            raise invalid("tests", f"test(s) {listed} carry quality flags: approve them one at a time")
+        for test in tests:
+            _approve_one(
+                s, signer, test, wanted[test.id or 0], signature, self_approval_forbidden, batch=len(tests)
+            )
+        return tests
 
 
 def return_test(db: Database, actor: User, test_id: int, reason: str, expected_version: int) -> LabTest:
@@ -71,8 +205,11 @@ def return_test(db: Database, actor: User, test_id: int, reason: str, expected_v
     reason = reason.strip()
     if not reason:
         raise invalid("reason", "a reason is required to return a test")
+    if len(reason) > MAX_REASON:
+        raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
     with db.transaction() as s:
-        test = load_test(s, test_id)
+        test = locked_test(s, test_id, expected_version, "returned")
+        allowed(test, Action.return_, actor.role)
         before = change_status(s, actor, test, Action.return_, expected_version, return_reason=reason)
         audit.record(
             s,
@@ -81,7 +218,7 @@ def return_test(db: Database, actor: User, test_id: int, reason: str, expected_v
             test_id,
             "return",
             before={"status": before},
-            after={"status": test.status},
+            after={"status": test.status, "return_reason": reason},
             reason=reason,
         )
         return test

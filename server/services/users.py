@@ -1,21 +1,28 @@
-"""Use-cases for people: create a user, check a sign-in."""
+"""Use-cases for people: create a user, check a sign-in, and the admin's changes to people
+(name, role, activation, password reset), each audited in the same transaction."""
 
 from __future__ import annotations
 
-from sqlmodel import select
+from sqlmodel import Session, select
 
 from server.auth.passwords import hash_password, password_problem, verify_password
 from server.db.session import Database
 from server.db.tables import User
 from server.services import audit
-from server.services.errors import Conflict, invalid
+from server.services.errors import Conflict, Forbidden, NotFound, invalid
 from server.workflow.states import Role
 
 
 def create_user(
     db: Database, actor: User | None, username: str, full_name: str, role: str, password: str
 ) -> User:
-    """Add a user; the audit event records who added whom, never the password."""
+    """Add a user; the audit event records who added whom, never the password.
+
+    ``actor`` None is the machine's own operator (the ``create-user`` command, the demo);
+    a person doing it in the app must be an admin.
+    """
+    if actor is not None:
+        _admin(actor)
     username = username.strip().lower()
     if not username or not username.replace("-", "").replace(".", "").replace("_", "").isalnum():
         raise invalid("username", "username must be letters, digits, '.', '-' or '_'")
@@ -54,3 +61,121 @@ def authenticate(db: Database, username: str, password: str) -> User | None:
     if user is None or not ok or not user.active:
         return None
     return user
+
+
+# -- the admin's management of people (every change audited, never the password itself) ---------
+
+
+def _admin(actor: User) -> None:
+    if actor.role != Role.admin.value or not actor.active:
+        raise Forbidden("only an admin manages users")
+
+
+def _load(s: Session, user_id: int) -> User:
+    user = s.get(User, user_id)
+    if user is None:
+        raise NotFound(f"user {user_id} does not exist")
+    return user
+
+
+def _other_active_admins(s: Session, user_id: int) -> int:
+    return len(
+        s.exec(
+            select(User.id).where(User.role == Role.admin.value, User.active == True, User.id != user_id)  # noqa: E712
+        ).all()
+    )
+
+
+def _reason(reason: str) -> str | None:
+    reason = reason.strip()
+    if len(reason) > 1000:
+        raise invalid("reason", "the reason is limited to 1000 characters")
+    return reason or None
+
+
+def update_user(
+    db: Database, actor: User, user_id: int, *, full_name: str, role: str, reason: str = ""
+) -> User:
+    """Change a person's name or role. The last active admin keeps the admin role, so the
+    laboratory is never left without someone who can manage users."""
+    _admin(actor)
+    full_name = " ".join(full_name.split())
+    if not full_name:
+        raise invalid("full_name", "a full name is required: it is printed beside signatures")
+    if len(full_name) > 200:
+        raise invalid("full_name", "the full name is limited to 200 characters")
+    if role not in set(Role):
+        raise invalid("role", f"role must be one of {', '.join(r.value for r in Role)}")
+    why = _reason(reason)
+    with db.transaction() as s:
+        user = _load(s, user_id)
+        before = {"full_name": user.full_name, "role": user.role}
+        after = {"full_name": full_name, "role": role}
+        if before == after:
+            return user
+        if user.role == Role.admin.value and role != Role.admin.value and user.active:
+            if not _other_active_admins(s, user_id):
+                raise invalid("role", "this is the last active admin: make someone else admin first")
+        user.full_name, user.role = full_name, role
+        s.add(user)
+        audit.record(
+            s,
+            actor,
+            "user",
+            user_id,
+            "role" if before["role"] != role else "rename",
+            before=before,
+            after=after,
+            reason=why,
+        )
+        return user
+
+
+def set_active(db: Database, actor: User, user_id: int, active: bool, reason: str = "") -> User:
+    """Deactivate (or reactivate) a person. A deactivated user cannot sign in, every session of
+    theirs ends at once (the session version moves on), and their past signatures stay valid:
+    the user is never deleted, so approvals keep naming them."""
+    _admin(actor)
+    why = _reason(reason)
+    if not active and not why:
+        raise invalid("reason", "say why the account is deactivated")
+    with db.transaction() as s:
+        user = _load(s, user_id)
+        if user.active == active:
+            return user
+        if not active and user.id == actor.id:
+            raise invalid("active", "you cannot deactivate your own account")
+        if not active and user.role == Role.admin.value and not _other_active_admins(s, user_id):
+            raise invalid("active", "this is the last active admin: make someone else admin first")
+        user.active = active
+        user.session_version += 1
+        s.add(user)
+        audit.record(
+            s,
+            actor,
+            "user",
+            user_id,
+            "activate" if active else "deactivate",
+            before={"active": not active},
+            after={"active": active},
+            reason=why,
+        )
+        return user
+
+
+def reset_password(db: Database, actor: User, user_id: int, new_password: str, reason: str = "") -> User:
+    """Set a new password for a person; their open sessions end. The event records that the
+    password was reset, never the password or its hash."""
+    _admin(actor)
+    problem = password_problem(new_password)
+    if problem:
+        raise invalid("password", problem)
+    why = _reason(reason)
+    new_hash = hash_password(new_password)
+    with db.transaction() as s:
+        user = _load(s, user_id)
+        user.password_hash = new_hash
+        user.session_version += 1
+        s.add(user)
+        audit.record(s, actor, "user", user_id, "password", after={"password": "reset"}, reason=why)
+        return user

@@ -1,23 +1,47 @@
-"""The bench page of a test: readings typed in, results computed as they are typed."""
+"""The bench page of a test: readings typed in, results computed and each field saved as typed.
+
+Three requests serve the page (``static/bench.js`` drives the last two, and without script the
+form still posts whole):
+
+- ``POST /tests/{id}/preview`` (htmx): the results of what is on the screen, storing nothing;
+- ``POST /tests/{id}/fields`` (JSON): the fields the engine accepts, saved one by one against
+  the value the page last saw there; a field changed meanwhile elsewhere answers 409 with both;
+- ``POST /tests/{id}/readings``: the whole sheet (no script), or the hand-in of the saved draft.
+"""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, HTTPException, Request
-from fastapi.responses import RedirectResponse
+from fastapi.responses import JSONResponse, RedirectResponse
+from pydantic import BaseModel, Field
+from sqlmodel import col
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_user
 from server.db.queries import TestRow, test_rows
 from server.db.tables import LabTest, User
-from server.engine.contract import Evaluation
-from server.reports import charts
+from server.engine import METHODS
+from server.engine.contract import Evaluation, Flag
+from server.engine.rounding import DECIMALS, reported, round_half_up
 from server.services import bench
-from server.services.errors import Invalid, ServiceError, http_status
-from server.web.bench_forms import SHEETS, Input, Rows, Section
-from server.web.forms import errors_by_path, lookup, readings_from_form
+from server.services.errors import Conflict, Invalid, ServiceError, http_status
+from server.services.readings_paths import same, value_at
+from server.web.bench_charts import charts_for
+from server.web.bench_forms import (
+    RESULT_LINES,
+    ROUNDING_OF,
+    SHEETS,
+    Input,
+    Output,
+    Rows,
+    Section,
+    Values,
+    input_at,
+)
+from server.web.forms import dotted, errors_by_path, form_fields, text_of
 from server.web.templating import render
 from server.workflow.states import is_editable
 
@@ -25,76 +49,195 @@ router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False
 Staff = Annotated[User, Depends(require_user)]
 
 
+# -- the sheet as the template shows it ---------------------------------------------------------
+
+
 @dataclass
 class Cell:
     input: Input
-    name: str
-    value: Any
-    error: str | None
+    path: str  # readings path
+    name: str  # the input's name: "r." + path
+    dom: str  # the id suffix of the input and its message
+    value: str  # the text the input shows
+    error: str | None  # the engine's refusal of this value ("invalid" only)
+    who: str  # the row it belongs to, spoken before the label ("Trial 2"), or ""
+    hidden: bool = False
+
+
+@dataclass
+class Shown:
+    """A computed value ready to show: label, text (rounded by the engine's rule), unit."""
+
+    label: str
+    text: str
+    unit: str = ""
+    key: str = ""
+    spread: str = ""  # "± U", the expanded uncertainty, when the engine gives one
 
 
 @dataclass
 class SheetRow:
+    index: int
     number: int
     cells: list[Cell]
-    result: float | None
+    outputs: list[Shown] = field(default_factory=list)
+    flags: list[Flag] = field(default_factory=list)
+    spare: bool = False  # the empty row below the typed ones (a page may not have it yet)
 
 
 @dataclass
 class SectionView:
     section: Section
+    kind: str  # "rows" | "values"
+    dom: str
     rows: list[SheetRow]
+    hidden: bool = False
+    error: str | None = None  # a refusal of the whole table ("at least 3 trials")
+
+    @property
+    def can_add(self) -> bool:
+        return isinstance(self.section, Rows) and len(self.rows) < self.section.max_rows
 
 
-def _row_result(ev: Evaluation, section: Rows, i: int) -> float | None:
-    values = ev.results.get(section.result_key) or []
-    if i >= len(values):
+def _dom(path: str) -> str:
+    return "r-" + path.replace(".", "-")
+
+
+def _shown_when(section_or_input: Section | Input, readings: dict[str, Any]) -> bool:
+    when = section_or_input.when
+    if when is None:
+        return True
+    chosen = value_at(readings, when.path)
+    return any(same(chosen, v) for v in when.values)
+
+
+def _number(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool)
+
+
+def _output(ev: Evaluation, readings: dict[str, Any], section: Rows, i: int, out: Output) -> Shown | None:
+    entries = ev.results.get(out.result_key)
+    if not isinstance(entries, list):
         return None
-    value = values[i]
-    if section.result_field and isinstance(value, dict):
-        value = value.get(section.result_field)
-    return value if isinstance(value, int | float) else None
+    entry: Any = None
+    if out.align is None:
+        entry = entries[i] if i < len(entries) else None
+    else:
+        typed = value_at(readings, f"{section.path}.{i}.{out.align}")
+        if _number(typed):
+            entry = next(
+                (e for e in entries if isinstance(e, dict) and same(e.get(out.align), typed)), None
+            )
+    value = entry.get(out.field) if out.field and isinstance(entry, dict) else entry
+    if not _number(value):
+        return None
+    return Shown(out.label, reported(out.rounding, value), out.unit)
+
+
+def _row_flags(ev: Evaluation, noun: str, number: int) -> list[Flag]:
+    """The quality flags the engine words as about this row ("trial 2: ...")."""
+    prefix = f"{noun} {number}:"
+    return [f for f in ev.flags if f.message.startswith(prefix)]
+
+
+def _cells(inputs: tuple[Input, ...], base: str, readings: dict[str, Any], errors: dict[str, str],
+           who: str) -> list[Cell]:
+    cells = []
+    for inp in inputs:
+        path = f"{base}{inp.key}"
+        cells.append(
+            Cell(inp, path, "r." + path, _dom(path), text_of(value_at(readings, path)), errors.get(path),
+                 who, hidden=not _shown_when(inp, readings))
+        )
+    return cells
 
 
 def sheet_view(method: str, readings: dict[str, Any], ev: Evaluation) -> list[SectionView]:
-    """The sheet's sections with typed values, per-field refusals and per-row results."""
-    errors = errors_by_path(ev.errors)
+    """The sheet's sections with typed values, per-field refusals, per-row results and flags."""
+    errors = errors_by_path(ev.errors, kinds=("invalid",))
     views: list[SectionView] = []
-    for section in SHEETS.get(method, ()):
-        if isinstance(section, Rows):
-            typed = lookup(readings, section.path) or []
-            count = max(section.rows, len(typed) + 1)
-            rows = []
-            for i in range(count):
-                cells = []
-                for inp in section.inputs:
-                    path = f"{section.path}.{i}.{inp.key}"
-                    cells.append(Cell(inp, "r." + path, lookup(readings, path), errors.get(path)))
-                rows.append(SheetRow(i + 1, cells, _row_result(ev, section, i)))
-            views.append(SectionView(section, rows))
-        else:
-            cells = [
-                Cell(inp, "r." + inp.key, lookup(readings, inp.key), errors.get(inp.key))
-                for inp in section.inputs
-            ]
-            views.append(SectionView(section, [SheetRow(0, cells, None)]))
+    for n, section in enumerate(SHEETS.get(method, ())):
+        hidden = not _shown_when(section, readings)
+        if isinstance(section, Values):
+            cells = _cells(section.inputs, "", readings, errors, "")
+            views.append(SectionView(section, "values", f"part-{n}", [SheetRow(0, 0, cells)], hidden))
+            continue
+        typed = value_at(readings, section.path)
+        count = min(section.max_rows, max(section.rows, (len(typed) if isinstance(typed, list) else 0) + 1))
+        rows = []
+        for i in range(count):
+            who = f"{section.noun.capitalize()} {i + 1}"
+            cells = _cells(section.inputs, f"{section.path}.{i}.", readings, errors, who)
+            outputs = [s for s in (_output(ev, readings, section, i, o) for o in section.outputs) if s]
+            spare = i >= max(section.rows, len(typed) if isinstance(typed, list) else 0)
+            rows.append(SheetRow(i, i + 1, cells, outputs, _row_flags(ev, section.noun, i + 1), spare))
+        whole = errors_by_path(ev.errors).get(section.path)
+        views.append(SectionView(section, "rows", f"part-{n}", rows, hidden, whole))
     return views
+
+
+def sheet_texts(method: str, readings: dict[str, Any]) -> dict[str, str]:
+    """Every input path of the sheet with the text it shows for these readings."""
+    out: dict[str, str] = {}
+    for section in SHEETS.get(method, ()):
+        if isinstance(section, Values):
+            for inp in section.inputs:
+                out[inp.key] = text_of(value_at(readings, inp.key))
+            continue
+        typed = value_at(readings, section.path)
+        count = min(section.max_rows, max(section.rows, (len(typed) if isinstance(typed, list) else 0) + 1))
+        for i in range(count):
+            for inp in section.inputs:
+                path = f"{section.path}.{i}.{inp.key}"
+                out[path] = text_of(value_at(readings, path))
+    return out
+
+
+def _spread(rounding: str, u: float) -> str:
+    """The expanded uncertainty one decimal finer than its value, so that it never shows as 0."""
+    decimals = DECIMALS.get(rounding, 2) + 1
+    return f"± {round_half_up(u, decimals):.{decimals}f}"
+
+
+def result_lines(ev: Evaluation) -> list[Shown]:
+    """The results panel: each result the engine gave, rounded by its rule, with its ± U."""
+    r = ev.results
+    spreads = r.get("uncertainty") if isinstance(r.get("uncertainty"), dict) else {}
+    lines = []
+    for line in RESULT_LINES:
+        value = r.get(line.key)
+        if value is None or isinstance(value, bool | list | dict):
+            continue
+        rounding = ROUNDING_OF.get(line.key, line.key)
+        text = reported(rounding, value) if _number(value) else str(value)
+        u = (spreads or {}).get(line.key)
+        spread = _spread(rounding, u.get("U")) if isinstance(u, dict) and _number(u.get("U")) else ""
+        lines.append(Shown(line.label, text, line.unit, line.key, spread))
+    if r.get("nonplastic") is True:
+        lines.insert(0, Shown("Plasticity", "NP (non-plastic)", "", "nonplastic"))
+    return lines
+
+
+# -- routes -----------------------------------------------------------------------------------
 
 
 def load_row(request: Request, test_id: int) -> TestRow:
     with database(request).session() as s:
-        rows = test_rows(s, LabTest.id == test_id)
+        rows = test_rows(s, col(LabTest.id) == test_id)
     if not rows:
         raise HTTPException(404, "no such test")
     return rows[0]
 
 
-def flow_svg(ev: Evaluation) -> str | None:
-    trials = ev.results.get("liquid_limit_trials")
-    fit = ev.results.get("flow_curve")
-    if not trials:
-        return None
-    return charts.flow_curve_svg(trials, fit)
+def _results_context(row: TestRow, readings: dict[str, Any], ev: Evaluation) -> dict[str, Any]:
+    return {
+        "sections": sheet_view(row.test.method, readings, ev),
+        "ev": ev,
+        "lines": result_lines(ev),
+        "charts": charts_for(ev, row.sample.code),
+        "missing": [e for e in ev.errors if e.kind == "missing"],
+        "wrong": [e for e in ev.errors if e.kind != "missing"],
+    }
 
 
 def _page(
@@ -107,72 +250,144 @@ def _page(
     message: str | None = None,
     problem: str | None = None,
 ) -> Response:
+    method = METHODS.get(row.test.method)
     return render(
         request,
         "pages/bench.html",
         status_code=status_code,
         row=row,
         test=row.test,
+        title=method.title if method else row.test.method,
+        standard=method.standard if method else "",
         editable=is_editable(row.test.status),
-        sections=sheet_view(row.test.method, readings, ev),
-        ev=ev,
-        chart=flow_svg(ev),
+        stored=sheet_texts(row.test.method, row.test.readings or {}),
         message=message,
         problem=problem,
+        **_results_context(row, readings, ev),
     )
 
 
 @router.get("/tests/{test_id}")
-def bench_page(request: Request, test_id: int, user: Staff, saved: int = 0) -> Response:
+def bench_page(request: Request, test_id: int, user: Staff, saved: int = 0, handed_in: int = 0) -> Response:
     row = load_row(request, test_id)
     readings = row.test.readings or {}
     ev = bench.preview(row.test.method, readings)
-    return _page(request, row, readings, ev, message="Draft saved." if saved else None)
+    message = "Handed in for review." if handed_in else "Draft saved." if saved else None
+    return _page(request, row, readings, ev, message=message)
+
+
+def _changes_from_form(method: str, items: list[tuple[str, Any]]) -> list[bench.Change]:
+    """The sheet's fields in a posted form as changes (fields the sheet does not have are ignored)."""
+    changes = []
+    for path, text in form_fields(items).items():
+        inp = input_at(method, path)
+        if inp is not None:
+            changes.append(bench.Change(path, inp.value(text)))
+    return changes
 
 
 @router.post("/tests/{test_id}/preview")
 async def bench_preview(request: Request, test_id: int, user: Staff) -> Response:
-    """Results for what is typed so far, without storing anything (htmx, as the technician types)."""
+    """Results for what is on the screen, without storing anything (htmx, as the technician types)."""
     row = load_row(request, test_id)
-    readings = readings_from_form((await request.form()).multi_items())  # type: ignore[arg-type]
+    changes = _changes_from_form(row.test.method, (await request.form()).multi_items())
+    readings = bench.draft_with(row.test, changes)
     ev = bench.preview(row.test.method, readings)
-    return render(
-        request,
-        "partials/bench_results.html",
-        test=row.test,
-        sections=sheet_view(row.test.method, readings, ev),
-        ev=ev,
-        chart=flow_svg(ev),
+    context = _results_context(row, readings, ev)
+    return render(request, "partials/bench_results.html", test=row.test, **context)
+
+
+class FieldIn(BaseModel):
+    path: str = Field(max_length=200)
+    value: str = Field(max_length=200)
+    base: str = Field(default="", max_length=200)
+
+
+class FieldsIn(BaseModel):
+    changes: list[FieldIn] = Field(max_length=400)
+
+
+@router.post("/tests/{test_id}/fields")
+def save_fields(request: Request, test_id: int, user: Staff, body: FieldsIn) -> Response:
+    """Save typed fields of the draft, each against the value the page last saw there (JSON).
+
+    200 with the stored values of the whole sheet; 409 with both values of every field changed
+    meanwhile elsewhere (nothing stored), or when the test can no longer be edited; 422 with the
+    refused values (nothing stored).
+    """
+    row = load_row(request, test_id)
+    method = row.test.method
+    changes = []
+    for item in body.changes:
+        inp = input_at(method, item.path)
+        if inp is None:
+            return JSONResponse(
+                {"detail": f"{item.path!r} is not a field of this sheet",
+                 "errors": [{"path": item.path, "message": "not a field of this sheet"}]},
+                status_code=422,
+            )
+        changes.append(bench.Change(item.path, inp.value(item.value), inp.value(item.base)))
+    try:
+        saved = bench.save_changes(database(request), user, test_id, changes)
+    except bench.FieldConflicts as exc:
+        conflicts = [{"path": c.path, "theirs": text_of(c.theirs), "yours": text_of(c.yours)}
+                     for c in exc.conflicts]
+        return JSONResponse({"detail": str(exc), "conflicts": conflicts}, status_code=409)
+    except Invalid as exc:
+        errors = [{"path": dotted(e.loc), "message": e.message} for e in exc.errors]
+        return JSONResponse({"detail": str(exc), "errors": errors}, status_code=422)
+    except ServiceError as exc:
+        refusal = {"detail": str(exc), "locked": isinstance(exc, Conflict)}
+        return JSONResponse(refusal, status_code=http_status(exc))
+    test = saved.test
+    return JSONResponse(
+        {
+            "version": test.version,
+            "status": test.status,
+            "stored": saved.paths,
+            "values": sheet_texts(method, test.readings or {}),
+        }
     )
 
 
 @router.post("/tests/{test_id}/readings")
 async def save_readings(request: Request, test_id: int, user: Staff) -> Response:
-    """Save the sheet as a draft and, when asked (``then=submit``), hand it in."""
+    """Save the whole sheet as a draft (no script) and, when asked (``then=submit``), hand it in.
+
+    With ``autosaved=1`` the page has saved every field already: the stored draft is handed in.
+    """
     form = await request.form()
-    readings = readings_from_form(form.multi_items())  # type: ignore[arg-type]
+    row = load_row(request, test_id)
+    changes = _changes_from_form(row.test.method, form.multi_items())
     try:
         version = int(str(form.get("version", "")))
     except ValueError:
         version = -1
     db = database(request)
-    try:
-        saved = bench.save_readings(db, user, test_id, readings, version)
-    except ServiceError as exc:
-        return _refused(request, test_id, readings, exc, "Nothing was saved")
+    if form.get("autosaved") != "1":
+        try:
+            saved = bench.save_changes(db, user, test_id, changes, version)
+        except ServiceError as exc:
+            return _refused(request, test_id, changes, exc, "Nothing was saved")
+        version = saved.test.version
+    else:
+        changes = []
     if form.get("then") == "submit":
         try:
-            bench.submit(db, user, test_id, saved.test.version)
+            bench.submit(db, user, test_id, version)
         except ServiceError as exc:
-            return _refused(request, test_id, readings, exc, "Draft saved, but not handed in")
+            what = "Not handed in" if form.get("autosaved") == "1" else "Draft saved, but not handed in"
+            return _refused(request, test_id, changes, exc, what)
+        return RedirectResponse(f"/tests/{test_id}?handed_in=1", status_code=303)
     return RedirectResponse(f"/tests/{test_id}?saved=1", status_code=303)
 
 
 def _refused(
-    request: Request, test_id: int, readings: dict[str, Any], exc: ServiceError, what: str
+    request: Request, test_id: int, changes: list[bench.Change], exc: ServiceError, what: str
 ) -> Response:
     """The sheet again, as typed, with the refusal and every field's message."""
     row = load_row(request, test_id)
+    readings = bench.draft_with(row.test, changes)
     detail = (
         f"{len(exc.errors)} value(s) need attention, listed below" if isinstance(exc, Invalid) else str(exc)
     )

@@ -1,4 +1,5 @@
-"""What a client engineer sees through a share link (no account), and the staff PDF download.
+"""What a client engineer sees through a share link (no account), the staff PDF download, and
+the public verification page.
 
 A report's PDF is served from the bytes stored at issue: never rendered again.
 """
@@ -8,13 +9,13 @@ from __future__ import annotations
 import hashlib
 from typing import Annotated
 
-from fastapi import APIRouter, Depends, File, HTTPException, Request, UploadFile
+from fastapi import APIRouter, Depends, File, Form, HTTPException, Request, UploadFile
 from starlette.responses import Response
 
 from server.auth.sessions import database, require_user
 from server.db.tables import Report, User
 from server.services import reports
-from server.services.links import open_link
+from server.services.links import ClientView, open_link
 from server.web.templating import render
 
 router = APIRouter(include_in_schema=False)
@@ -27,6 +28,14 @@ REFUSALS = {
     "unchanged.",
     "revoked": "This link has been withdrawn by the laboratory. Ask the laboratory for a new link.",
 }
+HEADLINES = {
+    "unknown": "This link is not recognised",
+    "expired": "This link has expired",
+    "revoked": "This link has been withdrawn",
+}
+# A page of a share link or a verification answer must not be kept by shared caches or
+# leak the token to other sites through the Referer header.
+PRIVATE = {"Cache-Control": "private, no-store", "Referrer-Policy": "no-referrer"}
 
 
 def pdf_response(report: Report) -> Response:
@@ -37,51 +46,57 @@ def pdf_response(report: Report) -> Response:
         headers={
             "Content-Disposition": f'attachment; filename="{name}"',
             "X-Content-SHA256": report.sha256,
-            "Cache-Control": "private, max-age=0, no-store",
+            **PRIVATE,
         },
     )
 
 
-def _open(request: Request, token: str):  # type: ignore[no-untyped-def]
+def _open(request: Request, token: str, what: str = "") -> ClientView:
+    """Open the link and log the access; the log names the page without the token (only the
+    token's hash is ever stored)."""
     return open_link(
         database(request),
         token,
-        path=request.url.path,
+        path=f"/share/…{what}",
         remote_addr=request.client.host if request.client else "",
         user_agent=request.headers.get("user-agent", ""),
     )
+
+
+def _refused(request: Request, reason: str) -> Response:
+    response = render(
+        request,
+        "pages/share_refused.html",
+        status_code=404 if reason == "unknown" else 410,
+        headline=HEADLINES[reason],
+        reason=REFUSALS[reason],
+        user=None,
+    )
+    response.headers.update(PRIVATE)
+    return response
 
 
 @router.get("/share/{token}")
 def share_page(request: Request, token: str) -> Response:
     view = _open(request, token)
     if view.refused:
-        return render(
-            request,
-            "pages/share_refused.html",
-            status_code=410 if view.refused != "unknown" else 404,
-            reason=REFUSALS[view.refused],
-            user=None,
-        )
-    return render(request, "pages/share.html", view=view, token=token, user=None)
+        return _refused(request, view.refused)
+    response = render(request, "pages/share.html", view=view, token=token, user=None)
+    response.headers.update(PRIVATE)
+    return response
 
 
 @router.get("/share/{token}/reports/{report_id}.pdf")
 def share_pdf(request: Request, token: str, report_id: int) -> Response:
-    view = _open(request, token)
-    if view.refused or view.reports is None:
-        return render(
-            request,
-            "pages/share_refused.html",
-            status_code=410 if view.refused != "unknown" else 404,
-            reason=REFUSALS[view.refused or "unknown"],
-            user=None,
-        )
-    if report_id not in {r.id for r in view.reports}:
+    view = _open(request, token, f"/reports/{report_id}.pdf")
+    if view.refused:
+        return _refused(request, view.refused)
+    if report_id not in view.report_ids:
         raise HTTPException(404, "no such report for this link")
     with database(request).session() as s:
         report = s.get(Report, report_id)
-    assert report is not None
+    if report is None:
+        raise HTTPException(404, "no such report for this link")
     return pdf_response(report)
 
 
@@ -94,43 +109,39 @@ def staff_pdf(request: Request, report_id: int, user: Annotated[User, Depends(re
     return pdf_response(report)
 
 
+def _verify_page(request: Request, status_code: int = 200, **context: object) -> Response:
+    context = {"verdict": None, "number": "", "revision": "", "sha256": "", "problem": "", "file_name": "",
+               **context}
+    response = render(request, "pages/verify.html", status_code=status_code, user=None, **context)
+    response.headers.update(PRIVATE)
+    return response
+
+
 @router.get("/verify")
 def verify_page(request: Request, number: str = "", revision: str = "", sha256: str = "") -> Response:
-    """Anyone may check a report: by its SHA-256 (or the fingerprint printed on it) or its PDF."""
-    verdict = reports.verify(database(request), sha256=sha256) if sha256 else None
-    return render(
-        request,
-        "pages/verify.html",
-        verdict=verdict,
-        number=number,
-        revision=revision,
-        sha256=sha256,
-        user=None,
-    )
+    """Anyone may check a report: its number with the SHA-256 of the file or the content
+    fingerprint printed on its pages (the QR code fills both in), or the PDF itself."""
+    number, sha256 = number.strip()[:40], sha256.strip()[:80]
+    verdict = reports.verify(database(request), sha256=sha256, number=number or None) if sha256 else None
+    return _verify_page(request, verdict=verdict, number=number, revision=revision[:8], sha256=sha256)
 
 
 @router.post("/verify")
-async def verify_upload(request: Request, pdf: Annotated[UploadFile, File()]) -> Response:
-    data = await pdf.read(MAX_VERIFY_BYTES + 1)
+def verify_upload(
+    request: Request, pdf: Annotated[UploadFile, File()], number: Annotated[str, Form()] = ""
+) -> Response:
+    """The uploaded PDF's SHA-256 is looked up among issued reports; nothing is stored."""
+    data = pdf.file.read(MAX_VERIFY_BYTES + 1)
     if len(data) > MAX_VERIFY_BYTES:
-        return render(
-            request,
-            "pages/verify.html",
-            status_code=413,
-            verdict=None,
-            number="",
-            revision="",
-            sha256="",
-            user=None,
-            problem="That file is larger than any report we issue.",
-        )
-    verdict = reports.verify(database(request), pdf=data)
-    return render(
+        return _verify_page(request, 413, problem="That file is larger than any report we issue.")
+    if not data:
+        return _verify_page(request, 422, problem="Choose the PDF file of the report to check it.")
+    number = number.strip()[:40]
+    verdict = reports.verify(database(request), pdf=data, number=number or None)
+    return _verify_page(
         request,
-        "pages/verify.html",
         verdict=verdict,
-        number="",
-        revision="",
+        number=number,
         sha256=hashlib.sha256(data).hexdigest(),
-        user=None,
+        file_name=(pdf.filename or "")[:200],
     )

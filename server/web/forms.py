@@ -1,84 +1,84 @@
-"""From bench form fields to readings JSON, and back.
+"""From bench form fields to readings values, and back to the text an input shows.
 
-Inputs are named by their JSON path (``liquid_limit.trials.2.blows``), so one rule turns any
-method's form into the readings the engine takes, and an engine refusal's ``loc`` names the
-input it belongs to. Trailing blank rows of a list are dropped (spare rows on the sheet);
-a blank row between filled ones is kept so that row numbers still match what was typed.
+Inputs are named by their JSON path in the readings (``r.liquid_limit.trials.2.blows``), so one
+rule turns any method's form into changes of its readings and an engine refusal's ``loc`` names
+the input it belongs to. Nothing here knows a method: the sheets (``bench_forms``) say which
+paths a method's page has and what kind of value each one takes.
 """
 
 from __future__ import annotations
 
 import re
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable
 from typing import Any
 
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 _INTEGER = re.compile(r"^[+-]?\d+$")
+VALUE_PREFIX = "r."  # an input's name: "r." + its readings path
+FLAG_PREFIX = "f."  # a hidden marker that a tick box is on the form (an unticked box sends nothing)
+MAX_TEXT = 200
 
 
-def _value(text: str) -> Any:
-    """A typed value: a number when it reads as one (a decimal comma too), otherwise the text
-    as typed, for the engine to refuse with a field-level message."""
+def typed_value(text: str) -> Any:
+    """A typed number (a decimal comma too), or the text as typed for the engine to refuse
+    with a field-level message; blank text is None."""
     typed = text.strip()
+    if not typed:
+        return None
     number = typed.replace(",", ".")
     if not _NUMBER.match(number):
-        return typed
-    return int(number) if _INTEGER.match(number) else float(number)
+        return typed[:MAX_TEXT]
+    if _INTEGER.match(number):
+        return int(number)
+    value = float(number)
+    return value if value not in (float("inf"), float("-inf")) else typed[:MAX_TEXT]
 
 
-def _is_blank(node: Any) -> bool:
-    if isinstance(node, dict):
-        return all(_is_blank(v) for v in node.values())
-    if isinstance(node, list):
-        return all(_is_blank(v) for v in node)
-    return node is None or node == ""
+def text_of(value: Any) -> str:
+    """What an input shows for a stored value (and what the page compares when it autosaves)."""
+    if value is None:
+        return ""
+    if value is True:
+        return "true"
+    if value is False:
+        return ""
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
+        return f"{value:.1f}"
+    if isinstance(value, list | dict):
+        return ""
+    return str(value)
 
 
-def _listify(node: Any) -> Any:
-    if not isinstance(node, dict):
-        return node
-    if node and all(isinstance(k, int) for k in node):
-        items = [_listify(node[i]) if i in node else {} for i in range(max(node) + 1)]
-        while items and _is_blank(items[-1]):
-            items.pop()
-        return items
-    return {k: _listify(v) for k, v in node.items() if not _is_blank(v)}
-
-
-def readings_from_form(fields: Iterable[tuple[str, str]], prefix: str = "r.") -> dict[str, Any]:
-    """Nest ``prefix``-named form fields into readings JSON (other fields are ignored)."""
-    root: dict[Any, Any] = {}
-    for name, raw in fields:
-        if not name.startswith(prefix):
+def form_fields(items: Iterable[tuple[str, Any]]) -> dict[str, str]:
+    """The readings paths a posted form carries, with their text (the last of a repeated name),
+    plus every tick box on the form that was left unticked, as blank."""
+    values: dict[str, str] = {}
+    flags: list[str] = []
+    for name, raw in items:
+        if not isinstance(raw, str):
             continue
-        parts: list[Any] = [int(p) if p.isdigit() else p for p in name[len(prefix) :].split(".")]
-        node = root
-        for part in parts[:-1]:
-            node = node.setdefault(part, {})
-        node[parts[-1]] = _value(raw) if raw.strip() else ""
-    result = _listify(root)
-    return result if isinstance(result, dict) else {}
+        if name.startswith(VALUE_PREFIX):
+            values[name[len(VALUE_PREFIX) :]] = raw
+        elif name.startswith(FLAG_PREFIX):
+            flags.append(name[len(FLAG_PREFIX) :])
+    for path in flags:
+        values.setdefault(path, "")
+    return values
 
 
-def lookup(readings: Mapping[str, Any] | None, path: str) -> Any:
-    """The value at a dotted path of readings, or "" when absent (for prefilling inputs)."""
-    node: Any = readings or {}
-    for part in path.split("."):
-        if isinstance(node, list) and part.isdigit() and int(part) < len(node):
-            node = node[int(part)]
-        elif isinstance(node, Mapping) and part in node:
-            node = node[part]
-        else:
-            return ""
-    return "" if node is None else node
+def dotted(loc: Iterable[Any]) -> str:
+    """An engine refusal's ``loc`` as the dotted path of the input it concerns."""
+    parts = [str(p) for p in loc]
+    if parts and parts[0] == "readings":
+        parts = parts[1:]
+    return ".".join(parts)
 
 
-def errors_by_path(errors: Iterable[Any]) -> dict[str, str]:
-    """Engine refusals keyed by the dotted path of the input they concern."""
+def errors_by_path(errors: Iterable[Any], kinds: Iterable[str] | None = None) -> dict[str, str]:
+    """Engine refusals (of these kinds, or all) keyed by the dotted path they concern; the first wins."""
+    wanted = None if kinds is None else set(kinds)
     out: dict[str, str] = {}
     for e in errors:
-        loc = [str(p) for p in e.loc]
-        if loc and loc[0] == "readings":
-            loc = loc[1:]
-        out.setdefault(".".join(loc), e.message)
+        if wanted is None or e.kind in wanted:
+            out.setdefault(dotted(e.loc), e.message)
     return out

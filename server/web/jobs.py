@@ -21,7 +21,9 @@ Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 @router.get("/")
 def home(user: Staff) -> Response:
-    return RedirectResponse("/review" if user.role == "reviewer" else "/jobs", status_code=303)
+    """Each person's own start: technicians their bench, reviewers the review desk, admins the jobs."""
+    target = {"technician": "/bench", "reviewer": "/review"}.get(user.role, "/jobs")
+    return RedirectResponse(target, status_code=303)
 
 
 @router.get("/jobs")

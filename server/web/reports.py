@@ -1,32 +1,77 @@
-"""Issuing reports of a job and managing its client links (reviewers and admins)."""
+"""Issuing and re-issuing reports of a job, and managing its client links (reviewers and admins)."""
 
 from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Depends, Form, HTTPException, Request
-from fastapi.responses import RedirectResponse
+from fastapi import APIRouter, Depends, Form, HTTPException, Query, Request
+from fastapi.responses import HTMLResponse, RedirectResponse
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_roles
-from server.db.tables import ShareLink, User
+from server.db.tables import Report, ShareLink, User
 from server.services import links, reports
-from server.services.errors import ServiceError
+from server.services.errors import ServiceError, http_status
 from server.web.jobs import job_page_response
+from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 
+def _base_url(request: Request) -> str:
+    return str(request.app.state.settings.public_base_url)
+
+
 @router.post("/jobs/{job_id}/reports")
-def issue_report(request: Request, job_id: int, user: Checker) -> Response:
+def issue_report(
+    request: Request,
+    job_id: int,
+    user: Checker,
+    choice: Annotated[str, Form()] = "all",
+    sample: Annotated[list[int] | None, Form()] = None,
+) -> Response:
+    """Issue a report of every approved test, or (choice "chosen") of the ticked samples only."""
+    chosen = (sample or []) if choice == "chosen" else None
     try:
-        report = reports.issue_report(
-            database(request), user, job_id, request.app.state.settings.public_base_url
-        )
+        report = reports.issue_report(database(request), user, job_id, _base_url(request), chosen)
     except ServiceError as exc:
         return job_page_response(request, job_id, error=str(exc))
     return RedirectResponse(f"/jobs/{job_id}#report-{report.id}", status_code=303)
+
+
+@router.post("/reports/{report_id}/reissue")
+def reissue_report(request: Request, report_id: int, user: Checker) -> Response:
+    """Revision n + 1 of an issued report after an amendment; revision n is marked superseded."""
+    with database(request).session() as s:
+        old = s.get(Report, report_id)
+    if old is None:
+        raise HTTPException(404, "no such report")
+    try:
+        report = reports.reissue_report(database(request), user, report_id, _base_url(request))
+    except ServiceError as exc:
+        return job_page_response(request, old.job_id, error=str(exc))
+    return RedirectResponse(f"/jobs/{old.job_id}#report-{report.id}", status_code=303)
+
+
+@router.get("/jobs/{job_id}/reports/preview")
+def preview_report(
+    request: Request,
+    job_id: int,
+    user: Checker,
+    choice: str = "all",
+    sample: Annotated[list[int] | None, Query()] = None,
+) -> Response:
+    """The report as it would be issued now, as a web page marked "preview, not issued" (nothing
+    is stored). Charts are the same SVG the PDF carries."""
+    chosen = (sample or []) if choice == "chosen" else None
+    try:
+        html = reports.preview_report_html(database(request), user, job_id, _base_url(request), chosen)
+    except ServiceError as exc:
+        if http_status(exc) == 422:
+            return job_page_response(request, job_id, error=str(exc))
+        raise HTTPException(http_status(exc), str(exc)) from exc
+    return HTMLResponse(html, headers={"Cache-Control": "private, no-store"})
 
 
 @router.post("/jobs/{job_id}/links")
@@ -34,22 +79,41 @@ def create_link(
     request: Request,
     job_id: int,
     user: Checker,
-    days_valid: Annotated[int, Form()] = 30,
+    days_valid: Annotated[str, Form()] = "30",
     label: Annotated[str, Form()] = "",
+    scope: Annotated[str, Form()] = "job",
 ) -> Response:
+    """A new client link, shown once; ``scope`` "client" opens every job of the job's client."""
     try:
-        made = links.create_link(database(request), user, job_id, days_valid, label)
+        days = int(days_valid.strip())
+    except ValueError:
+        return job_page_response(request, job_id, error="Valid for: enter a whole number of days.")
+    try:
+        made = links.create_link(database(request), user, job_id, days, label, whole_client=scope == "client")
     except ServiceError as exc:
         return job_page_response(request, job_id, error=str(exc))
-    url = f"{request.app.state.settings.public_base_url.rstrip('/')}/share/{made.token}"
+    url = f"{_base_url(request).rstrip('/')}/share/{made.token}"
     return job_page_response(request, job_id, new_link=url)
 
 
+@router.get("/jobs/{job_id}/links")
+def job_links_page(request: Request, job_id: int, user: Checker) -> Response:
+    """Every link that opens this job, its state, and the full log of its use."""
+    try:
+        found = links.job_links(database(request), job_id)
+    except ServiceError as exc:
+        raise HTTPException(http_status(exc), str(exc)) from exc
+    return render(request, "pages/job_links.html", found=found)
+
+
 @router.post("/links/{link_id}/revoke")
-def revoke_link(request: Request, link_id: int, user: Checker) -> Response:
+def revoke_link(
+    request: Request, link_id: int, user: Checker, job_id: Annotated[int | None, Form()] = None
+) -> Response:
     with database(request).session() as s:
         link = s.get(ShareLink, link_id)
     if link is None:
         raise HTTPException(404, "no such link")
     links.revoke_link(database(request), user, link_id)
-    return RedirectResponse(f"/jobs/{link.job_id}#links", status_code=303)
+    back = job_id if job_id is not None else link.job_id
+    return RedirectResponse(f"/jobs/{back}/links" if back is not None else "/jobs", status_code=303)

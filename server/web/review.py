@@ -1,70 +1,272 @@
-"""The reviewer's desk: the queue of handed-in tests, a review page, approve or return."""
+"""The reviewer's desk: the queue with filters and counts, batch approval, a review page per
+test (readings, every computed value, curves, flags, what changed against the earlier
+revision), approve, return, amend; and the job page's note of reports that need re-issue."""
 
 from __future__ import annotations
 
-from typing import Annotated
+from dataclasses import dataclass
+from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, Form, Request
+from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import RedirectResponse
 from sqlmodel import col
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_roles
-from server.db.queries import readings_authors, test_rows, users_by_id
-from server.db.tables import LabTest, User
-from server.services import bench, review
-from server.services.errors import ServiceError, http_status
-from server.web.bench import flow_svg, load_row, sheet_view
-from server.web.templating import render
+from server.auth.sessions import csrf_protect, database, require_roles, require_user
+from server.db import audit_queries, review_queries
+from server.db.queries import TestRow, test_rows, users_by_id
+from server.db.tables import Job, LabTest, User, utcnow
+from server.engine.contract import Evaluation
+from server.reports import charts
+from server.services import amendments, bench, review
+from server.services.errors import Invalid, ServiceError, http_status, invalid
+from server.web.bench import sheet_view
+from server.web.bench_forms import SHEETS
+from server.web.templating import is_htmx, render
+from server.workflow.states import Action, can
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
+Staff = Annotated[User, Depends(require_user)]
+
+AGE_CHOICES = (1, 2, 7)
+
+
+# -- the queue ---------------------------------------------------------------------------------
+
+
+def _int(value: str | None) -> int | None:
+    try:
+        return int(value) if value not in (None, "") else None
+    except ValueError:
+        return None
+
+
+def queue_filter(
+    job: str | None, method: str | None, person: str | None, age: str | None, flags: str | None
+) -> review_queries.QueueFilter:
+    """The filter the query string asks for; a value that makes no sense narrows nothing."""
+    older = _int(age)
+    return review_queries.QueueFilter(
+        job_id=_int(job),
+        method=(method or "").strip() or None,
+        author_id=_int(person),
+        older_than_days=older if older is not None and older >= 0 else None,
+        flags=flags if flags in review_queries.FLAG_CHOICES else None,
+    )
+
+
+def _waited(row: review_queries.QueueRow) -> str:
+    hours = int(row.waited.total_seconds() // 3600)
+    return f"{hours // 24} d {hours % 24} h" if hours >= 24 else f"{hours} h"
+
+
+def _queue_page(
+    request: Request,
+    user: User,
+    wanted: review_queries.QueueFilter,
+    *,
+    status_code: int = 200,
+    problem: str | None = None,
+    message: str | None = None,
+) -> Response:
+    settings = request.app.state.settings
+    with database(request).session() as s:
+        queue = review_queries.review_queue(
+            s, user, wanted, utcnow(), self_approval_forbidden=settings.self_approval_forbidden
+        )
+    return render(
+        request,
+        "pages/review_queue.html",
+        status_code=status_code,
+        queue=queue,
+        rows=queue.rows,
+        waited={q.row.test.id: _waited(q) for q in queue.rows},
+        any_batchable=any(q.batchable for q in queue.rows),
+        wanted=wanted,
+        age_choices=AGE_CHOICES,
+        flag_choices=review_queries.FLAG_CHOICES,
+        meaning=review.DEFAULT_MEANING,
+        problem=problem,
+        message=message,
+    )
 
 
 @router.get("/review")
-def queue(request: Request, user: Checker) -> Response:
-    """Handed-in tests, flagged ones first, then the oldest first."""
-    with database(request).session() as s:
-        rows = test_rows(s, col(LabTest.status) == "submitted", order=(col(LabTest.submitted_at),))
-    rows.sort(
-        key=lambda r: (
-            not any(f.get("severity") == "error" for f in r.test.flags or []),
-            not r.test.flags,
-            r.test.submitted_at,
+def queue(
+    request: Request,
+    user: Checker,
+    job: str | None = None,
+    method: str | None = None,
+    person: str | None = None,
+    age: str | None = None,
+    flags: str | None = None,
+    approved: int = 0,
+) -> Response:
+    """Handed-in tests: errors first, then warnings, then the rest, the longest waiting first."""
+    message = f"{approved} test(s) approved and signed." if approved > 0 else None
+    return _queue_page(request, user, queue_filter(job, method, person, age, flags), message=message)
+
+
+def _selection(values: list[str]) -> list[tuple[int, int]]:
+    """The ticked tests as (id, version seen); a value that is not "id:version" is refused."""
+    picked = []
+    for value in values:
+        test_id, _, version = value.partition(":")
+        if not (test_id.isdigit() and version.isdigit()):
+            raise invalid("tests", f"{value!r} is not a test of the list")
+        picked.append((int(test_id), int(version)))
+    return picked
+
+
+@router.post("/review/batch")
+async def approve_batch(request: Request, user: Checker) -> Response:
+    """One signature for the ticked tests without any flag: all approved, or none."""
+    form = await request.form()
+    values = [str(v) for v in form.getlist("test")]
+    try:
+        done = review.approve_batch(
+            database(request),
+            user,
+            _selection(values),
+            str(form.get("password", "")),
+            meaning=str(form.get("meaning", review.DEFAULT_MEANING)),
+            self_approval_forbidden=request.app.state.settings.self_approval_forbidden,
         )
-    )
-    return render(request, "pages/review_queue.html", rows=rows)
+    except ServiceError as exc:
+        return _queue_page(
+            request,
+            user,
+            review_queries.QueueFilter(),
+            status_code=http_status(exc),
+            problem=f"Nothing was approved: {exc}",
+        )
+    return RedirectResponse(f"/review?approved={len(done)}", status_code=303)
+
+
+# -- the review page ---------------------------------------------------------------------------
+
+
+@dataclass
+class Revision:
+    """The earlier revision and what changed since, field by field."""
+
+    test: LabTest
+    readings: list[amendments.Change]
+    results: list[amendments.Change]
+
+
+def curves(ev: Evaluation, label: str) -> list[str]:
+    """The fitted curve and the charts a reviewer checks the results against (our own SVG)."""
+    r = ev.results
+    out = []
+    if r.get("liquid_limit_trials"):
+        out.append(charts.flow_curve_svg(r["liquid_limit_trials"], r.get("flow_curve")))
+    if isinstance(r.get("liquid_limit"), int | float) and isinstance(r.get("plasticity_index"), int | float):
+        out.append(charts.plasticity_chart_svg([(label, r["liquid_limit"], r["plasticity_index"])]))
+    for key, title in (("combined_curve", "Grading curve"), ("grading_curve", "Grading curve")):
+        points = [
+            (float(p["size_mm"]), float(p["percent_passing"]))
+            for p in r.get(key) or []
+            if isinstance(p, dict)
+            and isinstance(p.get("size_mm"), int | float)
+            and isinstance(p.get("percent_passing"), int | float)
+        ]
+        if points:
+            out.append(
+                charts.xy_chart(
+                    [charts.Series(label, points)],
+                    title=title,
+                    x_label="Particle size (mm)",
+                    y_label="Percent passing (%)",
+                    x_log=True,
+                    y_range=(0.0, 100.0),
+                )
+            )
+            break
+    return out
+
+
+def load_row(request: Request, test_id: int) -> TestRow:
+    with database(request).session() as s:
+        rows = test_rows(s, col(LabTest.id) == test_id)
+    if not rows:
+        raise HTTPException(404, "no such test")
+    return rows[0]
+
+
+def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]:
+    """Everything the review page shows, read in a fixed number of queries."""
+    row = load_row(request, test_id)
+    test = row.test
+    readings = test.readings or {}
+    ev = bench.preview(test.method, readings)
+    settings = request.app.state.settings
+    with database(request).session() as s:
+        chain = review_queries.revisions(s, test_id)
+        chain_ids = [t.id or 0 for t in chain]
+        authors = review_queries.revision_authors(s, test_id)
+        later = review_queries.later_revision(s, test_id)
+        history = audit_queries.events_of_tests(s, chain_ids)
+        reissue = review_queries.needs_reissue(s, test_ids=chain_ids)
+        carrying = review_queries.reports_carrying(s, chain_ids)
+        people = users_by_id(s, [*authors, *(t.approved_by_id for t in chain)])
+    previous = next((t for t in chain if t.id == test.previous_revision_id), None)
+    own = user.id in authors
+    return {
+        "row": row,
+        "test": test,
+        "ev": ev,
+        "sections": sheet_view(test.method, readings, ev) if test.method in SHEETS else [],
+        "raw_readings": amendments.leaves(readings),
+        "computed": amendments.leaves(test.results),
+        "flags": test.flags or [],
+        "charts": curves(ev, row.sample.code),
+        "authors": sorted((people[a] for a in authors if a in people), key=lambda u: u.full_name),
+        "approver": people.get(test.approved_by_id or 0),
+        "own": own,
+        "blocked_as_author": own and settings.self_approval_forbidden,
+        "may_approve": can(test.status, Action.approve, user.role),
+        "may_return": can(test.status, Action.return_, user.role),
+        "may_amend": can(test.status, Action.amend, user.role),
+        "previous": Revision(
+            previous,
+            amendments.changes(previous.readings, test.readings),
+            amendments.changes(previous.results, test.results),
+        )
+        if previous
+        else None,
+        "later": later,
+        "chain": chain,
+        "revision_of": {t.id: t.revision for t in chain},
+        "signers": people,
+        "history": history,
+        "reissue": reissue,
+        "carrying": carrying,
+        "meaning": review.DEFAULT_MEANING,
+    }
 
 
 def _review_page(
     request: Request, user: User, test_id: int, *, status_code: int = 200, problem: str | None = None
 ) -> Response:
-    row = load_row(request, test_id)
-    readings = row.test.readings or {}
-    ev = bench.preview(row.test.method, readings)
-    with database(request).session() as s:
-        authors = readings_authors(s, test_id)
-        people = users_by_id(s, [*authors, row.test.approved_by_id])
     return render(
         request,
         "pages/review.html",
         status_code=status_code,
-        row=row,
-        test=row.test,
-        ev=ev,
-        sections=sheet_view(row.test.method, readings, ev),
-        chart=flow_svg(ev),
-        authors=[people[a] for a in authors if a in people],
-        approver=people.get(row.test.approved_by_id or 0),
-        own=user.id in authors,
-        meaning=review.DEFAULT_MEANING,
         problem=problem,
+        **review_context(request, user, test_id),
     )
 
 
 @router.get("/review/{test_id}")
 def review_page(request: Request, test_id: int, user: Checker) -> Response:
     return _review_page(request, user, test_id)
+
+
+def _refused(request: Request, user: User, test_id: int, exc: ServiceError, what: str) -> Response:
+    detail = "; ".join(e.message for e in exc.errors) if isinstance(exc, Invalid) else str(exc)
+    return _review_page(request, user, test_id, status_code=http_status(exc), problem=f"{what}: {detail}")
 
 
 @router.post("/review/{test_id}/approve")
@@ -83,13 +285,11 @@ def approve(
             test_id,
             password,
             version,
-            meaning=meaning.strip()[:300],
+            meaning=meaning,
             self_approval_forbidden=request.app.state.settings.self_approval_forbidden,
         )
     except ServiceError as exc:
-        return _review_page(
-            request, user, test_id, status_code=http_status(exc), problem=f"Not approved: {exc}"
-        )
+        return _refused(request, user, test_id, exc, "Not approved")
     return RedirectResponse("/review", status_code=303)
 
 
@@ -104,7 +304,36 @@ def return_test(
     try:
         review.return_test(database(request), user, test_id, reason, version)
     except ServiceError as exc:
-        return _review_page(
-            request, user, test_id, status_code=http_status(exc), problem=f"Not returned: {exc}"
-        )
+        return _refused(request, user, test_id, exc, "Not returned")
     return RedirectResponse("/review", status_code=303)
+
+
+@router.post("/review/{test_id}/amend")
+def amend(
+    request: Request,
+    test_id: int,
+    user: Checker,
+    version: Annotated[int, Form()],
+    reason: Annotated[str, Form()] = "",
+) -> Response:
+    """Open the next revision; the bench page of the new draft comes next."""
+    try:
+        new = amendments.amend(database(request), user, test_id, reason, version)
+    except ServiceError as exc:
+        return _refused(request, user, test_id, exc, "Not amended")
+    return RedirectResponse(f"/tests/{new.id}", status_code=303)
+
+
+# -- reports that need re-issue, for the job page ----------------------------------------------
+
+
+@router.get("/jobs/{job_id}/reissue")
+def job_reissue(request: Request, job_id: int, user: Staff) -> Response:
+    """The job's issued reports that carry an amended test (a fragment the job page loads)."""
+    with database(request).session() as s:
+        job = s.get(Job, job_id)
+        if job is None:
+            raise HTTPException(404, "no such job")
+        found = review_queries.needs_reissue(s, job_id=job_id)
+    name = "partials/reissue_list.html" if is_htmx(request) else "pages/reissue.html"
+    return render(request, name, reissue=found, job=job)

@@ -49,6 +49,10 @@ TRANSITIONS: dict[tuple[Status, Action], tuple[Status, frozenset[Role]]] = {
     (Status.approved, Action.amend): (Status.superseded, CHECKERS),
 }
 
+# An amendment leaves the approved row superseded (above) and opens the next revision here:
+# its readings are copied and may be corrected before it is handed in and signed again.
+AMENDED_REVISION_STARTS = Status.draft
+
 # What a person at the bench or desk is asked to do next, shown beside each test.
 NEXT_STEP: dict[Status, str] = {
     Status.requested: "enter readings",
@@ -80,6 +84,12 @@ def move(status: str, action: Action, role: str) -> Move:
     if Role(role) not in roles:
         raise TransitionRefused(f"a {role} may not {action.value} a test")
     return Move(current, after)
+
+
+def can(status: str, action: Action, role: str) -> bool:
+    """Whether this role may take this action on a test in this status (what a page offers)."""
+    found = TRANSITIONS.get((Status(status), action))
+    return found is not None and Role(role) in found[1]
 
 
 def is_editable(status: str) -> bool:

@@ -12,8 +12,13 @@ from server.reports.charts import (
     MARGIN_LEFT,
     MARGIN_RIGHT,
     MARGIN_TOP,
+    ProfileRow,
     Series,
+    activity_boundaries,
+    activity_chart_svg,
+    depth_profile_svg,
     flow_curve_svg,
+    grading_chart_svg,
     plasticity_chart_svg,
     xy_chart,
 )
@@ -224,3 +229,60 @@ def test_xy_chart_tells_series_apart_without_colour_and_escapes_legends() -> Non
     assert HOSTILE in texts(root) and "<script>" not in svg
     assert svg == xy_chart([Series(HOSTILE, [(0, 0), (1, 1)]), Series("B", [(0, 1), (1, 0)])],
                            title="Stress-strain", x_label="Axial strain (%)", y_label="Deviator stress (kPa)")
+
+
+# -- depth profile, grading and activity charts ----------------------------------------------------
+
+PROFILE = [ProfileRow("U1", 1.225, 24.0, 38.0, 19.0), ProfileRow("U3", 4.225, 49.0, 44.0, 22.0),
+           ProfileRow("D3", 3.725, 21.0, 24.0, None)]  # fictional demo samples; D3 non-plastic (no PL)
+
+
+def test_depth_profile_puts_deeper_samples_lower_with_the_plastic_range_between_pl_and_ll() -> None:
+    root = parse(depth_profile_svg(PROFILE))
+    bars = by_class(root, "line", "plastic-range")
+    assert len(bars) == 2  # the non-plastic sample has no PL, so no range bar
+    (shallow, deep) = sorted(bars, key=lambda b: float(b.get("y1", "nan")))
+    assert float(shallow.get("y1", "nan")) < float(deep.get("y1", "nan"))  # depth runs downward
+    x_pl, x_ll = float(shallow.get("x1", "nan")), float(shallow.get("x2", "nan"))
+    assert x_pl < x_ll  # PL 19 left of LL 38 on the water-content axis
+    assert "Depth below ground (m)" in texts(root) and "Water content, w, and limits (%)" in texts(root)
+
+
+def test_depth_profile_labels_and_escapes_each_sample() -> None:
+    svg = depth_profile_svg([ProfileRow(HOSTILE, 1.0, 30.0, 40.0, 20.0)])
+    assert "<script>" not in svg
+    assert [e.text for e in by_class(parse(svg), "text", "point-label")] == [HOSTILE]
+    assert svg == depth_profile_svg([ProfileRow(HOSTILE, 1.0, 30.0, 40.0, 20.0)])
+
+
+def test_grading_chart_marks_the_fraction_boundaries_at_2_um_75_um_and_4_75_mm() -> None:
+    root = parse(grading_chart_svg([("S1", [(10.0, 100.0), (0.075, 40.0), (0.002, 12.0)])]))
+    frame = Frame(640.0, 330.0)
+    edges = sorted(float(e.get("x1", "nan")) for e in by_class(root, "line", "fraction-edge"))
+    # ASTM D2487-17 section 3 (75 µm, 4.75 mm) and the 2 µm clay size (Skempton 1953), on a
+    # 0.001-100 mm log axis: five decades.
+    for x, size in zip(edges, (0.002, 0.075, 4.75), strict=True):
+        decades = (math.log10(size) + 3) / 5
+        assert x == pytest.approx(frame.left + decades * (frame.right - frame.left), abs=0.02)
+    assert [e.text for e in by_class(root, "text", "fraction-name")] == ["CLAY", "SILT", "SAND", "GRAVEL"]
+
+
+def test_activity_boundaries_are_the_engines_class_limits() -> None:
+    assert activity_boundaries() == pytest.approx((0.75, 1.25), abs=1e-6)  # Skempton (1953) classes
+
+
+def test_activity_chart_draws_lines_of_constant_activity_and_plots_each_sample() -> None:
+    root = parse(activity_chart_svg([("U1", 24.0, 19.0)]))
+    frame = Frame(560.0, 350.0)
+    lines = by_class(root, "polyline", "activity-line")
+    assert len(lines) == 2
+    for line, a in zip(lines, (0.75, 1.25), strict=True):
+        (x0, y0), (x1, y1) = points_of(line)
+        assert (x0, y0) == pytest.approx((frame.x(0, 0, 60), frame.y(0, 0, 60)), abs=0.01)
+        clay = (x1 - frame.left) / (frame.right - frame.left) * 60
+        pi = (frame.bottom - y1) / (frame.bottom - frame.top) * 60
+        assert pi / clay == pytest.approx(a, abs=1e-3)  # A = PI / clay fraction (Skempton 1953)
+    (point,) = by_class(root, "circle", "point")
+    assert (float(point.get("cx", "nan")), float(point.get("cy", "nan"))) == pytest.approx(
+        (frame.x(24, 0, 60), frame.y(19, 0, 60)), abs=0.01)
+    assert {e.text for e in by_class(root, "text", "zone")} == {"inactive", "normal", "active"}

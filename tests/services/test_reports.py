@@ -1,31 +1,33 @@
-"""Issuing a report: rendered once, stored with its SHA-256, verifiable, refused when empty."""
+"""Issuing and re-issuing reports: rendered once, stored with its SHA-256, verifiable, superseded
+never deleted, refused when there is nothing (new) to report."""
 
 from __future__ import annotations
 
 import hashlib
 
 import pytest
-from sqlmodel import select
+from sqlmodel import col, select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, Report, ReportTest
-from server.services import bench, reports, review
-from server.services.errors import Forbidden, Invalid
-from tests.conftest import PASSWORDS, People
-from tests.support.scenario import ATTERBERG, small_job
+from server.db.tables import AuditEvent, LabTest, Report, ReportTest
+from server.services import amendments, reports
+from server.services.errors import Conflict, Forbidden, Invalid
+from tests.conftest import People
+from tests.reports.issued import amend_and_approve, approve, two_approved_samples
+from tests.support.scenario import small_job
+
+BASE = "http://lab.example"
 
 
 def _approved_job(db: Database, people: People) -> int:
     job = small_job(db, people.admin)
-    saved = bench.save_readings(db, people.tech, job.test_id, ATTERBERG, 1)
-    test = bench.submit(db, people.tech, job.test_id, saved.test.version)
-    review.approve(db, people.review, job.test_id, PASSWORDS["review"], test.version)
+    approve(db, people, job.test_id)
     return job.job_id
 
 
 def test_stores_the_pdf_its_hash_and_an_audit_event_together(db: Database, people: People) -> None:
     job_id = _approved_job(db, people)
-    report = reports.issue_report(db, people.review, job_id, "http://lab.example")
+    report = reports.issue_report(db, people.review, job_id, BASE)
     with db.session() as s:
         stored = s.get(Report, report.id)
         carried = s.exec(select(ReportTest).where(ReportTest.report_id == report.id)).all()
@@ -40,24 +42,113 @@ def test_verification_knows_an_issued_report_by_file_hash_or_printed_fingerprint
     db: Database, people: People
 ) -> None:
     job_id = _approved_job(db, people)
-    report = reports.issue_report(db, people.review, job_id, "http://lab.example")
+    report = reports.issue_report(db, people.review, job_id, BASE)
     with db.session() as s:
         pdf = s.get(Report, report.id).pdf  # type: ignore[union-attr]
     assert reports.verify(db, pdf=pdf).state == "current"
-    assert reports.verify(db, sha256=report.fingerprint).state == "current"
+    assert reports.verify(db, sha256=report.fingerprint).matched == "content"
+    assert reports.verify(db, sha256=report.sha256.upper(), number="T-100-R01").matched == "file"
     changed = bytearray(pdf)
     changed[len(changed) // 2] ^= 0x01
     assert reports.verify(db, pdf=bytes(changed)).state == "unknown"
     assert reports.verify(db, sha256="00" * 32).state == "unknown"
 
 
+def test_verification_refuses_a_genuine_hash_given_with_another_report_number(
+    db: Database, people: People
+) -> None:
+    job_id = _approved_job(db, people)
+    report = reports.issue_report(db, people.review, job_id, BASE)
+    assert reports.verify(db, sha256=report.sha256, number="T-999-R01").state == "unknown"
+
+
 def test_refuses_a_report_with_no_approved_test(db: Database, people: People) -> None:
     job = small_job(db, people.admin)
     with pytest.raises(Invalid):
-        reports.issue_report(db, people.review, job.job_id, "http://lab.example")
+        reports.issue_report(db, people.review, job.job_id, BASE)
 
 
-def test_a_technician_cannot_issue_a_report(db: Database, people: People) -> None:
+def test_a_technician_cannot_issue_or_reissue_a_report(db: Database, people: People) -> None:
     job_id = _approved_job(db, people)
     with pytest.raises(Forbidden):
-        reports.issue_report(db, people.tech, job_id, "http://lab.example")
+        reports.issue_report(db, people.tech, job_id, BASE)
+    report = reports.issue_report(db, people.review, job_id, BASE)
+    with pytest.raises(Forbidden):
+        reports.reissue_report(db, people.tech, report.id or 0, BASE)
+
+
+def test_issues_a_report_of_the_chosen_samples_only(db: Database, people: People) -> None:
+    two = two_approved_samples(db, people)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, sample_ids=[two.samples[1]])
+    with db.session() as s:
+        carried = s.exec(select(ReportTest.test_id).where(ReportTest.report_id == report.id)).all()
+    assert list(carried) == [two.tests[1]]
+    whole = reports.issue_report(db, people.review, two.job_id, BASE)
+    assert whole.number == "T-100-R02"  # a second report of the job takes the next number
+
+
+def test_refuses_a_chosen_sample_without_an_approved_test_or_an_empty_choice(
+    db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    with pytest.raises(Invalid, match="no approved test"):
+        reports.issue_report(db, people.review, two.job_id, BASE, sample_ids=[two.samples[0], 999_999])
+    with pytest.raises(Invalid, match="at least one sample"):
+        reports.issue_report(db, people.review, two.job_id, BASE, sample_ids=[])
+    with db.session() as s:
+        assert s.exec(select(Report)).all() == []
+
+
+def test_reissue_after_an_amendment_is_revision_two_and_supersedes_revision_one(
+    db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    first = reports.issue_report(db, people.review, two.job_id, BASE)
+    amended = amend_and_approve(db, people, two.tests[0])
+    second = reports.reissue_report(db, people.review, first.id or 0, BASE)
+    with db.session() as s:
+        old = s.get(Report, first.id)
+        carried = set(s.exec(select(ReportTest.test_id).where(ReportTest.report_id == second.id)).all())
+        events = s.exec(
+            select(AuditEvent.entity_id, AuditEvent.action)
+            .where(AuditEvent.entity == "report")
+            .order_by(col(AuditEvent.id))
+        ).all()
+    assert (second.number, second.revision, second.status) == (first.number, 2, "issued")
+    assert old is not None and (old.status, old.superseded_by_id) == ("superseded", second.id)
+    assert hashlib.sha256(old.pdf).hexdigest() == first.sha256  # kept as issued
+    assert carried == {amended, two.tests[1]}  # the amended revision and the untouched test
+    assert list(events) == [(first.id, "issue"), (first.id, "supersede"), (second.id, "reissue")]
+    verdict = reports.verify(db, sha256=first.sha256)
+    assert verdict.state == "superseded" and verdict.current is not None and verdict.current.id == second.id
+    assert reports.verify(db, sha256=second.sha256).state == "current"
+
+
+def test_reissue_waits_until_the_amended_revision_is_approved(db: Database, people: People) -> None:
+    job_id = _approved_job(db, people)
+    first = reports.issue_report(db, people.review, job_id, BASE)
+    with db.session() as s:
+        test_id = s.exec(select(ReportTest.test_id).where(ReportTest.report_id == first.id)).one()
+        version = s.get(LabTest, test_id).version  # type: ignore[union-attr]
+    amendments.amend(db, people.review, test_id, "Tin N1 re-weighed", version)
+    with pytest.raises(Invalid, match="draft, not approved"):
+        reports.reissue_report(db, people.review, first.id or 0, BASE)
+    with db.session() as s:
+        assert s.get(Report, first.id).status == "issued"  # type: ignore[union-attr]
+
+
+def test_reissue_with_nothing_amended_is_refused(db: Database, people: People) -> None:
+    job_id = _approved_job(db, people)
+    first = reports.issue_report(db, people.review, job_id, BASE)
+    with pytest.raises(Invalid, match="nothing in revision 1 was amended"):
+        reports.reissue_report(db, people.review, first.id or 0, BASE)
+
+
+def test_a_superseded_revision_cannot_be_reissued_again(db: Database, people: People) -> None:
+    job = small_job(db, people.admin)
+    approve(db, people, job.test_id)
+    first = reports.issue_report(db, people.review, job.job_id, BASE)
+    amend_and_approve(db, people, job.test_id)
+    reports.reissue_report(db, people.review, first.id or 0, BASE)
+    with pytest.raises(Conflict, match="superseded"):
+        reports.reissue_report(db, people.review, first.id or 0, BASE)

@@ -14,6 +14,7 @@ import itertools
 import pytest
 
 from server.workflow.states import (
+    AMENDED_REVISION_STARTS,
     NEXT_STEP,
     TRANSITIONS,
     Action,
@@ -21,6 +22,7 @@ from server.workflow.states import (
     Role,
     Status,
     TransitionRefused,
+    can,
     is_editable,
     may_sign,
     move,
@@ -142,3 +144,16 @@ def test_every_status_has_a_next_step_to_show() -> None:
     assert set(NEXT_STEP) == set(Status)
     for status in Status:
         assert NEXT_STEP[status].strip(), status
+
+
+@pytest.mark.parametrize("case", EVERY_CASE, ids=_case_id)
+def test_a_page_offers_a_move_exactly_when_the_table_allows_it(case: tuple[Status, Action, Role]) -> None:
+    status, action, role = case
+    assert can(status.value, action, role.value) is (case in ALLOWED)
+
+
+def test_an_amended_revision_opens_where_readings_may_be_corrected_and_handed_in_again() -> None:
+    # DESIGN.md section 4: an amendment opens a new revision; its readings may be corrected before
+    # it is signed again, so it starts in a status that is editable and can be handed in.
+    assert is_editable(AMENDED_REVISION_STARTS.value)
+    assert (AMENDED_REVISION_STARTS, Action.submit) in TRANSITIONS

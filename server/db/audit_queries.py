@@ -1,0 +1,154 @@
+"""Reading the audit trail: the events of a test, a sample, a job, a user, or the newest ones.
+
+Reads only: nothing here (or anywhere) updates or deletes an audit event. A trail is one query
+on ``audit_event`` with the record ids found by sub-selects, in the order events were written.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from sqlalchemy import and_, false, func, or_
+from sqlalchemy.orm import defer
+from sqlmodel import Session, col, select
+
+from server.db.tables import AuditEvent, Job, LabTest, Location, Report, Sample, ShareLink, User
+
+PAGE = 200
+
+
+@dataclass
+class Trail:
+    events: list[AuditEvent]
+    total: int
+    offset: int
+    limit: int
+    labels: dict[tuple[str, int], str]  # (entity, id) -> what the record is, in words
+
+    @property
+    def has_more(self) -> bool:
+        return self.offset + len(self.events) < self.total
+
+    @property
+    def next_offset(self) -> int:
+        return self.offset + self.limit
+
+    @property
+    def previous_offset(self) -> int | None:
+        return max(self.offset - self.limit, 0) if self.offset else None
+
+
+def _is(entity: str, ids: Any) -> Any:
+    return and_(col(AuditEvent.entity) == entity, col(AuditEvent.entity_id).in_(ids))
+
+
+def _job_condition(session: Session, job_id: int) -> Any:
+    job = session.get(Job, job_id)
+    if job is None:
+        return false()
+    locations = select(Location.id).where(Location.job_id == job_id)
+    samples = (
+        select(Sample.id)
+        .join(Location, col(Location.id) == Sample.location_id)
+        .where(Location.job_id == job_id)
+    )
+    tests = select(LabTest.id).where(col(LabTest.sample_id).in_(samples))
+    reports = select(Report.id).where(Report.job_id == job_id)
+    # A link opens one job, or every job of its client (job_id empty): both concern this job.
+    links = select(ShareLink.id).where(
+        or_(
+            col(ShareLink.job_id) == job_id,
+            and_(col(ShareLink.job_id).is_(None), col(ShareLink.client_id) == job.client_id),
+        )
+    )
+    return or_(
+        _is("job", [job_id]),
+        _is("client", [job.client_id]),
+        _is("location", locations),
+        _is("sample", samples),
+        _is("lab_test", tests),
+        _is("report", reports),
+        _is("share_link", links),
+    )
+
+
+def _sample_condition(sample_id: int) -> Any:
+    return or_(
+        _is("sample", [sample_id]),
+        _is("lab_test", select(LabTest.id).where(LabTest.sample_id == sample_id)),
+    )
+
+
+def _read(session: Session, condition: Any, offset: int, limit: int | None) -> tuple[list[AuditEvent], int]:
+    total = int(session.exec(select(func.count()).select_from(AuditEvent).where(condition)).one())
+    stmt = select(AuditEvent).where(condition).order_by(col(AuditEvent.id)).offset(offset)
+    if limit is not None:
+        stmt = stmt.limit(limit)
+    return list(session.exec(stmt).all()), total
+
+
+def labels(session: Session, events: list[AuditEvent]) -> dict[tuple[str, int], str]:
+    """Words for the records the events name (tests by method and revision, samples by code...),
+    one query per kind of record."""
+    found: dict[tuple[str, int], str] = {}
+    ids: dict[str, set[int]] = {}
+    for e in events:
+        ids.setdefault(e.entity, set()).add(e.entity_id)
+    if ids.get("lab_test"):
+        for t, sample in session.exec(
+            select(LabTest, Sample)
+            .join(Sample, col(Sample.id) == LabTest.sample_id)
+            .where(col(LabTest.id).in_(ids["lab_test"]))
+        ):
+            found[("lab_test", t.id or 0)] = f"{t.method} rev {t.revision} on {sample.code}"
+    simple: list[tuple[str, Any, Any]] = [
+        ("sample", Sample, lambda r: f"sample {r.code}"),
+        ("location", Location, lambda r: f"{r.kind} {r.code}"),
+        ("job", Job, lambda r: f"job {r.code}"),
+        ("report", Report, lambda r: f"report {r.number} rev {r.revision}"),
+        ("share_link", ShareLink, lambda r: f"client link {r.label or r.id}"),
+        ("user", User, lambda r: f"user {r.username}"),
+    ]
+    for entity, table, words in simple:
+        if ids.get(entity):
+            stmt = select(table).where(col(table.id).in_(ids[entity]))
+            if table is Report:
+                stmt = stmt.options(defer(Report.pdf))  # type: ignore[arg-type]
+            for record in session.exec(stmt):
+                found[(entity, record.id or 0)] = words(record)
+    return found
+
+
+def job_trail(session: Session, job_id: int, offset: int = 0, limit: int | None = PAGE) -> Trail:
+    """Every event of a job: the job, its client, locations, samples, tests, reports and links."""
+    events, total = _read(session, _job_condition(session, job_id), offset, limit)
+    return Trail(events, total, offset, limit or total, labels(session, events))
+
+
+def sample_trail(session: Session, sample_id: int, offset: int = 0, limit: int | None = PAGE) -> Trail:
+    """Every event of a sample and of every revision of every test on it."""
+    events, total = _read(session, _sample_condition(sample_id), offset, limit)
+    return Trail(events, total, offset, limit or total, labels(session, events))
+
+
+def events_of_tests(session: Session, test_ids: list[int]) -> list[AuditEvent]:
+    """The events of these test revisions, in the order they were written (for replay and history)."""
+    if not test_ids:
+        return []
+    events, _ = _read(session, _is("lab_test", test_ids), 0, None)
+    return events
+
+
+def entity_events(session: Session, entity: str, entity_id: int) -> list[AuditEvent]:
+    events, _ = _read(session, _is(entity, [entity_id]), 0, None)
+    return events
+
+
+def recent(session: Session, limit: int = 100) -> list[AuditEvent]:
+    """The newest events of the whole laboratory, newest first."""
+    return list(session.exec(select(AuditEvent).order_by(col(AuditEvent.id).desc()).limit(limit)).all())
+
+
+def jobs(session: Session) -> list[Job]:
+    return list(session.exec(select(Job).order_by(col(Job.code))).all())
