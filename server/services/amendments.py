@@ -32,7 +32,7 @@ def amend(db: Database, actor: User, test_id: int, reason: str, expected_version
     if len(reason) > MAX_REASON:
         raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
     with db.transaction() as s:
-        old = locked_test(s, test_id, expected_version, "amended")
+        old = locked_test(s, test_id, expected_version, "amendment")
         allowed(old, Action.amend, actor.role)
         before = change_status(s, actor, old, Action.amend, expected_version)
         new = LabTest(

@@ -31,7 +31,7 @@ def token_hash(token: str) -> str:
 
 
 def link_state(link: ShareLink, now: datetime) -> str:
-    """"withdrawn", "expired" or "open" at ``now``."""
+    """ "withdrawn", "expired" or "open" at ``now``."""
     if link.revoked_at is not None:
         return "withdrawn"
     if link.expires_at <= now:

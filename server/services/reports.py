@@ -165,8 +165,9 @@ def report_data(
         revision=revision,
         issue_date=issued_at.date(),
         issued_at_iso=_iso(issued_at),
-        approver=Signatory(issuer.full_name, ROLE_TITLES.get(issuer.role, issuer.role), REPORT_MEANING,
-                           _iso(issued_at)),
+        approver=Signatory(
+            issuer.full_name, ROLE_TITLES.get(issuer.role, issuer.role), REPORT_MEANING, _iso(issued_at)
+        ),
         verify_url=f"{base_url.rstrip('/')}/verify?number={number}&revision={revision}",
         tests=tests,
         methods=method_notes(tests),

@@ -76,7 +76,8 @@ def _signer(session: Session, signature: Signature) -> User:
 
 
 def locked_test(session: Session, test_id: int, expected_version: int, verb: str) -> LabTest:
-    """The test, locked for this change, or a conflict that says who acted on it first."""
+    """The test, locked for this change, or a conflict that says who acted on it first.
+    ``verb`` names the refused change in the message ("approval", "return", "amendment")."""
     test = session.get(LabTest, test_id, with_for_update=True)
     if test is None:
         raise NotFound(f"test {test_id} does not exist")
@@ -95,7 +96,7 @@ def allowed(test: LabTest, action: Action, role: str) -> None:
 def stale_message(session: Session, test: LabTest, verb: str) -> str:
     """Why the change was refused, naming the person and time of the change that came first."""
     found = last_event(session, "lab_test", test.id or 0)
-    what = f"this test changed after you opened it and is now {test.status}"
+    what = f"This test changed after you opened it and is now {test.status}"
     if found is not None:
         event, person = found
         who = person.full_name if person else event.actor
@@ -103,7 +104,7 @@ def stale_message(session: Session, test: LabTest, verb: str) -> str:
         if (event.after or {}).get("status") != test.status:
             what += f" and it is now {test.status}"
         what += ", after you opened it"
-    return f"not {verb}: {what}; nothing was changed (reload to see it as it is now)"
+    return f"{what}; your {verb} was not applied and nothing was changed (reload to see it as it is now)"
 
 
 def _approve_one(
@@ -159,7 +160,7 @@ def approve(
     signature = check_signature(db, actor, password, meaning)
     with db.transaction() as s:
         signer = _signer(s, signature)
-        test = locked_test(s, test_id, expected_version, "approved")
+        test = locked_test(s, test_id, expected_version, "approval")
         _approve_one(s, signer, test, expected_version, signature, self_approval_forbidden)
         return test
 
@@ -188,7 +189,7 @@ def approve_batch(
     signature = check_signature(db, actor, password, meaning)
     with db.transaction() as s:
         signer = _signer(s, signature)
-        tests = [locked_test(s, tid, wanted[tid], "approved") for tid in sorted(wanted)]  # fixed lock order
+        tests = [locked_test(s, tid, wanted[tid], "approval") for tid in sorted(wanted)]  # fixed lock order
         flagged = [t.id for t in tests if t.flags]
         if flagged:
             listed = ", ".join(str(i) for i in flagged)
@@ -208,7 +209,7 @@ def return_test(db: Database, actor: User, test_id: int, reason: str, expected_v
     if len(reason) > MAX_REASON:
         raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
     with db.transaction() as s:
-        test = locked_test(s, test_id, expected_version, "returned")
+        test = locked_test(s, test_id, expected_version, "return")
         allowed(test, Action.return_, actor.role)
         before = change_status(s, actor, test, Action.return_, expected_version, return_reason=reason)
         audit.record(

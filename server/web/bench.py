@@ -211,7 +211,8 @@ def result_lines(ev: Evaluation) -> list[Shown]:
         rounding = ROUNDING_OF.get(line.key, line.key)
         text = reported(rounding, value) if _number(value) else str(value)
         u = (spreads or {}).get(line.key)
-        spread = _spread(rounding, u.get("U")) if isinstance(u, dict) and _number(u.get("U")) else ""
+        big_u = u.get("U") if isinstance(u, dict) else None
+        spread = _spread(rounding, big_u) if isinstance(big_u, int | float) else ""
         lines.append(Shown(line.label, text, line.unit, line.key, spread))
     if r.get("nonplastic") is True:
         lines.insert(0, Shown("Plasticity", "NP (non-plastic)", "", "nonplastic"))

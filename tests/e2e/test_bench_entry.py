@@ -140,7 +140,8 @@ def test_a_hydrometer_test_typed_on_a_tablet_survives_a_reload_and_is_handed_in(
 
     page.reload()
     expect_values(page, {**specimen, **first})
-    type_in(page, {f"readings.{i + 3}.{k}": v for i, r in enumerate(example["readings"][3:]) for k, v in r.items()})
+    later = example["readings"][3:]
+    type_in(page, {f"readings.{i + 3}.{k}": v for i, r in enumerate(later) for k, v in r.items()})
     wait_until_saved(page)
     expect(page.locator("#res-clay_fraction")).to_contain_text(expected)
     expect(page.locator("#out-readings-0")).to_contain_text("Diameter")

@@ -16,7 +16,14 @@ from tests.support.scenario import small_job
 
 DET = "water_content.determinations.0"
 # Masses of the scenario's natural water content N1 (ASTM D2216 formula: w = 30.0 %)
-TYPED = {f"{DET}.container": "N1", f"{DET}.tare_g": "10.0", f"{DET}.wet_tare_g": "36.0", f"{DET}.dry_tare_g": "30.0"}
+TYPED = {
+    f"{DET}.container": "N1",
+    f"{DET}.tare_g": "10.0",
+    f"{DET}.wet_tare_g": "36.0",
+    f"{DET}.dry_tare_g": "30.0",
+}
+MASSES = {"container": "N1", "tare_g": 10, "wet_tare_g": 36, "dry_tare_g": 30}
+STORED = {"water_content": {"determinations": [MASSES]}}
 
 
 def _readings(db: Database, test_id: int) -> dict[str, object]:
@@ -43,9 +50,7 @@ def test_values_typed_without_a_connection_are_kept_and_sent_when_it_returns(
     page.context.set_offline(False)
     wait_until_saved(page)
     expect(banner).to_be_hidden()
-    assert _readings(live_db, job.test_id) == {
-        "water_content": {"determinations": [{"container": "N1", "tare_g": 10, "wet_tare_g": 36, "dry_tare_g": 30}]}
-    }
+    assert _readings(live_db, job.test_id) == STORED
     page.reload()
     expect_values(page, TYPED)
     expect(page.locator("#res-water_content")).to_contain_text("30.0")
@@ -67,9 +72,7 @@ def test_values_typed_offline_in_a_tab_that_was_closed_come_back_when_it_is_open
     again.goto(f"/tests/{job.test_id}")
     expect_values(again, TYPED)  # put back from this tablet's storage
     wait_until_saved(again)
-    assert _readings(live_db, job.test_id) == {
-        "water_content": {"determinations": [{"container": "N1", "tare_g": 10, "wet_tare_g": 36, "dry_tare_g": 30}]}
-    }
+    assert _readings(live_db, job.test_id) == STORED
 
 
 def test_two_tablets_on_one_field_get_the_conflict_message_with_both_values(

@@ -44,7 +44,8 @@ def test_every_bench_page_fits_a_tablet_both_ways_and_passes_axe(
         assert horizontal_overflow(page) == 0, test.method
         small = [t for t in page.evaluate(TARGETS) if t[1] < MIN_TARGET_PX or t[2] < MIN_TARGET_PX]
         assert not small, (test.method, small)
-        numbers = page.locator("#sheet input[inputmode=decimal]:visible, #sheet input[inputmode=numeric]:visible")
+        keypad = "#sheet input[inputmode=decimal]:visible, #sheet input[inputmode=numeric]:visible"
+        numbers = page.locator(keypad)
         assert numbers.count() > 0, test.method  # a numeric keypad for the numbers
         found = serious_violations(page)
         assert not found, f"{test.method}: {describe(found)}"

@@ -294,8 +294,8 @@ def test_shows_the_signature_time_in_utc_or_with_its_offset() -> None:
 
 
 def test_summary_takes_uscs_and_aashto_from_the_classification_and_clay_from_the_grading() -> None:
-    limits = entry({"liquid_limit": 38.0, "plastic_limit": 19.0, "plasticity_index": 19.0, "clay_fraction": 31.0,
-                    "activity": 0.6129, "uscs_symbol": "CL"})
+    limits = entry({"liquid_limit": 38.0, "plastic_limit": 19.0, "plasticity_index": 19.0,
+                    "clay_fraction": 31.0, "activity": 0.6129, "uscs_symbol": "CL"})
     grading = entry({"clay_fraction": 24.06, "fines": 78.0}, method="grading")
     classified = entry({"uscs_symbol": "CL", "uscs_name": "Lean clay with sand", "aashto_group": "A-6",
                         "group_index": 14}, method="classification")
@@ -311,15 +311,16 @@ def test_grading_points_prefer_the_combined_curve_largest_size_first() -> None:
                            {"size_mm": 2.0, "percent_passing": 60.0, "source": "sieve"}],
     }
     assert grading_points(results) == [(2.0, 60.0), (0.002, 9.0)]
-    hydro = {"hydrometer_points": [{"diameter_mm": 0.03, "percent_finer": 45.0}, {"diameter_mm": 0.0, "percent_finer": 1}]}
+    hydro = {"hydrometer_points": [{"diameter_mm": 0.03, "percent_finer": 45.0},
+                                   {"diameter_mm": 0.0, "percent_finer": 1}]}
     assert grading_points(hydro) == [(0.03, 45.0)]  # a size of zero cannot sit on a log axis
 
 
 def test_view_has_a_depth_profile_per_location_and_grading_and_activity_charts() -> None:
     a = entry({"water_content": 24.0, "liquid_limit": 38.0, "plastic_limit": 19.0, "plasticity_index": 19.0,
                "clay_fraction": 24.0}, location="BH1")
-    g = entry({"combined_curve": [{"size_mm": 2.0, "percent_passing": 90.0},
-                                  {"size_mm": 0.002, "percent_passing": 24.0}]}, location="BH1", method="grading")
+    curve = [{"size_mm": 2.0, "percent_passing": 90.0}, {"size_mm": 0.002, "percent_passing": 24.0}]
+    g = entry({"combined_curve": curve}, location="BH1", method="grading")
     b = entry({"water_content": 30.0, "liquid_limit": 50.0, "plastic_limit": 25.0, "plasticity_index": 25.0},
               location="BH2", sample="S2")
     view = build_view(report(a, g, b))

@@ -28,7 +28,7 @@ from server.reports.context import (
     TestEntry,
     content_fingerprint,
 )
-from server.reports.pdf import render_report_html, render_report_pdf
+from server.reports.pdf import check_url, qr_svg, render_report_html, render_report_pdf
 
 UNTRUSTED = "<script>alert(1)</script> & <b>"
 
@@ -338,3 +338,21 @@ def test_summary_page_is_landscape(pdf_bytes: bytes) -> None:
         pytest.fail("no summary page")
     first = reader.pages[0].mediabox
     assert round(float(first.width)) == 595 and round(float(first.height)) == 842  # A4 portrait (ISO 216)
+
+
+def test_the_qr_code_holds_the_verify_address_with_the_content_fingerprint(report: ReportData) -> None:
+    fp = content_fingerprint(report)
+    assert check_url(report, fp) == f"{report.verify_url}?sha256={fp}"
+    html = render_report_html(report)
+    assert qr_svg(check_url(report, fp)) in html  # segno draws the same code for the same text
+
+
+def test_says_plainly_that_pages_print_the_content_fingerprint_not_the_file_hash(pages: list[str]) -> None:
+    text = " ".join(" ".join(pages).split())
+    assert "A file cannot print the SHA-256 of its own bytes" in text
+    assert "SHA-256 of this report's content (not of the PDF file)" in text
+
+
+def test_a_preview_is_marked_on_every_page_and_an_issued_report_is_not(report: ReportData) -> None:
+    assert "PREVIEW — NOT ISSUED" in render_report_html(report, preview=True)
+    assert "PREVIEW" not in render_report_html(report)

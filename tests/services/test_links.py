@@ -107,8 +107,11 @@ def test_lists_every_link_that_opens_a_job_with_its_state_and_use(db: Database, 
         "old": ("withdrawn", "this job", 1),
         "expired": ("expired", "this job", 0),
     }
-    assert [(a.outcome, label) for a, label in found.log] == [("revoked", "old"), ("ok", "designer"),
-                                                             ("ok", "designer")]
+    assert [(a.outcome, label) for a, label in found.log] == [
+        ("revoked", "old"),
+        ("ok", "designer"),
+        ("ok", "designer"),
+    ]
     assert whole.link.job_id is None
 
 

@@ -110,8 +110,11 @@ def test_a_late_second_reviewer_is_told_who_acted_first(db: Database, people: Pe
     with pytest.raises(Conflict) as refused:
         review.return_test(db, people.review2, test_id, "too late", version_seen)
     message = str(refused.value)
-    assert message.startswith("not returned: Review Person approved this test at ")
-    assert message.endswith(" UTC, after you opened it; nothing was changed (reload to see it as it is now)")
+    assert message.startswith("Review Person approved this test at ")
+    assert message.endswith(
+        " UTC, after you opened it; your return was not applied and nothing was changed"
+        " (reload to see it as it is now)"
+    )
 
 
 # -- batch approval ------------------------------------------------------------------------------

@@ -78,7 +78,7 @@ def test_preview_shows_each_water_content_beside_its_row(
     out = r'id="out-plastic_limit-determinations-1" hx-swap-oob="true">(.*?)</div>'
     row = re.search(out, reply.text, re.S)
     assert row and "<b>21.5</b>" in row.group(1)  # Liu & Evett
-    assert re.search(r'id="res-liquid_limit"><dt>Liquid limit LL</dt><dd><b>40</b>', reply.text)  # Das: 40
+    assert re.search(r'id="res-liquid_limit"><dt>Liquid limit LL</dt><dd><b>40 %</b>', reply.text)  # Das: 40
     assert "<svg" in reply.text and "Flow curve" in reply.text
     assert _stored(db, job.test_id).readings is None  # preview stores nothing
 

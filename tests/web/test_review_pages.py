@@ -12,7 +12,7 @@ import pytest
 from fastapi.testclient import TestClient
 
 from server.db.session import Database
-from server.services import amendments, bench, reports
+from server.services import amendments, bench, reports, review
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
 from tests.support.scenario import ATTERBERG
@@ -198,7 +198,9 @@ def test_the_second_of_two_reviewers_gets_a_conflict_that_names_the_first(
     )
     assert second.status_code == 409
     assert re.search(
-        r"Not approved: not approved: Review Person approved this test at [^;]+; nothing", second.text
+        r"Not approved: Review Person approved this test at [^;]+, after you opened it; "
+        r"your approval was not applied",
+        second.text,
     )
     assert load(db, test_id).approved_by_id == people.review.id
 
@@ -266,3 +268,13 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
     assert full.template.name == "pages/reissue.html" and "<html" in full.text  # type: ignore[attr-defined]
     review_page = app_client.get(f"/review/{first}")
     assert [r.report.id for r in review_page.context["reissue"]] == [report.id]  # type: ignore[attr-defined]
+    # Once the amended revision is approved, the note offers the re-issue; after it, the note is gone.
+    second = review_page.context["later"].id  # type: ignore[attr-defined]
+    bench.submit(db, people.tech, second, version(db, second))
+    assert f'action="/reports/{report.id}/reissue"' not in app_client.get(fragment).text
+    review.approve(db, people.review, second, PASSWORDS["review"], version(db, second))
+    ready = app_client.get(fragment)
+    assert "Ready to re-issue" in ready.text and f'action="/reports/{report.id}/reissue"' in ready.text
+    done = post_form(app_client, fragment, f"/reports/{report.id}/reissue", {}, follow_redirects=False)
+    assert done.status_code == 303
+    assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]

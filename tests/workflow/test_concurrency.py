@@ -68,8 +68,11 @@ def test_two_reviewers_approving_at_once_give_one_approval_and_one_conflict_nami
     assert (test.status, test.version) == ("approved", seen + 1)
     assert len(_events(db, test_id, "approve")) == 1
     message = str(refused[0])
-    assert message.startswith(f"not approved: {winner.full_name} approved this test at ")
-    assert message.endswith("after you opened it; nothing was changed (reload to see it as it is now)")
+    assert message.startswith(f"{winner.full_name} approved this test at ")
+    assert message.endswith(
+        "after you opened it; your approval was not applied and nothing was changed"
+        " (reload to see it as it is now)"
+    )
 
 
 def test_an_approval_and_a_return_at_once_give_one_outcome_and_one_conflict(
