@@ -342,6 +342,26 @@ RESULT_LABELS: tuple[tuple[str, str, str], ...] = (
     ("sensitivity", "Sensitivity, St", ""),
     ("undrained_strength_kpa", "Undrained shear strength, cu", "kPa"),
 )
+# Labels and units of further result keys (grading, strength, classification detail).
+_OTHER_LABELS: dict[str, tuple[str, str]] = {
+    "gravel": ("Gravel, 4.75 to 75 mm", "%"),
+    "sand": ("Sand, 0.075 to 4.75 mm", "%"),
+    "fines": ("Fines, < 0.075 mm", "%"),
+    "silt": ("Silt, 0.002 to 0.075 mm", "%"),
+    "clay": ("Clay, < 0.002 mm", "%"),
+    "percent_passing_2mm": ("Passing 2 mm", "%"),
+    "percent_passing_0_425mm": ("Passing 0.425 mm", "%"),
+    "sieve_mass_loss_pct": ("Sieve mass loss", "%"),
+    "cu": ("Coefficient of uniformity, Cu", ""),
+    "cc": ("Coefficient of curvature, Cc", ""),
+    "uscs_borderline": ("USCS borderline symbol", ""),
+    "remoulded_strength_kpa": ("Remoulded undrained strength, cu,r", "kPa"),
+    "unconfined_strength_kpa": ("Unconfined compressive strength, qu", "kPa"),
+    "remoulded_unconfined_strength_kpa": ("Remoulded unconfined strength, qu,r", "kPa"),
+    "strain_at_failure_pct": ("Strain at failure", "%"),
+    "remoulded_strain_at_failure_pct": ("Remoulded strain at failure", "%"),
+    "sensitivity_class": ("Sensitivity class (Skempton & Northey 1952)", ""),
+}
 _NP_KEYS = ("liquid_limit", "plastic_limit", "plasticity_index")
 _NOT_SHOWN = {
     "interpretation", "plasticity_chart", "flow_curve", "nonplastic", "uncertainty", "uscs_symbol",
@@ -564,7 +584,8 @@ def result_lines(results: Mapping[str, Any]) -> tuple[ResultLine, ...]:
             continue
         if isinstance(value, Mapping | list | tuple) or value is None:
             continue
-        lines.append(ResultLine(humanise(key), show(key, value)))
+        label, unit = _OTHER_LABELS.get(key, (humanise(key), ""))
+        lines.append(ResultLine(label, show(key, value), unit, u_text(key)))
     return tuple(lines)
 
 

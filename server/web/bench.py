@@ -93,6 +93,7 @@ class SectionView:
     rows: list[SheetRow]
     hidden: bool = False
     error: str | None = None  # a refusal of the whole table ("at least 3 trials")
+    error_kind: str = ""  # "invalid" (entered wrong) or "missing" (still to enter)
 
     @property
     def can_add(self) -> bool:
@@ -171,8 +172,11 @@ def sheet_view(method: str, readings: dict[str, Any], ev: Evaluation) -> list[Se
             outputs = [s for s in (_output(ev, readings, section, i, o) for o in section.outputs) if s]
             spare = i >= max(section.rows, len(typed) if isinstance(typed, list) else 0)
             rows.append(SheetRow(i, i + 1, cells, outputs, _row_flags(ev, section.noun, i + 1), spare))
-        whole = errors_by_path(ev.errors).get(section.path)
-        views.append(SectionView(section, "rows", f"part-{n}", rows, hidden, whole))
+        whole = next((e for e in ev.errors if dotted(e.loc) == section.path), None)
+        views.append(
+            SectionView(section, "rows", f"part-{n}", rows, hidden,
+                        whole.message if whole else None, whole.kind if whole else "")
+        )
     return views
 
 
