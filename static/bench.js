@@ -472,3 +472,55 @@
   paint();
   if (Object.keys(pending).length) schedulePreview(0);
 })();
+
+// Registers at the bench: a tin number fills its empty mass, an instrument number its calibration
+// due date and state, both from the laboratory's registers (server/web/registers.py).
+(function () {
+  "use strict";
+  var form = document.getElementById("sheet");
+  if (!form || !form.dataset.test) return;
+
+  function field(name) { return form.querySelector('[name="' + name + '"]'); }
+  function say(input, text) {
+    var slot = input.parentNode.querySelector(".register-note");
+    if (!slot) {
+      slot = document.createElement("span");
+      slot.className = "register-note";
+      slot.setAttribute("role", "status");
+      input.parentNode.appendChild(slot);
+    }
+    slot.textContent = text;
+  }
+  function fill(target, value) {
+    if (!target || target.value === String(value)) return;
+    target.value = value;
+    target.dispatchEvent(new Event("input", { bubbles: true }));
+  }
+  function lookUp(url, input, done) {
+    fetch(url, { headers: { Accept: "application/json" }, credentials: "same-origin" })
+      .then(function (res) {
+        return res.json().then(function (body) { return { ok: res.ok, body: body }; });
+      })
+      .then(function (r) { if (r.ok) done(r.body); else say(input, "✖ " + (r.body.detail || "not in the register")); },
+            function () { say(input, "no connection: type the value from the tin or the label"); });
+  }
+  form.addEventListener("change", function (ev) {
+    var el = ev.target;
+    var name = el.name || "";
+    var code = el.value.trim();
+    if (!code) return;
+    var base = name.slice(0, name.lastIndexOf("."));
+    if (/\.container$/.test(name)) {
+      lookUp("/registers/containers/" + encodeURIComponent(code), el, function (tin) {
+        fill(field(base + ".tare_g"), tin.tare_g);
+        say(el, tin.active ? "✔ tare " + tin.tare_g + " g from the register" : "⚠ tin taken out of use");
+      });
+    } else if (/^r\.(.+\.)?equipment\.\d+\.id$/.test(name)) {
+      lookUp("/registers/equipment/" + encodeURIComponent(code), el, function (item) {
+        fill(field(base + ".calibration_due"), item.calibration_due || "");
+        var mark = item.state === "past due" ? "✖ " : item.state === "in calibration" ? "✔ " : "⚠ ";
+        say(el, mark + item.state + (item.calibration_due ? " (due " + item.calibration_due + ")" : ""));
+      });
+    }
+  });
+})();

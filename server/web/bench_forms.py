@@ -303,7 +303,26 @@ def _cone_drops(specimen: str, title: str) -> Values:
     )
 
 
-SHEETS: dict[str, tuple[Section, ...]] = {
+# Every sheet ends with the test date and the instruments used. The bench fills each tin's empty
+# mass and each instrument's calibration due date from the registers (static/bench.js); the engine
+# flags an instrument used after its due date (server/engine/equipment.py).
+CONDITIONS: tuple[Section, ...] = (
+    Values("Test date", (Input("tested_on", "Date tested", kind="text", hint="YYYY-MM-DD"),)),
+    Rows(
+        "equipment",
+        "Instruments used",
+        "instrument",
+        (
+            Input("id", "Instrument no.", kind="text"),
+            Input("calibration_due", "Calibration due", kind="text", hint="from the register"),
+        ),
+        2,
+        8,
+        note="Type an instrument's number: its calibration state comes from the register.",
+    ),
+)
+
+_SHEETS: dict[str, tuple[Section, ...]] = {
     "water-content": (
         _masses_rows("determinations", "Determinations", 2, 8, "water_content_determinations"),
     ),
@@ -427,6 +446,9 @@ SHEETS: dict[str, tuple[Section, ...]] = {
             note="Needed for a coarse soil with 12 % fines or less: D10, D30, D60, or Cu and Cc.",
         ),
     ),
+}
+SHEETS: dict[str, tuple[Section, ...]] = {
+    method: (*sections, *CONDITIONS) for method, sections in _SHEETS.items()
 }
 
 # The results panel, in this order, each shown when the engine gave it.

@@ -61,7 +61,7 @@ def test_a_path_the_sheet_does_not_have_is_no_input() -> None:
     assert input_at("atterberg", "liquid_limit.trials.0.blows") is not None
     assert input_at("atterberg", "liquid_limit.trials.8.blows") is None  # beyond the 8 rows it allows
     assert input_at("atterberg", "liquid_limit.trials.x.blows") is None
-    assert input_at("atterberg", "equipment.0.id") is None
+    assert input_at("atterberg", "liquid_limit.equipment.0.id") is None  # instruments are listed once, at the top
     assert input_at("no-such-method", "fines") is None
 
 
@@ -108,3 +108,10 @@ def test_the_atterberg_sheet_asks_for_blows_with_the_cup_and_drops_with_the_cone
         "ll-cup-one-point",
         "ll-cone",
     }
+
+
+def test_every_sheet_asks_for_the_test_date_and_the_instruments_used() -> None:
+    for method in SHEETS:
+        assert input_at(method, "tested_on") is not None, method
+        assert input_at(method, "equipment.0.id") is not None, method
+        assert input_at(method, "equipment.0.calibration_due") is not None, method

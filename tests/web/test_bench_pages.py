@@ -129,9 +129,29 @@ def test_a_path_that_is_not_on_the_sheet_is_refused(
 ) -> None:
     job = small_job(db, people.admin)
     sign_in(app_client, "tech", PASSWORDS["tech"])
-    changes = [{"path": "equipment.0.id", "value": "BAL-1", "base": ""}]
+    changes = [{"path": "liquid_limit.balance.resolution_g", "value": "0.01", "base": ""}]
     reply = _save_fields(app_client, job.test_id, changes)
     assert reply.status_code == 422 and _stored(db, job.test_id).readings is None
+
+
+def test_an_instrument_typed_at_the_bench_is_saved_and_flagged_when_past_due(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    job = small_job(db, people.admin)
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+    changes = [
+        {"path": "tested_on", "value": "2026-12-01", "base": ""},
+        {"path": "equipment.0.id", "value": "BAL-1", "base": ""},
+        {"path": "equipment.0.calibration_due", "value": "2026-11-30", "base": ""},
+    ]
+    reply = _save_fields(app_client, job.test_id, changes)
+    assert reply.status_code == 200, reply.text
+    stored = _stored(db, job.test_id)
+    assert stored.readings is not None and stored.readings["equipment"] == [
+        {"id": "BAL-1", "calibration_due": "2026-11-30"}
+    ]
+    # due 30 November, used 1 December: past due (common practice: valid up to and including the due date)
+    assert "equipment-calibration-expired" in [f["code"] for f in stored.flags or []]
 
 
 def test_the_hand_in_of_an_autosaved_sheet_submits_the_stored_draft(
