@@ -61,7 +61,8 @@ def test_a_path_the_sheet_does_not_have_is_no_input() -> None:
     assert input_at("atterberg", "liquid_limit.trials.0.blows") is not None
     assert input_at("atterberg", "liquid_limit.trials.8.blows") is None  # beyond the 8 rows it allows
     assert input_at("atterberg", "liquid_limit.trials.x.blows") is None
-    assert input_at("atterberg", "liquid_limit.equipment.0.id") is None  # instruments are listed once, at the top
+    # instruments are listed once, at the top of the readings
+    assert input_at("atterberg", "liquid_limit.equipment.0.id") is None
     assert input_at("no-such-method", "fines") is None
 
 
