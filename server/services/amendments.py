@@ -19,18 +19,13 @@ from server.db.session import Database
 from server.db.tables import LabTest, User
 from server.services import audit
 from server.services.bench import change_status
-from server.services.errors import invalid
-from server.services.review import MAX_REASON, allowed, locked_test
+from server.services.review import allowed, locked_test, required_reason
 from server.workflow.states import AMENDED_REVISION_STARTS, Action
 
 
 def amend(db: Database, actor: User, test_id: int, reason: str, expected_version: int) -> LabTest:
     """Open the next revision of an approved test; returns the new revision (a draft)."""
-    reason = reason.strip()
-    if not reason:
-        raise invalid("reason", "a reason is required to amend an approved test")
-    if len(reason) > MAX_REASON:
-        raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
+    reason = required_reason(reason, "amend an approved test")
     with db.transaction() as s:
         old = locked_test(s, test_id, expected_version, "amendment")
         allowed(old, Action.amend, actor.role)

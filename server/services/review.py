@@ -201,13 +201,19 @@ def approve_batch(
         return tests
 
 
-def return_test(db: Database, actor: User, test_id: int, reason: str, expected_version: int) -> LabTest:
-    """Send a submitted test back to the bench; the reason is required and shown there."""
+def required_reason(reason: str, doing: str) -> str:
+    """The reason a person gives for a change that needs one: present and of bounded length."""
     reason = reason.strip()
     if not reason:
-        raise invalid("reason", "a reason is required to return a test")
+        raise invalid("reason", f"a reason is required to {doing}")
     if len(reason) > MAX_REASON:
         raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
+    return reason
+
+
+def return_test(db: Database, actor: User, test_id: int, reason: str, expected_version: int) -> LabTest:
+    """Send a submitted test back to the bench; the reason is required and shown there."""
+    reason = required_reason(reason, "return a test")
     with db.transaction() as s:
         test = locked_test(s, test_id, expected_version, "return")
         allowed(test, Action.return_, actor.role)
