@@ -88,7 +88,7 @@ class Desk:
                 review.return_test(self.db, person, test_id, "re-weigh tin", seen).id or 0
             ),
             Action.amend: lambda: (
-                amendments.amend(self.db, person, test_id, "transcription error", seen).id or 0
+                amendments.amend(self.db, person, test_id, "copying error on the sheet", seen).id or 0
             ),
         }
         return do[action]()
