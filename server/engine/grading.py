@@ -69,6 +69,10 @@ def size_at_percent(curve: Curve, percent: float) -> float | None:
             if p_lo == percent:
                 return d_lo
             continue
+        if percent == p_lo:  # exactly on a point: its own size, not a rounded exp(log(size))
+            return d_lo
+        if percent == p_hi:
+            return d_hi
         if min(p_lo, p_hi) <= percent <= max(p_lo, p_hi):
             s = (percent - p_lo) / (p_hi - p_lo)
             d = math.exp(math.log(d_lo) + s * (math.log(d_hi) - math.log(d_lo)))

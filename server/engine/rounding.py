@@ -41,7 +41,11 @@ DECIMALS: dict[str, int] = {
     # strength: kPa to 0.1, strain to 0.1 % (common practice)
     "remoulded_strength_kpa": 1,
     "unconfined_strength_kpa": 1,
+    "remoulded_unconfined_strength_kpa": 1,
     "strain_at_failure_pct": 1,
+    "undisturbed_penetration_mm": 1,
+    "remoulded_penetration_mm": 1,
+    "sieve_mass_loss_pct": 1,
     # Atterberg detail: each determination to 0.1 % like the water content (ASTM D2216 Method B),
     # blow counts whole, cone penetrations to 0.1 mm (BS 1377-2:1990 cl. 4.3 dial reading),
     # r2 to 0.001; indicative correlations to the precision their sources quote (common practice)

@@ -32,7 +32,6 @@ from server.services.readings_paths import same, value_at
 from server.web.bench_charts import charts_for
 from server.web.bench_forms import (
     RESULT_LINES,
-    ROUNDING_OF,
     SHEETS,
     Input,
     Output,
@@ -212,11 +211,10 @@ def result_lines(ev: Evaluation) -> list[Shown]:
         value = r.get(line.key)
         if value is None or isinstance(value, bool | list | dict):
             continue
-        rounding = ROUNDING_OF.get(line.key, line.key)
-        text = reported(rounding, value) if _number(value) else str(value)
+        text = reported(line.key, value) if _number(value) else str(value)
         u = (spreads or {}).get(line.key)
         big_u = u.get("U") if isinstance(u, dict) else None
-        spread = _spread(rounding, big_u) if isinstance(big_u, int | float) else ""
+        spread = _spread(line.key, big_u) if isinstance(big_u, int | float) else ""
         lines.append(Shown(line.label, text, line.unit, line.key, spread))
     if r.get("nonplastic") is True:
         lines.insert(0, Shown("Plasticity", "NP (non-plastic)", "", "nonplastic"))

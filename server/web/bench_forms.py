@@ -163,13 +163,29 @@ def _masses_rows(path: str, title: str, rows: int, max_rows: int, result_key: st
 
 
 def _cup_rows(path: str, *, rows: int, max_rows: int, outputs: tuple[Output, ...]) -> Rows:
-    return Rows(path, "Trials", "trial", (BLOWS, *MASSES), rows, max_rows, outputs,
-                note="Blows to close the groove, then the water content specimen of each trial.")
+    return Rows(
+        path,
+        "Trials",
+        "trial",
+        (BLOWS, *MASSES),
+        rows,
+        max_rows,
+        outputs,
+        note="Blows to close the groove, then the water content specimen of each trial.",
+    )
 
 
 def _cone_rows(path: str) -> Rows:
-    return Rows(path, "Trials", "trial", (*DROPS, *MASSES), 4, 8, (MEAN_DROP, TRIAL_WATER),
-                note="Two cone drops per trial; a third when they differ by 0.5 to 1 mm.")
+    return Rows(
+        path,
+        "Trials",
+        "trial",
+        (*DROPS, *MASSES),
+        4,
+        8,
+        (MEAN_DROP, TRIAL_WATER),
+        note="Two cone drops per trial; a third when they differ by 0.5 to 1 mm.",
+    )
 
 
 def _atterberg_ll() -> tuple[Section, ...]:
@@ -227,9 +243,15 @@ def _sieve(prefix: str = "") -> tuple[Section, ...]:
 
 
 def _hydrometer(prefix: str = "", *, combined: bool = False) -> tuple[Section, ...]:
-    own = () if combined else (
-        Input(f"{prefix}separation_passing_pct", "Passing the separation sieve", "%", hint="default 100 %"),
-        Input(f"{prefix}passing_75um_pct", "Passing 75 µm", "%", hint="optional: gives the silt"),
+    own = (
+        ()
+        if combined
+        else (
+            Input(
+                f"{prefix}separation_passing_pct", "Passing the separation sieve", "%", hint="default 100 %"
+            ),
+            Input(f"{prefix}passing_75um_pct", "Passing 75 µm", "%", hint="optional: gives the silt"),
+        )
     )
     point = "hydrometer_points"
     return (
@@ -238,8 +260,12 @@ def _hydrometer(prefix: str = "", *, combined: bool = False) -> tuple[Section, .
             (
                 Input(f"{prefix}dry_mass_g", "Dry mass of the specimen", "g"),
                 Input(f"{prefix}specific_gravity", "Specific gravity of the solids, Gs"),
-                Input(f"{prefix}hydrometer.type", "Hydrometer", kind="choice",
-                      options=(Option("152H", "152H (g/L)"),)),
+                Input(
+                    f"{prefix}hydrometer.type",
+                    "Hydrometer",
+                    kind="choice",
+                    options=(Option("152H", "152H (g/L)"),),
+                ),
                 Input(f"{prefix}hydrometer.id", "Hydrometer id", kind="text", hint="optional"),
                 Input(f"{prefix}meniscus_correction", "Meniscus correction", "g/L"),
                 Input(f"{prefix}separation_sieve_mm", "Separation sieve", "mm", hint="default 2 mm"),
@@ -487,13 +513,6 @@ RESULT_LINES: tuple[ResultLine, ...] = (
     ResultLine("sensitivity", "Sensitivity St"),
     ResultLine("sensitivity_class", "Sensitivity"),
 )
-# The rounding rule of a result key that has none of its own in ``engine.rounding``.
-ROUNDING_OF = {
-    "remoulded_unconfined_strength_kpa": "unconfined_strength_kpa",
-    "undisturbed_penetration_mm": "penetration_mm",
-    "remoulded_penetration_mm": "penetration_mm",
-    "sieve_mass_loss_pct": "water_content",
-}
 
 
 def input_at(method: str, path: str) -> Input | None:
