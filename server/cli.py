@@ -1,4 +1,4 @@
-"""The ``claybench`` command: serve, demo, migrate, create-user, calc."""
+"""The ``claybench`` command: serve, demo, migrate, create-user, calc, import."""
 
 from __future__ import annotations
 
@@ -89,6 +89,45 @@ def cmd_calc(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_import(args: argparse.Namespace) -> int:
+    """A sample schedule into a job (DESIGN.md section 7): the outcome as JSON, or exit 2 with
+    every refused cell as JSON and nothing stored."""
+    from pathlib import Path
+
+    from server.db.session import Database
+    from server.exchange.schedule import CellError, Origin
+    from server.services.errors import ServiceError
+    from server.services.imports import ImportRefused, Target, import_schedule, read_schedule
+    from server.services.users import user_named
+
+    path = Path(args.file)
+    db = Database(get_settings().database_url)
+    try:
+        try:
+            data = path.read_bytes()
+        except OSError as exc:
+            raise ImportRefused(
+                [CellError(Origin(row=None), "file", f"cannot read {path}: {exc.strerror}")]
+            ) from exc
+        actor = user_named(db, args.user) if args.user else None
+        schedule = read_schedule(path.name, data)
+        target = Target(args.job or "", args.client or "", args.title or "", args.site or "")
+        plan = import_schedule(db, actor, schedule, target, dry_run=args.dry_run, source=path.name)
+    except ImportRefused as exc:
+        json.dump(exc.to_dict(), sys.stdout, indent=2)
+        print()
+        return 2
+    except ServiceError as exc:
+        json.dump({"errors": [{"row": None, "column": "user", "message": str(exc)}]}, sys.stdout, indent=2)
+        print()
+        return 2
+    finally:
+        db.dispose()
+    json.dump(plan.outcome(args.dry_run), sys.stdout, indent=2)
+    print()
+    return 0
+
+
 def cmd_demo(args: argparse.Namespace) -> int:
     from server.demo import load_demo
 
@@ -131,6 +170,16 @@ def parser() -> argparse.ArgumentParser:
     c = sub.add_parser("calc", help="compute a method's results: request JSON on stdin or in FILE")
     c.add_argument("file", nargs="?")
     c.set_defaults(fn=cmd_calc)
+
+    i = sub.add_parser("import", help="import a sample schedule (.csv, .xlsx or .ags) into a job")
+    i.add_argument("file")
+    i.add_argument("--job", help="the job number (for AGS4, the file's PROJ_ID)")
+    i.add_argument("--client", help="the client, when the job is created by this import")
+    i.add_argument("--title", help="the job's title, when the job is created by this import")
+    i.add_argument("--site", help="the job's site, when the job is created by this import")
+    i.add_argument("--dry-run", action="store_true", help="check and count only; store nothing")
+    i.add_argument("--user", help="the username the audit trail records (default: system)")
+    i.set_defaults(fn=cmd_import)
     return p
 
 

@@ -23,7 +23,7 @@ from server.db.session import Database
 from server.db.tables import User
 from server.demo_report import add_report_tests
 from server.engine import METHODS
-from server.services import bench, jobs, links, registers, reports, review
+from server.services import bench, jobs, links, registers, reports, review, samples
 from server.services.users import create_user
 
 LOGINS = (
@@ -245,9 +245,9 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         due_date=date.today() + timedelta(days=14),
     )
     for (code, kind), soils in LOCATIONS.items():
-        location = jobs.add_location(db, admin, job.id or 0, code, kind)
+        location = samples.add_location(db, admin, job.id or 0, code, kind)
         for soil in soils:
-            sample = jobs.add_sample(
+            sample = samples.add_sample(
                 db, admin, location.id or 0, soil.code, *soil.depth, soil.sample_type, soil.description
             )
             (test,) = jobs.request_tests(db, admin, [sample.id or 0], ["atterberg"], assigned_to_id=tech.id)
@@ -319,8 +319,8 @@ def _every_bench_page(db: Database, job_id: int, admin: User, tech: User) -> Non
     """A bulk sample from a fourth pit with a test of every other method: most requested, the
     fall-cone liquid limit and the sieving part-typed (drafts), so that every bench page opens."""
     rng = random.Random(7)
-    location = jobs.add_location(db, admin, job_id, "TP04", "trial pit")
-    sample = jobs.add_sample(
+    location = samples.add_location(db, admin, job_id, "TP04", "trial pit")
+    sample = samples.add_sample(
         db, admin, location.id or 0, "TP04-B1", 1.00, 1.40, "bulk", "Brown slightly gravelly sandy CLAY"
     )
     methods = [m for m in sorted(METHODS) if m != "atterberg"]

@@ -22,7 +22,11 @@ from server.web import (
     bench,
     client,
     home,
+    imports,
+    intake,
+    job_page,
     jobs,
+    receipt,
     registers,
     reports,
     requests,
@@ -55,6 +59,10 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     app.include_router(api_calculations.router)
     for module in (
         signin,
+        intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}
+        job_page,
+        receipt,
+        imports,
         jobs,
         bench,
         review,

@@ -7,7 +7,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import func, update
+from sqlalchemy import update
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
@@ -87,30 +87,6 @@ def current_tests(session: Session, job_id: int) -> list[TestRow]:
         col(LabTest.status) != "superseded",
         order=(col(Location.code), col(Sample.depth_from_m), col(LabTest.method)),
     )
-
-
-def jobs_with_counts(session: Session) -> list[tuple[Job, str, int, int]]:
-    """Jobs with client name, number of samples and of issued reports (two queries)."""
-    samples = (
-        select(Location.job_id, func.count(col(Sample.id)).label("n"))
-        .join(Sample, col(Sample.location_id) == Location.id)
-        .group_by(col(Location.job_id))
-        .subquery()
-    )
-    reports = (
-        select(Report.job_id, func.count(col(Report.id)).label("n"))
-        .where(Report.status == "issued")
-        .group_by(col(Report.job_id))
-        .subquery()
-    )
-    stmt = (
-        select(Job, Client.name, func.coalesce(samples.c.n, 0), func.coalesce(reports.c.n, 0))
-        .join(Client, col(Client.id) == Job.client_id)
-        .outerjoin(samples, samples.c.job_id == Job.id)
-        .outerjoin(reports, reports.c.job_id == Job.id)
-        .order_by(col(Job.code))
-    )
-    return [(j, c, int(s), int(r)) for j, c, s, r in session.exec(stmt).all()]
 
 
 def users_by_id(session: Session, ids: Iterable[int | None]) -> dict[int, User]:

@@ -423,7 +423,7 @@ def turnaround(session: Session, today: date, *, job_id: int | None = None) -> l
         by_job.setdefault(r.job.id or 0, []).append(
             TestTimes(
                 row=r,
-                received=r.sample.received_at,
+                received=r.sample.received_at or r.job.received_at,  # a sample not yet receipted: the job's
                 submitted=r.test.submitted_at,
                 approved=r.test.approved_at,
                 issued=issued_at,

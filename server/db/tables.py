@@ -103,25 +103,37 @@ class Equipment(SQLModel, table=True):
 
 
 class Client(SQLModel, table=True):
+    """Whoever orders the work and receives the reports."""
+
     id: int | None = Field(default=None, primary_key=True)
     name: str = Field(max_length=200, unique=True)
-    contact: str = Field(default="", max_length=200)
+    contact: str = Field(default="", max_length=200)  # the contact person
+    email: str = Field(default="", max_length=254)
+    postal_address: str = Field(default="", max_length=500)
 
 
 class Job(SQLModel, table=True):
-    """A commission from a client: a site, its samples, a due date."""
+    """A commission from a client: a site, its samples, a due date.
+
+    ``code`` is the job number, unique in the laboratory; once a report is issued it never
+    changes (the number is printed on the report). ``standards`` is the family the job is
+    tested to (a ``server.workflow.vocabulary.STANDARDS`` id); it preselects the methods offered.
+    """
 
     id: int | None = Field(default=None, primary_key=True)
     code: str = Field(max_length=32, unique=True, index=True)
     title: str = Field(max_length=200)
     site: str = Field(default="", max_length=200)
     client_id: int = Field(foreign_key="client.id", index=True)
+    order_reference: str = Field(default="", max_length=100)
     due_date: date | None = None
     received_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    standards: str = Field(default="astm", max_length=16)
+    notes: str = Field(default="", max_length=2000)
 
 
 class Location(SQLModel, table=True):
-    """A borehole or trial pit of a job."""
+    """A borehole, trial pit, window sample or hand auger hole of a job (kind: a vocabulary id)."""
 
     __table_args__ = (sa.UniqueConstraint("job_id", "code", name="uq_location_job_code"),)
 
@@ -129,24 +141,42 @@ class Location(SQLModel, table=True):
     job_id: int = Field(foreign_key="job.id", index=True)
     code: str = Field(max_length=32)
     kind: str = Field(default="borehole", max_length=32)
+    easting: float | None = None
+    northing: float | None = None
+    ground_level_m: float | None = None
 
 
 class Sample(SQLModel, table=True):
-    """A sample from a location, identified by its code and depth range (m below ground)."""
+    """A sample from a location, identified by its code (unique in the job) and depth range
+    (m below ground).
+
+    ``job_id`` repeats the location's job so that the database itself keeps codes unique in a
+    job. A sample scheduled but not yet delivered has no ``received_at``; receipt records when,
+    by whom, in what condition and where it is stored. A sample is never deleted: a withdrawn
+    one keeps its record and its reason, and is left out of reports.
+    """
 
     __table_args__ = (
-        sa.UniqueConstraint("location_id", "code", name="uq_sample_location_code"),
+        sa.UniqueConstraint("job_id", "code", name="uq_sample_job_code"),
         sa.CheckConstraint("depth_to_m >= depth_from_m", name="depth_order"),
     )
 
     id: int | None = Field(default=None, primary_key=True)
+    job_id: int = Field(foreign_key="job.id", index=True)
     location_id: int = Field(foreign_key="location.id", index=True)
     code: str = Field(max_length=32)
     depth_from_m: float
     depth_to_m: float
     sample_type: str = Field(default="disturbed", max_length=32)
     description: str = Field(default="", max_length=1000)
-    received_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    remarks: str = Field(default="", max_length=1000)
+    received_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    received_by_id: int | None = Field(default=None, foreign_key="user.id")
+    condition: str = Field(default="", max_length=32)  # a vocabulary.CONDITIONS id, "" before receipt
+    stored_at: str = Field(default="", max_length=64)  # the store location (shelf, rack, cold room)
+    withdrawn_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    withdrawn_by_id: int | None = Field(default=None, foreign_key="user.id")
+    withdrawn_reason: str | None = Field(default=None, max_length=1000)
 
 
 class LabTest(SQLModel, table=True):
@@ -208,6 +238,23 @@ class ReportTest(SQLModel, table=True):
 
     report_id: int = Field(foreign_key="report.id", primary_key=True)
     test_id: int = Field(foreign_key="lab_test.id", primary_key=True)
+
+
+class StagedImport(SQLModel, table=True):
+    """An uploaded schedule file between its preview and the person's confirmation.
+
+    Not part of the record: the import page keeps the file here (not in the form, whose fields
+    are capped at 1 MB) so that the confirmed import reads exactly the bytes that were
+    previewed (``sha256``). Removed when imported, and after a day when left unconfirmed.
+    """
+
+    id: int | None = Field(default=None, primary_key=True)
+    token: str = Field(max_length=64, unique=True)
+    user_id: int = Field(foreign_key="user.id", index=True)
+    filename: str = Field(max_length=255)
+    sha256: str = Field(max_length=64)
+    content: bytes = Field(sa_type=sa.LargeBinary)
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
 
 
 class ShareLink(SQLModel, table=True):

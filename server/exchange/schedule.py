@@ -23,6 +23,7 @@ REMARKS_MAX = 1000
 DEPTH_MAX_M = 1000.0  # deeper than any site-investigation hole: a typing or unit slip (common practice)
 ROWS_MAX = 10_000  # one schedule; a larger file is refused whole rather than half-read
 
+
 @dataclass(frozen=True)
 class Origin:
     """Where a record stands in its file: a spreadsheet row, or an AGS4 group and line."""

@@ -5,6 +5,8 @@ not depend on the clock. WeasyPrint writes no creation date unless the HTML carr
 ``<meta name="dcterms.created">`` (set here from the issue record), and fontTools stamps
 embedded fonts with the time unless ``SOURCE_DATE_EPOCH`` is set (set here from the issue date,
 for the render only, then restored). One ``FontConfiguration`` is reused across renders.
+Other documents (sample labels, ``labels.py``) render through ``render_template`` and
+``html_to_pdf`` so that they share this setup.
 
 Nothing is fetched: charts and the QR code are inline SVG and the URL fetcher allows only
 ``data:`` URLs, so no text typed by a user can make the renderer read a file or the network.
@@ -30,8 +32,8 @@ from weasyprint.urls import URLFetcher
 
 from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
 
-__all__ = ["check_url", "content_fingerprint", "canonical_json", "qr_svg", "render_report_html",
-           "render_report_pdf"]
+__all__ = ["check_url", "content_fingerprint", "canonical_json", "html_to_pdf", "qr_svg",
+           "render_report_html", "render_report_pdf", "render_template"]
 
 TEMPLATES = Path(__file__).resolve().parents[2] / "templates"
 TEMPLATE = "reports/report.html"
@@ -74,6 +76,12 @@ def check_url(data: ReportData, fingerprint: str) -> str:
     return f"{data.verify_url}{joiner}sha256={fingerprint}"
 
 
+def render_template(name: str, **context: Any) -> str:
+    """A template of ``templates/`` rendered in the reports' environment: autoescape on and
+    undefined names refused, so every printed document escapes what users typed."""
+    return _environment().get_template(name).render(**context)
+
+
 def render_report_html(data: ReportData, *, preview: bool = False) -> str:
     """The report as one self-contained HTML document (autoescaped; charts and QR inline).
 
@@ -81,7 +89,8 @@ def render_report_html(data: ReportData, *, preview: bool = False) -> str:
     view = build_view(data)
     fingerprint = content_fingerprint(data)
     qr = Markup(qr_svg(check_url(data, fingerprint))) if data.verify_url else Markup("")
-    return _environment().get_template(TEMPLATE).render(
+    return render_template(
+        TEMPLATE,
         view=view,
         data=data,
         fingerprint=fingerprint,
@@ -90,18 +99,19 @@ def render_report_html(data: ReportData, *, preview: bool = False) -> str:
     )
 
 
-def _epoch(data: ReportData) -> str:
+def _epoch(data: ReportData) -> int:
     """Midnight UTC of the issue date, as SOURCE_DATE_EPOCH (reproducible-builds.org spec)."""
-    return str(calendar.timegm(data.issue_date.timetuple()))
+    return calendar.timegm(data.issue_date.timetuple())
 
 
-def render_report_pdf(data: ReportData) -> bytes:
-    """The report as A4 PDF bytes; the same data gives the same bytes."""
-    html = render_report_html(data)
+def html_to_pdf(html: str, source_date_epoch: int) -> bytes:
+    """A self-contained HTML document as PDF bytes, with the shared fonts, image cache and
+    ``data:``-only fetcher. ``SOURCE_DATE_EPOCH`` is set for the render only, so the same HTML
+    and epoch give the same bytes."""
     pdf: bytes | None = None
     with _LOCK:
         previous = os.environ.get("SOURCE_DATE_EPOCH")
-        os.environ["SOURCE_DATE_EPOCH"] = _epoch(data)
+        os.environ["SOURCE_DATE_EPOCH"] = str(source_date_epoch)
         try:
             document = HTML(string=html, base_url=str(TEMPLATES / "reports"), url_fetcher=_fetcher())
             pdf = document.write_pdf(font_config=_font_config(), cache=_IMAGE_CACHE)
@@ -112,3 +122,8 @@ def render_report_pdf(data: ReportData) -> bytes:
                 os.environ["SOURCE_DATE_EPOCH"] = previous
     assert pdf is not None
     return pdf
+
+
+def render_report_pdf(data: ReportData) -> bytes:
+    """The report as A4 PDF bytes; the same data gives the same bytes."""
+    return html_to_pdf(render_report_html(data), _epoch(data))

@@ -8,7 +8,8 @@ serve the stored bytes.
 
 A re-issue after an amendment is revision n + 1 of the same report number, carrying the
 current approved revisions of the same samples and methods; the earlier revision is marked
-superseded (never deleted) and stays downloadable.
+superseded (never deleted) and stays downloadable. Withdrawn samples are left out of every
+report, and of a re-issue.
 """
 
 from __future__ import annotations
@@ -254,6 +255,11 @@ def _render(data: ReportData) -> bytes:
     return render_report_pdf(data)
 
 
+def _reportable(rows: Sequence[TestRow]) -> list[TestRow]:
+    """The approved tests of samples not withdrawn: what a report may carry."""
+    return [r for r in rows if r.test.status == "approved" and r.sample.withdrawn_at is None]
+
+
 def _chosen(
     session: Session, job_id: int, sample_ids: Collection[int] | None
 ) -> tuple[Job, list[TestRow], list[TestRow]]:
@@ -261,7 +267,8 @@ def _chosen(
     job = session.get(Job, job_id)
     if job is None:
         raise NotFound(f"job {job_id} does not exist")
-    approved = [r for r in current_tests(session, job_id) if r.test.status == "approved"]
+    current = current_tests(session, job_id)
+    approved = _reportable(current)
     if not approved:
         raise invalid("tests", "no approved test to report on this job")
     if sample_ids is None:
@@ -269,6 +276,9 @@ def _chosen(
     wanted = set(sample_ids)
     if not wanted:
         raise invalid("samples", "choose at least one sample to report")
+    withdrawn = sorted(r.sample.code for r in current if r.sample.id in wanted and r.sample.withdrawn_at)
+    if withdrawn:
+        raise invalid("samples", f"sample {withdrawn[0]} is withdrawn: it is left out of reports")
     if wanted - {r.sample.id for r in approved}:
         raise invalid("samples", "a chosen sample has no approved test on this job")
     return job, [r for r in approved if r.sample.id in wanted], approved
@@ -355,8 +365,13 @@ def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> 
         assert job is not None
         carried_ids = set(s.exec(select(ReportTest.test_id).where(ReportTest.report_id == report_id)).all())
         carried = s.exec(select(LabTest).where(col(LabTest.id).in_(carried_ids))).all()
-        keys = {(t.sample_id, t.method) for t in carried}
         everything = current_tests(s, job.id or 0)
+        withdrawn = {r.sample.id for r in everything if r.sample.withdrawn_at is not None}
+        keys = {(t.sample_id, t.method) for t in carried if t.sample_id not in withdrawn}
+        if not keys:
+            raise invalid(
+                "tests", "every sample this report carries is withdrawn: there is nothing to re-issue"
+            )
         latest = _latest([r for r in everything if (r.test.sample_id, r.test.method) in keys])
         pending = [r for r in latest.values() if r.test.status != "approved"]
         if pending:
@@ -380,7 +395,7 @@ def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> 
             .order_by(col(Report.revision))
         ).all()
         history = [RevisionNote(rev, when.date().isoformat(), sha) for rev, when, sha in earlier]
-        approved = [r for r in everything if r.test.status == "approved"]
+        approved = _reportable(everything)
         data = report_data(
             s,
             job,

@@ -179,3 +179,12 @@ def reset_password(db: Database, actor: User, user_id: int, new_password: str, r
         s.add(user)
         audit.record(s, actor, "user", user_id, "password", after={"password": "reset"}, reason=why)
         return user
+
+
+def user_named(db: Database, username: str) -> User:
+    """The active user with this username (the command line acts in a person's name)."""
+    with db.session() as s:
+        user = s.exec(select(User).where(User.username == username.strip().lower())).first()
+    if user is None or not user.active:
+        raise NotFound(f"no active user is named {username.strip()!r}")
+    return user

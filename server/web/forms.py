@@ -82,3 +82,11 @@ def errors_by_path(errors: Iterable[Any], kinds: Iterable[str] | None = None) ->
         if wanted is None or e.kind in wanted:
             out.setdefault(dotted(e.loc), e.message)
     return out
+
+
+def refusal_of(exc: Exception) -> tuple[dict[str, str], str]:
+    """A service refusal as field messages (by form field) and the line shown above the form."""
+    errors = getattr(exc, "errors", None)
+    if errors and all(hasattr(e, "loc") for e in errors):
+        return errors_by_path(errors), f"Nothing was saved: {exc}."
+    return {}, f"Nothing was saved: {exc}."

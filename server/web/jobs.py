@@ -1,22 +1,26 @@
-"""The register pages: jobs, a job (locations, samples, tests, reports, client links), a sample."""
+"""Each person's start page and the jobs list."""
 
 from __future__ import annotations
 
+import re
 from typing import Annotated
+from urllib.parse import urlencode
 
-from fastapi import APIRouter, Depends, HTTPException, Request
+from fastapi import APIRouter, Depends, Request
 from fastapi.responses import RedirectResponse
-from sqlmodel import col, select
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_roles, require_user
-from server.db.queries import job_sheet, jobs_with_counts, test_rows
-from server.db.tables import LabTest, LinkAccess, User
+from server.auth.sessions import csrf_protect, database, require_user
+from server.db.job_list import STATUS_CHOICES, JobFilter, job_page
+from server.db.tables import User, utcnow
 from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
-Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
+
+# A page number longer than this is past any real list: it is read as "the last page".
+_PAGE_DIGITS = 9
+_DIGITS = re.compile(r"[0-9]+")
 
 
 @router.get("/")
@@ -26,60 +30,40 @@ def home(user: Staff) -> Response:
     return RedirectResponse(target, status_code=303)
 
 
+def page_number(text: str) -> int:
+    """The page asked for in the address, read leniently: the address is easy to edit by hand,
+    and a wrong page should show a page, not an error. Anything but plain digits is page 1; a
+    number too long to be real becomes a huge page, which the list clamps to its last one."""
+    text = text.strip()
+    if not _DIGITS.fullmatch(text):
+        return 1
+    if len(text) > _PAGE_DIGITS:
+        return 10**_PAGE_DIGITS
+    return int(text)
+
+
+def _jobs_url(wanted: JobFilter, page: int) -> str:
+    """The list's address for another page, keeping the search and the status filter."""
+    query = {"q": wanted.search, "status": wanted.known_status, "page": str(page)}
+    return "/jobs?" + urlencode({k: v for k, v in query.items() if v})
+
+
 @router.get("/jobs")
-def jobs_page(request: Request, user: Staff) -> Response:
+def jobs_page(request: Request, user: Staff, q: str = "", status: str = "", page: str = "") -> Response:
+    """Every job of the laboratory, searched, filtered by status and shown a page at a time."""
+    wanted = JobFilter(q=q, status=status.strip(), page=page_number(page))
+    errors: dict[str, str] = {}
+    if wanted.status and not wanted.known_status:
+        errors["status"] = "Not a status this list knows: every job is shown."
     with database(request).session() as s:
-        rows = jobs_with_counts(s)
-    return render(request, "pages/jobs.html", rows=rows)
-
-
-def job_page_response(request: Request, job_id: int, **extra: object) -> Response:
-    """The job page, optionally with a one-time message (a new link) or a refusal."""
-    with database(request).session() as s:
-        sheet = job_sheet(s, job_id)
-        if sheet is None:
-            raise HTTPException(404, "no such job")
-        link_ids = [link.id for link in sheet.links]
-        accesses = (
-            list(
-                s.exec(
-                    select(LinkAccess)
-                    .where(col(LinkAccess.link_id).in_(link_ids))
-                    .order_by(col(LinkAccess.at).desc())
-                    .limit(20)
-                )
-            )
-            if link_ids
-            else []
-        )
+        listing = job_page(s, wanted, utcnow().date())
     return render(
         request,
-        "pages/job.html",
-        sheet=sheet,
-        accesses=accesses,
-        new_link=extra.get("new_link"),
-        error=extra.get("error"),
-    )
-
-
-@router.get("/jobs/{job_id}")
-def job_page(request: Request, job_id: int, user: Staff) -> Response:
-    return job_page_response(request, job_id)
-
-
-@router.get("/samples/{sample_id}")
-def sample_page(request: Request, sample_id: int, user: Staff) -> Response:
-    with database(request).session() as s:
-        rows = test_rows(
-            s, col(LabTest.sample_id) == sample_id, order=(col(LabTest.method), col(LabTest.revision))
-        )
-        if not rows:
-            raise HTTPException(404, "no tests on this sample")
-    return render(
-        request,
-        "pages/sample.html",
-        rows=rows,
-        sample=rows[0].sample,
-        location=rows[0].location,
-        job=rows[0].job,
+        "pages/jobs.html",
+        listing=listing,
+        wanted=wanted,
+        errors=errors,
+        statuses=STATUS_CHOICES,
+        previous_url=_jobs_url(wanted, listing.previous_page) if listing.previous_page else None,
+        next_url=_jobs_url(wanted, listing.next_page) if listing.next_page else None,
     )

@@ -23,8 +23,8 @@ from server.auth.sessions import csrf_protect, database, require_roles, require_
 from server.db.register_queries import containers, equipment_list
 from server.db.tables import User
 from server.services import registers
-from server.services.errors import Invalid, NotFound, ServiceError, http_status, invalid
-from server.web.forms import errors_by_path
+from server.services.errors import NotFound, ServiceError, http_status, invalid
+from server.web.forms import errors_by_path, refusal_of
 from server.web.templating import is_htmx, render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
@@ -116,13 +116,6 @@ _NOTHING = "Nothing was saved: see the fields marked below."
 _NOT_GRAMS = "tare must be a number of grams, such as 15.32"
 
 
-def _refusal(exc: ServiceError) -> tuple[dict[str, str], str]:
-    """Field messages (by form field) and the line shown above the form."""
-    if isinstance(exc, Invalid):
-        return errors_by_path(exc.errors), f"Nothing was saved: {exc}."
-    return {}, f"Nothing was saved: {exc}."
-
-
 @router.get("/registers")
 def registers_page(request: Request, user: Admin, saved: int = 0) -> Response:
     return _registers_page(request, message="Laboratory details saved." if saved else None)
@@ -167,7 +160,7 @@ def save_laboratory(
     try:
         registers.set_laboratory(database(request), user, lab_name, address, accreditation)
     except ServiceError as exc:
-        errors, problem = _refusal(exc)
+        errors, problem = refusal_of(exc)
         errors = {("lab_name" if k == "name" else k): v for k, v in errors.items()}
         form = {"lab_name": lab_name, "address": address, "accreditation": accreditation}
         return _registers_page(
@@ -235,7 +228,7 @@ def add_container(
     try:
         made = registers.add_container(database(request), user, code, tare)
     except ServiceError as exc:
-        errors, problem = _refusal(exc)
+        errors, problem = refusal_of(exc)
         return _containers_page(
             request, status_code=http_status(exc), form=form, errors=errors, problem=problem
         )
@@ -255,7 +248,7 @@ def reweigh_container(
             raise invalid("tare_g", _NOT_GRAMS)
         made = registers.reweigh_container(database(request), user, container_id, tare)
     except ServiceError as exc:
-        _, problem = _refusal(exc)
+        _, problem = refusal_of(exc)
         return _containers_page(
             request, status_code=http_status(exc), row_errors={container_id: str(exc)}, problem=problem
         )
@@ -338,7 +331,7 @@ def add_equipment(
     try:
         made = registers.add_equipment(database(request), user, code, kind, description, due)
     except ServiceError as exc:
-        errors, problem = _refusal(exc)
+        errors, problem = refusal_of(exc)
         return _equipment_page(
             request, status_code=http_status(exc), form=form, errors=errors, problem=problem
         )
@@ -358,7 +351,7 @@ def update_equipment(
             database(request), user, equipment_id, description, _due_or_refuse(calibration_due)
         )
     except ServiceError as exc:
-        _, problem = _refusal(exc)
+        _, problem = refusal_of(exc)
         return _equipment_page(
             request, status_code=http_status(exc), row_errors={equipment_id: str(exc)}, problem=problem
         )

@@ -12,7 +12,7 @@ from server.auth.sessions import csrf_protect, database, require_roles
 from server.db.tables import Report, ShareLink, User
 from server.services import links, reports
 from server.services.errors import ServiceError, http_status
-from server.web.jobs import job_page_response
+from server.web.job_page import job_page_response
 from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)

@@ -134,9 +134,7 @@ def _lookup(text: str, ids: dict[str, str], abbreviations: dict[str, str]) -> st
     for stored, label in ids.items():
         if key in (fold(stored), fold(label)):
             return stored
-    return abbreviations.get(key) or next(
-        (v for k, v in abbreviations.items() if fold(k) == key), None
-    )
+    return abbreviations.get(key) or next((v for k, v in abbreviations.items() if fold(k) == key), None)
 
 
 def location_kind_id(text: str) -> str | None:

@@ -49,7 +49,7 @@ from server.db.session import Database  # noqa: E402
 from server.db.tables import Report, User  # noqa: E402
 from server.reports.context import content_fingerprint  # noqa: E402
 from server.reports.pdf import TEMPLATES, render_report_html  # noqa: E402
-from server.services import bench, jobs, reports, review  # noqa: E402
+from server.services import bench, jobs, reports, review, samples  # noqa: E402
 from server.services.users import create_user  # noqa: E402
 from tests.benchmarks.bench_engine import generate, prepare  # noqa: E402
 
@@ -67,11 +67,11 @@ def build_job(db: Database, n: int, seed: int) -> tuple[int, User]:
     job = jobs.create_job(db, reviewer, client.id or 0, "BENCH-1", "Benchmark job", "Benchmark site")
     readings = generate(n, seed)
     prepare(readings, ["atterberg", "grading", "classification"])
-    locations = [jobs.add_location(db, reviewer, job.id or 0, f"BH{i + 1:02d}") for i in range(3)]
+    locations = [samples.add_location(db, reviewer, job.id or 0, f"BH{i + 1:02d}") for i in range(3)]
     for i, sample_readings in enumerate(readings):
         loc = locations[i % len(locations)]
         depth = 0.5 + 1.5 * (i // len(locations))
-        sample = jobs.add_sample(db, reviewer, loc.id or 0, f"{loc.code}-S{i // len(locations) + 1:02d}",
+        sample = samples.add_sample(db, reviewer, loc.id or 0, f"{loc.code}-S{i // len(locations) + 1:02d}",
                                  depth, depth + 0.45, "U100", "Firm brown silty CLAY (fictional)")
         methods = ["atterberg"]
         if i % 5 == 0:

@@ -8,7 +8,7 @@ from datetime import timedelta
 from playwright.sync_api import Page, expect
 
 from server.db.session import Database
-from server.services import jobs, registers
+from server.services import jobs, registers, samples
 from tests.conftest import PASSWORDS, People
 from tests.e2e.conftest import (
     TABLET_LANDSCAPE,
@@ -51,10 +51,10 @@ def test_a_reviewer_requests_the_atterberg_set_and_a_hydrometer_on_every_clay_of
     admin = live_people.admin
     client = jobs.create_client(live_db, admin, "Moorside Client")
     job = jobs.create_job(live_db, admin, client.id or 0, "MC-7", "Moorside embankment")
-    bh = jobs.add_location(live_db, admin, job.id or 0, "BH1")
-    jobs.add_sample(live_db, admin, bh.id or 0, "BH1-U1", 1.0, 1.45, "U100", "Firm brown CLAY")
-    jobs.add_sample(live_db, admin, bh.id or 0, "BH1-D2", 2.0, 2.45, "disturbed", "Medium dense SAND")
-    jobs.add_sample(live_db, admin, bh.id or 0, "BH1-U3", 3.0, 3.45, "U100", "Stiff grey silty CLAY")
+    bh = samples.add_location(live_db, admin, job.id or 0, "BH1")
+    samples.add_sample(live_db, admin, bh.id or 0, "BH1-U1", 1.0, 1.45, "U100", "Firm brown CLAY")
+    samples.add_sample(live_db, admin, bh.id or 0, "BH1-D2", 2.0, 2.45, "disturbed", "Medium dense SAND")
+    samples.add_sample(live_db, admin, bh.id or 0, "BH1-U3", 3.0, 3.45, "U100", "Stiff grey silty CLAY")
 
     desk = new_page(TABLET_LANDSCAPE)
     sign_in(desk, "review", PASSWORDS["review"])

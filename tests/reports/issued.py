@@ -8,7 +8,7 @@ from typing import Any
 
 from server.db.session import Database
 from server.db.tables import LabTest, Sample
-from server.services import amendments, bench, jobs, review
+from server.services import amendments, bench, jobs, review, samples
 from tests.conftest import PASSWORDS, People
 from tests.support.scenario import ATTERBERG, small_job
 
@@ -41,7 +41,7 @@ def two_approved_samples(db: Database, people: People, *, description: str = "St
         sample = s.get(Sample, job.sample_id)
         assert sample is not None
         location_id = sample.location_id
-    second = jobs.add_sample(db, people.admin, location_id, "BH1-S2", 2.0, 2.45, "U100", description)
+    second = samples.add_sample(db, people.admin, location_id, "BH1-S2", 2.0, 2.45, "U100", description)
     (test2,) = jobs.request_tests(db, people.admin, [second.id or 0], ["atterberg"])
     approve(db, people, job.test_id)
     approve(db, people, test2.id or 0)

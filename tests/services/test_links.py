@@ -9,7 +9,7 @@ from sqlmodel import select
 
 from server.db.session import Database
 from server.db.tables import Job, LinkAccess, ShareLink, utcnow
-from server.services import bench, jobs, links, reports, review
+from server.services import bench, jobs, links, reports, review, samples
 from server.services.errors import Forbidden, Invalid
 from tests.conftest import PASSWORDS, People
 from tests.support.scenario import ATTERBERG, small_job
@@ -73,8 +73,8 @@ def test_a_link_limited_to_one_job_shows_nothing_of_the_clients_other_jobs(
     with db.session() as s:
         client_id = s.get(Job, job.job_id).client_id  # type: ignore[union-attr]
     other_job = jobs.create_job(db, people.admin, client_id, "T-200", "Second job", "Second site")
-    location = jobs.add_location(db, people.admin, other_job.id or 0, "BH9")
-    sample = jobs.add_sample(db, people.admin, location.id or 0, "BH9-S1", 1.0, 1.45, "U100", "Soft CLAY")
+    location = samples.add_location(db, people.admin, other_job.id or 0, "BH9")
+    sample = samples.add_sample(db, people.admin, location.id or 0, "BH9-S1", 1.0, 1.45, "U100", "Soft CLAY")
     (test,) = jobs.request_tests(db, people.admin, [sample.id or 0], ["atterberg"])
     second = _issue(db, people, test.id or 0, other_job.id or 0)
 

@@ -16,7 +16,7 @@ from typing import Any
 
 from server.db.session import Database
 from server.db.tables import User
-from server.services import jobs
+from server.services import jobs, samples
 
 
 def determination(tin: str, tare: float, wet: float, dry: float) -> dict[str, Any]:
@@ -68,7 +68,7 @@ def small_job(
     """One client, job, borehole and sample with one requested test."""
     client = jobs.create_client(db, admin, "Test Client Ltd")
     job = jobs.create_job(db, admin, client.id or 0, "T-100", "Test job", "Test site")
-    location = jobs.add_location(db, admin, job.id or 0, "BH1")
-    sample = jobs.add_sample(db, admin, location.id or 0, "BH1-S1", 1.0, 1.45, "U100", description)
+    location = samples.add_location(db, admin, job.id or 0, "BH1")
+    sample = samples.add_sample(db, admin, location.id or 0, "BH1-S1", 1.0, 1.45, "U100", description)
     (test,) = jobs.request_tests(db, admin, [sample.id or 0], [method])
     return Job(job.id or 0, sample.id or 0, test.id or 0)

@@ -16,7 +16,7 @@ from sqlmodel import col, select
 
 from server.db.session import Database
 from server.db.tables import Job, LinkAccess, Report, ShareLink, utcnow
-from server.services import jobs, links, reports
+from server.services import jobs, links, reports, samples
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, approve, two_approved_samples
 from tests.support.http import post_form, sign_in
@@ -89,8 +89,8 @@ def test_a_link_limited_to_one_job_cannot_download_another_jobs_report(
     with db.session() as s:
         client_id = s.get(Job, two.job_id).client_id  # type: ignore[union-attr]
     other = jobs.create_job(db, people.admin, client_id, "T-200", "Other job", "Other site")
-    location = jobs.add_location(db, people.admin, other.id or 0, "BH9")
-    sample = jobs.add_sample(db, people.admin, location.id or 0, "BH9-S1", 1.0, 1.45, "U100", "Soft CLAY")
+    location = samples.add_location(db, people.admin, other.id or 0, "BH9")
+    sample = samples.add_sample(db, people.admin, location.id or 0, "BH9-S1", 1.0, 1.45, "U100", "Soft CLAY")
     (test,) = jobs.request_tests(db, people.admin, [sample.id or 0], ["atterberg"])
     approve(db, people, test.id or 0)
     theirs = reports.issue_report(db, people.review, other.id or 0, BASE)

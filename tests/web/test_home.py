@@ -6,7 +6,7 @@ import pytest
 from fastapi.testclient import TestClient
 
 from server.db.session import Database
-from server.services import bench, jobs, review
+from server.services import bench, jobs, review, samples
 from tests.conftest import PASSWORDS, People
 from tests.support.http import sign_in
 from tests.support.scenario import ATTERBERG, small_job
@@ -33,8 +33,8 @@ def test_my_bench_lists_my_open_tests_by_job_and_sample_with_the_next_step(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     job = small_job(db, people.admin)  # its atterberg test is requested and assigned to nobody
-    location = jobs.add_location(db, people.admin, job.job_id, "BH2")
-    deep = jobs.add_sample(db, people.admin, location.id or 0, "BH2-S4", 4.0, 4.45, "U100", "Stiff CLAY")
+    location = samples.add_location(db, people.admin, job.job_id, "BH2")
+    deep = samples.add_sample(db, people.admin, location.id or 0, "BH2-S4", 4.0, 4.45, "U100", "Stiff CLAY")
     tech, other = people.tech.id, people.review2.id
     mine = jobs.request_tests(db, people.admin, [job.sample_id], ["plastic-limit", "water-content"], tech)
     jobs.request_tests(db, people.admin, [deep.id or 0], ["hydrometer"], tech)

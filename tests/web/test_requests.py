@@ -9,7 +9,7 @@ from sqlmodel import col, select
 
 from server.db.session import Database
 from server.db.tables import AuditEvent, LabTest
-from server.services import jobs
+from server.services import jobs, samples
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
 
@@ -25,7 +25,7 @@ def _two_boreholes(db: Database, people: People) -> Boreholes:
     """BH1 with two clays and a sand, BH2 with one clay; one BH1 clay already has the Atterberg set."""
     client = jobs.create_client(db, people.admin, "Bulk Client Ltd")
     job = jobs.create_job(db, people.admin, client.id or 0, "B-200", "Bulk job")
-    samples: dict[str, int] = {}
+    by_code: dict[str, int] = {}
     locations: dict[str, int] = {}
     for loc_code, rows in {
         "BH1": [
@@ -35,13 +35,13 @@ def _two_boreholes(db: Database, people: People) -> Boreholes:
         ],
         "BH2": [("BH2-U1", 1.0, "U100", "Soft CLAY")],
     }.items():
-        loc = jobs.add_location(db, people.admin, job.id or 0, loc_code)
+        loc = samples.add_location(db, people.admin, job.id or 0, loc_code)
         locations[loc_code] = loc.id or 0
         for code, top, kind, description in rows:
-            made = jobs.add_sample(db, people.admin, loc.id or 0, code, top, top + 0.45, kind, description)
-            samples[code] = made.id or 0
-    jobs.request_tests(db, people.admin, [samples["BH1-U3"]], ["atterberg"])
-    return Boreholes(job.id or 0, locations["BH1"], samples)
+            made = samples.add_sample(db, people.admin, loc.id or 0, code, top, top + 0.45, kind, description)
+            by_code[code] = made.id or 0
+    jobs.request_tests(db, people.admin, [by_code["BH1-U3"]], ["atterberg"])
+    return Boreholes(job.id or 0, locations["BH1"], by_code)
 
 
 def _tests(db: Database) -> list[tuple[int, str, int | None]]:

@@ -11,7 +11,7 @@ from typing import Any
 
 from server.db.session import Database
 from server.db.tables import LabTest, User
-from server.services import bench, jobs, review
+from server.services import bench, jobs, review, samples
 from tests.conftest import PASSWORDS
 from tests.support.scenario import ATTERBERG, NATURAL
 
@@ -31,14 +31,14 @@ class Lab:
         self.admin = admin
         client = jobs.create_client(db, admin, f"Client of {code}")
         self.job = jobs.create_job(db, admin, client.id or 0, code, f"Job {code}", "Workflow site", due)
-        self.location = jobs.add_location(db, admin, self.job.id or 0, "BH1")
+        self.location = samples.add_location(db, admin, self.job.id or 0, "BH1")
         self.samples = 0
 
     def new_test(self, method: str = "atterberg") -> int:
         """A new sample with one requested test; returns the test's id."""
         self.samples += 1
         depth = float(self.samples)
-        sample = jobs.add_sample(
+        sample = samples.add_sample(
             self.db, self.admin, self.location.id or 0, f"S{self.samples}", depth, depth + 0.45, "U100"
         )
         (test,) = jobs.request_tests(self.db, self.admin, [sample.id or 0], [method])

@@ -1,0 +1,216 @@
+"""The jobs list at real size (issue S6 point 7): search, a status filter and pages.
+
+A laboratory keeps every job it ever had, so the list cannot load them all: it asks the
+database for one page, and always with the same two queries (the count of matching jobs, then
+the page itself with its counts as correlated subqueries), whatever the number of jobs.
+
+Statuses are derived, never stored, so they cannot drift from the reports:
+
+- ``reported``: the job has at least one issued report (``Report.status == "issued"``; a
+  superseded revision does not count, its successor does);
+- ``open``: no issued report yet (overdue jobs are open too);
+- ``overdue``: open, and its due date is before ``today`` (a job due today is not overdue yet;
+  a job without a due date is never overdue).
+
+Search is a case-insensitive substring of the job number, client name, site or title. ``%``
+and ``_`` in the search are taken literally. Both sides are lowered by the database, so a
+search typed exactly as stored always matches; how letters beyond ASCII are lowered is the
+database's own (SQLite lowers ASCII only; PostgreSQL follows the database's locale, and under
+the C locale also lowers ASCII only), so "ÉTANG" may not find "étang".
+
+Order: the work still to do first, soonest due at the top (so overdue jobs lead), jobs without
+a due date after them; then the reported jobs, most recently due first, undated last. The job
+number breaks ties, so pages never overlap or skip a job.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from datetime import date
+from typing import Any, Final, Literal
+
+from sqlalchemy import ColumnElement, Select, and_, case, func, literal, or_
+from sqlalchemy import select as sa_select
+from sqlmodel import Session, col, select
+
+from server.db.tables import Client, Job, LabTest, Report, Sample
+from server.workflow.states import Status
+
+DerivedStatus = Literal["open", "overdue", "reported"]
+# The filter's choices, in the order the form offers them ("" is every job).
+STATUS_CHOICES: Final[dict[str, str]] = {
+    "": "All",
+    "open": "Open",
+    "overdue": "Overdue",
+    "reported": "Reported",
+}
+PER_PAGE: Final = 50
+# Statuses a test has left behind once signed: approved, or replaced by an amended revision.
+_SIGNED: Final = (Status.approved.value, Status.superseded.value)
+
+
+@dataclass(frozen=True)
+class JobFilter:
+    """What the person asked for: a search text, a status ("" for all) and a page (from 1).
+
+    Values are taken as given; ``job_page`` treats an unknown status as no filter and clamps
+    the page, so a hand-edited address never fails.
+    """
+
+    q: str = ""
+    status: str = ""
+    page: int = 1
+
+    @property
+    def search(self) -> str:
+        """The search text as matched: trimmed, without NUL characters (PostgreSQL refuses them)."""
+        return self.q.replace("\x00", "").strip()
+
+    @property
+    def known_status(self) -> str:
+        """The status filter, or "" when the value is not one of ``STATUS_CHOICES``."""
+        return self.status if self.status in STATUS_CHOICES else ""
+
+
+@dataclass(frozen=True)
+class JobRow:
+    """One line of the list: the job with the counts a laboratory manager scans for."""
+
+    job: Job
+    client: str
+    samples: int  # not withdrawn
+    tests_to_approve: int  # on samples not withdrawn, neither approved nor superseded
+    issued_reports: int
+    status: DerivedStatus
+
+    @property
+    def overdue(self) -> bool:
+        return self.status == "overdue"
+
+
+@dataclass(frozen=True)
+class JobListPage:
+    """One page of the list, with what a pager needs."""
+
+    rows: list[JobRow]
+    total: int  # jobs matching the filter, on every page
+    page: int  # clamped to 1..pages
+    pages: int  # at least 1, so an empty list is "page 1 of 1"
+    per_page: int
+
+    @property
+    def previous_page(self) -> int | None:
+        return self.page - 1 if self.page > 1 else None
+
+    @property
+    def next_page(self) -> int | None:
+        return self.page + 1 if self.page < self.pages else None
+
+
+def derived_status(due_date: date | None, issued_reports: int, today: date) -> DerivedStatus:
+    """A job's status by the definitions in the module docstring (the SQL filter mirrors it)."""
+    if issued_reports > 0:
+        return "reported"
+    if due_date is not None and due_date < today:
+        return "overdue"
+    return "open"
+
+
+def like_pattern(text: str) -> str:
+    """A LIKE pattern matching ``text`` anywhere, its ``\\``, ``%`` and ``_`` taken literally."""
+    escaped = text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+    return f"%{escaped}%"
+
+
+def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = PER_PAGE) -> JobListPage:
+    """One page of the jobs matching ``wanted``, in two queries whatever the number of jobs."""
+    per_page = max(1, per_page)
+    issued = (
+        sa_select(col(Report.job_id).label("job_id"), func.count(col(Report.id)).label("n"))
+        .where(col(Report.status) == "issued")
+        .group_by(col(Report.job_id))
+        .subquery("issued")
+    )
+    reported = issued.c.n.is_not(None)
+    conditions = _conditions(wanted, today, reported)
+
+    def matching(*columns: Any) -> Select[Any]:
+        return (
+            sa_select(*columns)
+            .select_from(Job)
+            .join(Client, col(Client.id) == col(Job.client_id))
+            .outerjoin(issued, issued.c.job_id == col(Job.id))
+            .where(*conditions)
+        )
+
+    total = int(session.execute(matching(func.count(col(Job.id)))).scalar_one())
+    pages = max(1, math.ceil(total / per_page))
+    page = min(max(1, wanted.page), pages)
+
+    samples = (
+        select(func.count(col(Sample.id)))
+        .where(col(Sample.job_id) == col(Job.id), col(Sample.withdrawn_at).is_(None))
+        .correlate(Job)
+        .scalar_subquery()
+    )
+    to_approve = (
+        select(func.count(col(LabTest.id)))
+        .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+        .where(
+            col(Sample.job_id) == col(Job.id),
+            col(Sample.withdrawn_at).is_(None),
+            col(LabTest.status).not_in(_SIGNED),
+        )
+        .correlate(Job)
+        .scalar_subquery()
+    )
+    open_due = case((reported, None), else_=col(Job.due_date))
+    reported_due = case((reported, col(Job.due_date)), else_=None)
+    stmt = (
+        matching(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
+        .order_by(
+            case((reported, 1), else_=0),
+            open_due.is_(None),
+            open_due.asc(),
+            reported_due.is_(None),
+            reported_due.desc(),
+            col(Job.code),
+        )
+        .offset((page - 1) * per_page)
+        .limit(per_page)
+    )
+    rows = [
+        JobRow(
+            job,
+            client,
+            int(n_samples),
+            int(n_open),
+            int(n_issued),
+            derived_status(job.due_date, n_issued, today),
+        )
+        for job, client, n_samples, n_open, n_issued in session.execute(stmt).all()
+    ]
+    return JobListPage(rows=rows, total=total, page=page, pages=pages, per_page=per_page)
+
+
+def _conditions(wanted: JobFilter, today: date, reported: ColumnElement[bool]) -> list[ColumnElement[bool]]:
+    conditions: list[ColumnElement[bool]] = []
+    if text := wanted.search:
+        pattern = func.lower(literal(like_pattern(text)))
+        conditions.append(
+            or_(
+                *(
+                    func.lower(column).like(pattern, escape="\\")
+                    for column in (col(Job.code), col(Client.name), col(Job.site), col(Job.title))
+                )
+            )
+        )
+    status = wanted.known_status
+    if status == "reported":
+        conditions.append(reported)
+    elif status == "open":
+        conditions.append(~reported)
+    elif status == "overdue":
+        conditions.append(and_(~reported, col(Job.due_date).is_not(None), col(Job.due_date) < today))
+    return conditions

@@ -1,0 +1,145 @@
+"""The job page (locations, samples, tests, reports, client links, and the forms that add a
+location or a sample) and the sample page."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Depends, HTTPException, Request
+from sqlmodel import col, select
+from starlette.responses import Response
+
+from server.auth.sessions import csrf_protect, database, require_user
+from server.db.queries import job_sheet, test_rows, users_by_id
+from server.db.tables import Job, LabTest, LinkAccess, Location, Sample, User
+from server.engine import METHODS
+from server.web.templating import render
+from server.workflow.vocabulary import (
+    CONDITIONS,
+    LOCATION_KINDS,
+    METHODS_BY_STANDARDS,
+    SAMPLE_TYPES,
+    STANDARDS,
+)
+
+router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+Staff = Annotated[User, Depends(require_user)]
+
+DONE = {
+    "client-added": "Client registered.",
+    "client-saved": "Client details saved.",
+    "created": "Job registered. Add its locations and samples below, or import a schedule.",
+    "saved": "Job details saved.",
+    "location-added": "Location added.",
+    "location-saved": "Location saved.",
+    "sample-added": "Sample registered.",
+    "sample-saved": "Sample saved.",
+    "withdrawn": "Sample withdrawn; it stays listed here and is left out of reports.",
+    "imported": "Schedule imported. The audit trail records the file and what it changed.",
+}
+
+
+def done_message(done: str) -> str | None:
+    return DONE.get(done)
+
+
+def offered_methods(standards: str) -> dict[str, str]:
+    """The methods a sample form offers, the job's family of standards first."""
+    first = METHODS_BY_STANDARDS.get(standards, ())
+    ordered = [*first, *(m for m in METHODS if m not in first)]
+    return {m: METHODS[m].title for m in ordered}
+
+
+EMPTY_LOCATION = {"code": "", "kind": "borehole", "easting": "", "northing": "", "ground_level_m": ""}
+EMPTY_SAMPLE: dict[str, Any] = {
+    "location_id": "",
+    "code": "",
+    "depth_from_m": "",
+    "depth_to_m": "",
+    "sample_type": "disturbed",
+    "description": "",
+    "remarks": "",
+    "methods": [],
+}
+
+
+def job_page_response(request: Request, job_id: int, status_code: int = 200, **extra: Any) -> Response:
+    """The job page, optionally with a one-time message (a new link), a refusal, or a
+    location or sample form shown again with its refused fields."""
+    with database(request).session() as s:
+        sheet = job_sheet(s, job_id)
+        if sheet is None:
+            raise HTTPException(404, "no such job")
+        link_ids = [link.id for link in sheet.links]
+        accesses = (
+            list(
+                s.exec(
+                    select(LinkAccess)
+                    .where(col(LinkAccess.link_id).in_(link_ids))
+                    .order_by(col(LinkAccess.at).desc())
+                    .limit(20)
+                )
+            )
+            if link_ids
+            else []
+        )
+        people = users_by_id(
+            s,
+            [x.received_by_id for xs in sheet.samples.values() for x in xs]
+            + [x.withdrawn_by_id for xs in sheet.samples.values() for x in xs],
+        )
+    return render(
+        request,
+        "pages/job.html",
+        status_code=status_code,
+        sheet=sheet,
+        accesses=accesses,
+        people=people,
+        new_link=extra.get("new_link"),
+        error=extra.get("error"),
+        message=extra.get("message"),
+        location_form=extra.get("location_form", EMPTY_LOCATION),
+        location_errors=extra.get("location_errors", {}),
+        sample_form=extra.get("sample_form", EMPTY_SAMPLE),
+        sample_errors=extra.get("sample_errors", {}),
+        kinds=LOCATION_KINDS,
+        sample_types=SAMPLE_TYPES,
+        conditions=CONDITIONS,
+        standards=STANDARDS,
+        methods=offered_methods(sheet.job.standards),
+        location_options={
+            str(loc.id): f"{LOCATION_KINDS.get(loc.kind, loc.kind)} {loc.code}" for loc in sheet.locations
+        },
+    )
+
+
+@router.get("/jobs/{job_id}")
+def job_page(request: Request, job_id: int, user: Staff, done: str = "") -> Response:
+    return job_page_response(request, job_id, message=done_message(done))
+
+
+@router.get("/samples/{sample_id}")
+def sample_page(request: Request, sample_id: int, user: Staff, done: str = "") -> Response:
+    with database(request).session() as s:
+        sample = s.get(Sample, sample_id)
+        if sample is None:
+            raise HTTPException(404, "no such sample")
+        location = s.get(Location, sample.location_id)
+        job = s.get(Job, sample.job_id)
+        rows = test_rows(
+            s, col(LabTest.sample_id) == sample_id, order=(col(LabTest.method), col(LabTest.revision))
+        )
+        people = users_by_id(s, [sample.received_by_id, sample.withdrawn_by_id])
+    return render(
+        request,
+        "pages/sample.html",
+        rows=rows,
+        sample=sample,
+        location=location,
+        job=job,
+        people=people,
+        kinds=LOCATION_KINDS,
+        sample_types=SAMPLE_TYPES,
+        conditions=CONDITIONS,
+        message=done_message(done),
+    )
