@@ -172,6 +172,8 @@ def _resolve_job(s: Session, schedule: Schedule, target: Target, plan: ImportPla
     ags = schedule.format == "ags4"
     given = target.job.strip()
     plan.job = given or (project.number if project else "")
+    if ags and project is None:
+        return None  # the file was refused before its PROJ was read: its own errors say why
     if project and given and given != project.number:
         plan.errors.append(
             _job_error(schedule, "PROJ_ID", f"the file is for job {project.number}, not {given}")

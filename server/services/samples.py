@@ -13,6 +13,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
+from sqlalchemy import String, cast, func
 from sqlmodel import Session, col, select
 
 from server.db.session import Database
@@ -167,15 +168,19 @@ def sample_values(form: SampleForm, checks: Checks | None = None) -> dict[str, A
 
 
 def entered_samples(s: Session, sample_ids: Iterable[int]) -> set[int]:
-    """The samples (of these) on which any readings were entered (one query)."""
+    """The samples (of these) on which any readings were entered (one query).
+
+    A test with no readings holds the JSON value ``null`` (the ORM writes None as JSON, not as
+    SQL NULL), so the readings are compared as text, the same on SQLite and PostgreSQL."""
     wanted = list(sample_ids)
     if not wanted:
         return set()
+    readings = func.coalesce(cast(col(LabTest.readings), String), "null")
     rows = s.exec(
         select(LabTest.sample_id)
         .where(
             col(LabTest.sample_id).in_(wanted),
-            (col(LabTest.readings).is_not(None)) | (LabTest.status != Status.requested.value),
+            (readings != "null") | (LabTest.status != Status.requested.value),
         )
         .distinct()
     )

@@ -81,6 +81,15 @@ def _job(s: Session, job_id: int) -> Job:
     return job
 
 
+def _delivery(received: list[Sample], typed: str) -> str:
+    """The minute of the delivery whose labels the page ticks: the one being typed in, or
+    else the latest one received."""
+    minutes = {_minute(x.received_at) for x in received if x.received_at is not None}
+    if typed in minutes or not received or received[0].received_at is None:
+        return typed
+    return _minute(received[0].received_at)
+
+
 def _receipt_context(s: Session, job: Job, form: dict[str, Any]) -> dict[str, Any]:
     """Everything the receipt page shows besides the row being typed."""
     samples = list(s.exec(select(Sample).where(Sample.job_id == job.id).order_by(col(Sample.code))))
@@ -102,7 +111,7 @@ def _receipt_context(s: Session, job: Job, form: dict[str, Any]) -> dict[str, An
         "locations": locations,
         "people": users_by_id(s, [x.received_by_id for x in received]),
         "staff": staff,
-        "delivery_at": form.get("received_at", ""),
+        "delivery_at": _delivery(received, form.get("received_at", "")),
         "kinds": LOCATION_KINDS,
         "sample_types": SAMPLE_TYPES,
         "conditions": CONDITIONS,
