@@ -157,7 +157,9 @@ def test_a_file_of_another_kind_or_none_at_all_exits_2(
     code, printed = run_import(path, "--job", JOB, url=url)
 
     assert code == 2
-    (error,) = printed["errors"]  # type: ignore[misc]
+    errors = printed["errors"]
+    assert isinstance(errors, list) and len(errors) == 1
+    error = errors[0]
     assert (error["column"], error["message"][: len(message)]) == (column, message)
     assert set(error) == {"row", "column", "message"}  # the spreadsheet shape (DESIGN.md section 7)
     assert not (tmp_path / "untouched.sqlite3").exists()  # refused before the database was opened

@@ -55,8 +55,11 @@ def _columns(url: str) -> dict[str, set[str]]:
     engine = make_engine(url)
     try:
         found = inspect(engine)
-        return {t: {c["name"] for c in found.get_columns(t)} for t in found.get_table_names()
-                if t != "alembic_version"}
+        return {
+            t: {c["name"] for c in found.get_columns(t)}
+            for t in found.get_table_names()
+            if t != "alembic_version"
+        }
     finally:
         engine.dispose()
 
@@ -79,9 +82,11 @@ def _append_only_function_exists(url: str) -> bool:
     engine = create_engine(url)
     try:
         with engine.connect() as conn:
-            return bool(conn.execute(
-                text("SELECT count(*) FROM pg_proc WHERE proname = 'audit_event_append_only'")
-            ).scalar_one())
+            return bool(
+                conn.execute(
+                    text("SELECT count(*) FROM pg_proc WHERE proname = 'audit_event_append_only'")
+                ).scalar_one()
+            )
     finally:
         engine.dispose()
 
@@ -106,7 +111,8 @@ def test_upgrading_stamps_the_newest_revision(empty_database_url: str) -> None:
 
 
 def test_downgrading_to_base_removes_every_table_and_upgrading_again_restores_them(
-        empty_database_url: str, backend: str) -> None:
+    empty_database_url: str, backend: str
+) -> None:
     upgrade(empty_database_url)
     first = _columns(empty_database_url)
 
@@ -156,10 +162,12 @@ def test_the_migrated_schema_matches_the_models(empty_database_url: str) -> None
 
 
 def _insert_event(conn: Connection) -> None:
-    conn.execute(text(
-        "INSERT INTO audit_event (at, actor, entity, entity_id, action) "
-        "VALUES (now(), 'system', 'lab_test', 1, 'create')"
-    ))
+    conn.execute(
+        text(
+            "INSERT INTO audit_event (at, actor, entity, entity_id, action) "
+            "VALUES (now(), 'system', 'lab_test', 1, 'create')"
+        )
+    )
 
 
 def _events(conn: Connection) -> list[tuple[object, ...]]:
@@ -168,11 +176,14 @@ def _events(conn: Connection) -> list[tuple[object, ...]]:
 
 @pytest.mark.postgres
 @pytest.mark.parametrize("backend", ["postgresql"])
-@pytest.mark.parametrize("statement", [
-    "UPDATE audit_event SET action = 'forged'",
-    "DELETE FROM audit_event",
-    "TRUNCATE audit_event",
-])
+@pytest.mark.parametrize(
+    "statement",
+    [
+        "UPDATE audit_event SET action = 'forged'",
+        "DELETE FROM audit_event",
+        "TRUNCATE audit_event",
+    ],
+)
 def test_postgresql_refuses_to_change_or_remove_an_audit_event(database_url: str, statement: str) -> None:
     engine = create_engine(database_url)
     try:
@@ -202,3 +213,48 @@ def test_postgresql_still_lets_audit_events_be_added(database_url: str) -> None:
             assert len(_events(conn)) == before + 2
     finally:
         engine.dispose()
+
+
+def test_the_intake_migration_keeps_existing_samples_in_their_locations_job(empty_database_url: str) -> None:
+    """0003 gives every existing sample its location's job, keeps its receipt time, and starts
+    the new text columns empty and jobs as tested to ASTM (the migration's own rule)."""
+    upgrade(empty_database_url, "0002")
+    engine = make_engine(empty_database_url)
+    received = "2026-11-02 08:30:00"
+    with engine.begin() as conn:
+        conn.execute(text("INSERT INTO client (id, name, contact) VALUES (1, 'Old Client', '')"))
+        for job in (1, 2):
+            conn.execute(
+                text(
+                    "INSERT INTO job (id, code, title, site, client_id, received_at) "
+                    "VALUES (:id, :code, 'Old job', '', 1, :at)"
+                ),
+                {"id": job, "code": f"OLD-{job}", "at": received},
+            )
+            conn.execute(
+                text("INSERT INTO location (id, job_id, code, kind) VALUES (:id, :job, 'BH1', 'borehole')"),
+                {"id": 10 + job, "job": job},
+            )
+            conn.execute(
+                text(
+                    "INSERT INTO sample (id, location_id, code, depth_from_m, depth_to_m, sample_type, "
+                    "description, received_at) VALUES (:id, :loc, 'S1', 1.0, 1.5, 'U100', 'Clay', :at)"
+                ),
+                {"id": 100 + job, "loc": 10 + job, "at": received},
+            )
+    engine.dispose()
+    upgrade(empty_database_url)
+    engine = make_engine(empty_database_url)
+    try:
+        with engine.connect() as conn:
+            rows = conn.execute(
+                text("SELECT id, job_id, code, received_at, remarks, condition FROM sample ORDER BY id")
+            ).all()
+            jobs = conn.execute(text("SELECT standards, order_reference, notes FROM job ORDER BY id")).all()
+    finally:
+        engine.dispose()
+    # computed: each sample was inserted at location 10 + n of job n
+    assert [(r[0], r[1], r[2]) for r in rows] == [(101, 1, "S1"), (102, 2, "S1")]
+    assert all(str(r[3]).startswith("2026-11-02 08:30") for r in rows)  # the receipt time is kept
+    assert {(r[4], r[5]) for r in rows} == {("", "")}
+    assert set(jobs) == {("astm", "", "")}

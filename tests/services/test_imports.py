@@ -206,7 +206,9 @@ def last_event_id(db: Database) -> int:
 
 def events_since(db: Database, event_id: int) -> list[AuditEvent]:
     with db.session() as s:
-        return list(s.exec(select(AuditEvent).where(AuditEvent.id > event_id).order_by(AuditEvent.id)))
+        return list(
+            s.exec(select(AuditEvent).where(col(AuditEvent.id) > event_id).order_by(col(AuditEvent.id)))
+        )
 
 
 def job_named(db: Database, code: str) -> tuple[Job, str]:
@@ -229,7 +231,7 @@ def stored_samples(db: Database, job_id: int) -> list[tuple[Any, ...]]:
             select(Location.code, Sample)
             .join(Location, col(Location.id) == Sample.location_id)
             .where(Sample.job_id == job_id)
-            .order_by(Sample.id)
+            .order_by(col(Sample.id))
         )
         return [
             (code, smp.code, smp.depth_from_m, smp.depth_to_m, smp.sample_type, smp.description)
@@ -329,11 +331,8 @@ def test_the_import_is_recorded_as_one_job_level_audit_event(db: Database, peopl
     imports = [e for e in events if e.action == "import"]
     assert len(imports) == 1  # one "import" event per import (server/services/imports.py)
     event = imports[0]
-    assert (event.entity, event.entity_id, event.actor) == (
-        "job",
-        job.id,
-        "admin",
-    )  # the job, by its importer
+    # the job's own event, by the importing person (server/services/imports.py)
+    assert (event.entity, event.entity_id, event.actor) == ("job", job.id, "admin")
     assert event.after == {"file": "schedule.csv", "format": "csv", **plan.outcome(False)}  # imports.py
     assert event is events[-1]  # written last, after what it counts (computed)
     # every record created is audited too: client, job, 2 locations, 3 samples, 4 tests (computed)

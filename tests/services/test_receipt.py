@@ -2,6 +2,11 @@
 registered there and then, each receipt recording when, by whom, in what condition and where
 it is stored (ISO/IEC 17025:2017 cl. 7.4). A refused row stores nothing.
 The scenario (Marlow Vale Civils, job MV-2026-014) is fictional.
+
+Sources named beside the check values, in short: "field-level" is DESIGN.md section 7 (errors
+carry the field they refuse); "one transaction" is STYLE.md (one transaction per use-case, so a
+refusal stores nothing); "audit" is DESIGN.md section 4 (who, what, before, after, why);
+"as given" is a value this test typed in; "the schedule's" is a value ``_scheduled`` registered.
 """
 
 from __future__ import annotations
@@ -21,7 +26,8 @@ from server.workflow.vocabulary import CONDITIONS
 from tests.conftest import People
 from tests.support.scenario import NATURAL
 
-DELIVERED = datetime(2026, 11, 30, 8, 30, tzinfo=UTC)  # a Monday morning before "today" (fictional)
+DELIVERED = datetime(2026, 11, 30, 8, 30, tzinfo=UTC)  # a morning in the past of the test run (fictional)
+DELIVERED_JSON = "2026-11-30T08:30:00Z"  # DELIVERED as the audit's JSON writes it (pydantic, computed)
 
 
 def _count(db: Database, table: type) -> int:
@@ -30,6 +36,7 @@ def _count(db: Database, table: type) -> int:
 
 
 def _counts(db: Database) -> dict[str, int]:
+    """Rows of every table a receipt writes, to show that a refused row stored nothing."""
     return {t.__name__: _count(db, t) for t in (Job, Location, Sample, LabTest, AuditEvent)}
 
 
@@ -42,7 +49,8 @@ def _events(db: Database, entity: str, entity_id: int | None = None) -> list[Aud
 
 
 def _fields(refused: pytest.ExceptionInfo[Invalid]) -> set[str]:
-    assert all(len(e.loc) == 1 for e in refused.value.errors), refused.value.errors
+    """The fields a refusal names; each error is field-level (one field per location)."""
+    assert all(len(e.loc) == 1 for e in refused.value.errors), refused.value.errors  # field-level
     return {str(e.loc[0]) for e in refused.value.errors}
 
 
@@ -59,7 +67,8 @@ class Scheduled:
 
 
 def _scheduled(db: Database, people: People) -> Scheduled:
-    """Job MV-2026-014 whose schedule lists BH01-U1 (U100, 1.20-1.65 m), not yet delivered."""
+    """Job MV-2026-014 whose schedule lists BH01-U1 (U100, 1.20-1.65 m, "Firm brown CLAY",
+    remark "sealed", Atterberg set requested), not yet delivered."""
     client = jobs.create_client(db, people.admin, "Marlow Vale Civils")
     job = jobs.create_job(db, people.admin, client.id or 0, "MV-2026-014", "Harrow Lane culvert")
     bh01 = samples.add_location(db, people.admin, job.id or 0, "BH01")
@@ -99,11 +108,9 @@ def test_a_delivery_of_several_rows_receives_the_scheduled_and_registers_the_res
         ),
     ]
     done = [receive_sample(db, people.tech, job.job_id, row, DELIVERED) for row in rows]
-    assert [(r.sample.code, r.created) for r in done] == [
-        ("BH01-U1", False),  # scheduled: marked received
-        ("BH01-D2", True),  # registered at receipt
-        ("TP01-B1", True),
-    ]
+    # scheduled: marked received; the others registered at receipt (receipt.Receipt.created)
+    expected = [("BH01-U1", False), ("BH01-D2", True), ("TP01-B1", True)]  # as the rows were typed
+    assert [(r.sample.code, r.created) for r in done] == expected
     with db.session() as s:
         locations = {
             loc.code: loc.kind for loc in s.exec(select(Location).where(Location.job_id == job.job_id))
@@ -112,23 +119,15 @@ def test_a_delivery_of_several_rows_receives_the_scheduled_and_registers_the_res
             x.code: (x.depth_from_m, x.depth_to_m, x.condition, x.stored_at, x.received_by_id, x.received_at)
             for x in s.exec(select(Sample).where(Sample.job_id == job.job_id))
         }
-        methods = sorted(
-            t.method for t in s.exec(select(LabTest).where(LabTest.sample_id == done[2].sample.id))
-        )
-    assert locations == {"BH01": "borehole", "TP01": "trial pit"}  # TP01 made by the row (receipt.py)
-    assert delivered == {
-        "BH01-U1": (1.20, 1.65, "intact", "Cold room, rack 3", people.tech.id, DELIVERED),  # schedule's depth
-        "BH01-D2": (
-            2.0,
-            2.0,
-            "intact",
-            "Shelf B",
-            people.tech.id,
-            DELIVERED,
-        ),  # blank base = top, decimal comma
-        "TP01-B1": (0.5, 1.0, "damaged", "Bay 2", people.tech.id, DELIVERED),
-    }
-    assert methods == ["water-content"]
+        methods = [t.method for t in s.exec(select(LabTest).where(LabTest.sample_id == done[2].sample.id))]
+    assert locations == {"BH01": "borehole", "TP01": "trial pit"}  # TP01 made by its row, kind as given
+    tech = people.tech.id  # the receiver when none is named (receipt.receive_sample)
+    # depth the schedule's, the rest as given
+    assert delivered["BH01-U1"] == (1.20, 1.65, "intact", "Cold room, rack 3", tech, DELIVERED)
+    # "2,00" read with its decimal comma; a blank base is the top (samples.SampleForm)
+    assert delivered["BH01-D2"] == (2.0, 2.0, "intact", "Shelf B", tech, DELIVERED)
+    assert delivered["TP01-B1"] == (0.5, 1.0, "damaged", "Bay 2", tech, DELIVERED)  # as given
+    assert methods == ["water-content"]  # as given on the row
 
 
 def test_a_scheduled_sample_received_by_its_code_alone_keeps_the_schedule_and_is_audited(
@@ -137,32 +136,21 @@ def test_a_scheduled_sample_received_by_its_code_alone_keeps_the_schedule_and_is
     job = _scheduled(db, people)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", stored_at="Cold room"), DELIVERED)
     stored = _sample(db, job.job_id, "BH01-U1")
-    assert (stored.location_id, stored.depth_from_m, stored.depth_to_m, stored.sample_type) == (
-        job.bh01,
-        1.20,  # the schedule's (receipt.ReceiptRow: blank keeps it)
-        1.65,
-        "U100",
-    )
-    assert (stored.description, stored.remarks) == (
-        "Firm brown CLAY",
-        "sealed",
-    )  # a blank description keeps it
-    assert (stored.condition, stored.received_at) == ("intact", DELIVERED)  # the row's default condition
+    # blank location, depth and type keep the schedule's (receipt.ReceiptRow docstring)
+    assert stored.location_id == job.bh01  # the schedule's
+    assert (stored.depth_from_m, stored.depth_to_m) == (1.20, 1.65)  # the schedule's
+    assert stored.sample_type == "U100"  # the schedule's
+    assert (stored.description, stored.remarks) == ("Firm brown CLAY", "sealed")  # the schedule's
+    assert (stored.condition, stored.received_at) == ("intact", DELIVERED)  # ReceiptRow's default; as given
     event = _events(db, "sample", job.u1)[-1]
-    assert (event.action, event.actor) == ("receive", "tech")
-    assert event.before is not None and event.after is not None
-    assert (event.before["received_at"], event.before["condition"], event.before["stored_at"]) == (
-        None,
-        "",
-        "",
-    )
-    assert (event.after["received_at"], event.after["condition"], event.after["stored_at"]) == (
-        "2026-11-30T08:30:00Z",  # DELIVERED as JSON (pydantic's ISO 8601, computed)
-        "intact",
-        "Cold room",
-    )
-    assert event.after["received_by_id"] == people.tech.id
-    assert _count(db, Sample) == 1 and _count(db, Location) == 1  # nothing new registered
+    assert (event.action, event.actor) == ("receive", "tech")  # audit (receipt._receive_scheduled)
+    assert event.before is not None and event.after is not None  # audit
+    before = (event.before["received_at"], event.before["condition"], event.before["stored_at"])
+    assert before == (None, "", "")  # not received yet (tables.Sample defaults)
+    after = (event.after["received_at"], event.after["condition"], event.after["stored_at"])
+    assert after == (DELIVERED_JSON, "intact", "Cold room")  # as given
+    assert event.after["received_by_id"] == people.tech.id  # the receiver when none is named
+    assert (_count(db, Sample), _count(db, Location)) == (1, 1)  # nothing new registered (as scheduled)
 
 
 def test_what_the_delivery_shows_differently_corrects_a_scheduled_sample_with_nothing_entered(
@@ -172,13 +160,9 @@ def test_what_the_delivery_shows_differently_corrects_a_scheduled_sample_with_no
     row = ReceiptRow("BH01-U1", "BH01", "1,25", "1,70", "UT100", "Firm brown silty CLAY", "intact", "Rack 1")
     receive_sample(db, people.tech, job.job_id, row, DELIVERED)
     stored = _sample(db, job.job_id, "BH01-U1")
-    assert (stored.depth_from_m, stored.depth_to_m, stored.sample_type, stored.description) == (
-        1.25,  # decimal comma (fields.Checks.number)
-        1.70,
-        "UT100",
-        "Firm brown silty CLAY",
-    )
-    assert stored.remarks == "sealed"  # a receipt row carries no remarks: the schedule's stay (receipt.py)
+    assert (stored.depth_from_m, stored.depth_to_m) == (1.25, 1.70)  # decimal comma (fields.Checks.number)
+    assert (stored.sample_type, stored.description) == ("UT100", "Firm brown silty CLAY")  # as given
+    assert stored.remarks == "sealed"  # a receipt row has no remarks: the schedule's stay (receipt.py)
 
 
 def test_a_scheduled_sample_with_readings_received_with_another_depth_is_refused(
@@ -187,13 +171,14 @@ def test_a_scheduled_sample_with_readings_received_with_another_depth_is_refused
     job = _scheduled(db, people)
     with db.session() as s:
         test = s.exec(select(LabTest).where(LabTest.sample_id == job.u1)).one()
-    readings = {"water_content": {"determinations": NATURAL}}
+    readings = {"water_content": {"determinations": NATURAL}}  # a first part of the Atterberg set
     bench.save_readings(db, people.tech, test.id or 0, readings, test.version)
     before = _counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", depth_from_m=1.5), DELIVERED)
     assert _fields(refused) == {"depth_from_m"}  # identity fixed once entered (samples.IDENTITY)
-    assert _counts(db) == before and _sample(db, job.job_id, "BH01-U1").received_at is None
+    assert _counts(db) == before  # one transaction
+    assert _sample(db, job.job_id, "BH01-U1").received_at is None  # one transaction
 
 
 def test_a_sample_is_received_once(db: Database, people: People) -> None:
@@ -202,13 +187,13 @@ def test_a_sample_is_received_once(db: Database, people: People) -> None:
     before = _counts(db)
     later = DELIVERED + timedelta(hours=3)
     with pytest.raises(Invalid) as refused:
-        # the second row also names a new borehole: it must not be left behind either
+        # the second row also names a new borehole, which must not be left behind either
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", "BH09", stored_at="Rack 9"), later)
-    assert _fields(refused) == {"code"}
-    assert "received already" in refused.value.errors[0].message
-    assert _counts(db) == before  # no BH09, no event
+    assert _fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
+    assert "received already" in refused.value.errors[0].message  # receipt._receive_scheduled
+    assert _counts(db) == before  # one transaction: no BH09, no event
     stored = _sample(db, job.job_id, "BH01-U1")
-    assert (stored.received_at, stored.stored_at) == (DELIVERED, "Rack 1")  # the first receipt stands
+    assert (stored.received_at, stored.stored_at) == (DELIVERED, "Rack 1")  # the first receipt's, as given
 
 
 def test_a_new_sample_received_twice_is_refused_the_second_time(db: Database, people: People) -> None:
@@ -217,15 +202,15 @@ def test_a_new_sample_received_twice_is_refused_the_second_time(db: Database, pe
     receive_sample(db, people.tech, job.job_id, row, DELIVERED)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    assert _fields(refused) == {"code"}
-    assert _count(db, Sample) == 2  # BH01-U1 and one BH01-D5
+    assert _fields(refused) == {"code"}  # received already (receipt._receive_scheduled)
+    assert _count(db, Sample) == 2  # BH01-U1 (scheduled) and one BH01-D5
 
 
 @pytest.mark.parametrize("condition", list(CONDITIONS))  # every id of vocabulary.CONDITIONS
 def test_each_condition_of_the_vocabulary_is_recorded(db: Database, people: People, condition: str) -> None:
     job = _scheduled(db, people)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", condition=condition), DELIVERED)
-    assert _sample(db, job.job_id, "BH01-U1").condition == condition
+    assert _sample(db, job.job_id, "BH01-U1").condition == condition  # as given
 
 
 @pytest.mark.parametrize("condition", ["", "soggy", "ok"])  # not ids of vocabulary.CONDITIONS
@@ -236,8 +221,8 @@ def test_a_condition_outside_the_vocabulary_is_refused_at_its_field(
     before = _counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", condition=condition), DELIVERED)
-    assert _fields(refused) == {"condition"}
-    assert _counts(db) == before
+    assert _fields(refused) == {"condition"}  # field-level
+    assert _counts(db) == before  # one transaction
 
 
 def test_the_receiver_is_recorded_and_must_be_an_active_member_of_the_laboratory(
@@ -246,35 +231,28 @@ def test_the_receiver_is_recorded_and_must_be_an_active_member_of_the_laboratory
     job = _scheduled(db, people)
     users.set_active(db, people.admin, people.review2.id or 0, False, "left the laboratory")
     before = _counts(db)
-    for receiver in (people.review2.id or 0, 9999):  # inactive; no such user
+    for receiver in (people.review2.id or 0, 9999):  # inactive; no such user in a fresh database
         with pytest.raises(Invalid) as refused:
             receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED, receiver)
-        assert _fields(refused) == {"received_by_id"}
+        assert _fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
+        new_row = ReceiptRow("BH01-D2", "BH02", 2.0, sample_type="bulk")
         with pytest.raises(Invalid) as refused:
-            receive_sample(
-                db,
-                people.tech,
-                job.job_id,
-                ReceiptRow("BH01-D2", "BH02", 2.0, sample_type="bulk"),
-                DELIVERED,
-                receiver,
-            )
-        assert _fields(refused) == {"received_by_id"}
-    assert _counts(db) == before  # neither row, nor BH02
+            receive_sample(db, people.tech, job.job_id, new_row, DELIVERED, receiver)
+        assert _fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
+    assert _counts(db) == before  # one transaction: neither row, nor BH02
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED, people.review.id)
-    stored = _sample(db, job.job_id, "BH01-U1")
-    assert stored.received_by_id == people.review.id  # booked in by tech, received by review (as given)
-    assert _events(db, "sample", job.u1)[-1].actor == "tech"  # the audit names who typed it
+    assert _sample(db, job.job_id, "BH01-U1").received_by_id == people.review.id  # as given
+    assert _events(db, "sample", job.u1)[-1].actor == "tech"  # audit: who typed it in
 
 
 def test_a_time_of_receipt_in_the_future_is_refused(db: Database, people: People) -> None:
     job = _scheduled(db, people)
     before = _counts(db)
-    tomorrow = datetime.now(UTC) + timedelta(days=1)
+    tomorrow = datetime.now(UTC) + timedelta(days=1)  # beyond FUTURE_SLACK, 10 min (receipt.py)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), tomorrow)
-    assert _fields(refused) == {"received_at"}
-    assert _counts(db) == before
+    assert _fields(refused) == {"received_at"}  # field-level
+    assert _counts(db) == before  # one transaction
 
 
 def test_a_clock_a_few_minutes_fast_and_a_blank_time_are_accepted(db: Database, people: People) -> None:
@@ -283,11 +261,12 @@ def test_a_clock_a_few_minutes_fast_and_a_blank_time_are_accepted(db: Database, 
         minutes=2
     )  # within FUTURE_SLACK, 10 min (receipt.py, common practice)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), fast)
-    assert _sample(db, job.job_id, "BH01-U1").received_at is not None
+    assert _sample(db, job.job_id, "BH01-U1").received_at is not None  # accepted (receipt.FUTURE_SLACK)
     start = datetime.now(UTC)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", 2.0, sample_type="bulk"))
     received = _sample(db, job.job_id, "BH01-D2").received_at
-    assert received is not None and start <= received <= datetime.now(UTC)  # blank: now (receipt.py)
+    assert received is not None  # a blank time is now (receipt.receive_sample)
+    assert start <= received <= datetime.now(UTC)  # a blank time is now (receipt.receive_sample)
 
 
 def test_a_withdrawn_scheduled_sample_cannot_be_received(db: Database, people: People) -> None:
@@ -296,8 +275,9 @@ def test_a_withdrawn_scheduled_sample_cannot_be_received(db: Database, people: P
     before = _counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED)
-    assert _fields(refused) == {"code"}
-    assert _counts(db) == before and _sample(db, job.job_id, "BH01-U1").received_at is None
+    assert _fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
+    assert _counts(db) == before  # one transaction
+    assert _sample(db, job.job_id, "BH01-U1").received_at is None  # one transaction
 
 
 def test_a_new_sample_row_with_several_mistakes_names_each_field_and_stores_nothing(
@@ -307,18 +287,19 @@ def test_a_new_sample_row_with_several_mistakes_names_each_field_and_stores_noth
     before = _counts(db)
     row = ReceiptRow(
         "BH02-D1",  # not on the schedule, so it needs a location and a depth (receipt.py)
-        "",
-        "abc",
-        "",
+        "",  # blank location: required (fields.Checks.code)
+        "abc",  # not a number
+        "",  # blank base: the top's, but the top was refused (samples.sample_values)
         "bucket",  # not in vocabulary.SAMPLE_TYPES
         condition="soaked",  # not in vocabulary.CONDITIONS
         stored_at="S" * 65,  # STORE_MAX 64 (receipt.py)
         location_kind="shaft",  # not in vocabulary.LOCATION_KINDS
     )
     with pytest.raises(Invalid) as refused:
-        receive_sample(db, people.tech, job.job_id, row, datetime.now(UTC) + timedelta(hours=2))
-    assert _fields(refused) == {
-        "location",  # the receipt sheet's name for the location code (receipt.py)
+        receive_sample(db, people.tech, job.job_id, row, datetime.now(UTC) + timedelta(hours=2))  # future
+    # "location" and "location_kind" are the receipt sheet's names for the location's code and kind
+    everything = {
+        "location",
         "location_kind",
         "depth_from_m",
         "sample_type",
@@ -326,7 +307,8 @@ def test_a_new_sample_row_with_several_mistakes_names_each_field_and_stores_noth
         "stored_at",
         "received_at",
     }
-    assert _counts(db) == before
+    assert _fields(refused) == everything  # field-level, all at once (fields.Checks)
+    assert _counts(db) == before  # one transaction
 
 
 def test_a_new_sample_needs_its_depth_and_type_even_when_the_rest_is_right(
@@ -337,21 +319,28 @@ def test_a_new_sample_needs_its_depth_and_type_even_when_the_rest_is_right(
         receive_sample(
             db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", sample_type="bulk"), DELIVERED
         )
-    assert _fields(refused) == {"depth_from_m"}  # required for a sample the schedule does not list
+    assert _fields(refused) == {"depth_from_m"}  # required (samples.sample_values)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", 2.0), DELIVERED)
-    assert _fields(refused) == {
-        "sample_type"
-    }  # no schedule value to keep, and no default (receipt.ReceiptRow)
-    assert _count(db, Sample) == 1
+    # no schedule value to keep, and ReceiptRow's type defaults to blank (receipt.ReceiptRow)
+    assert _fields(refused) == {"sample_type"}  # field-level
+    assert _count(db, Sample) == 1  # one transaction: BH01-U1 alone, as scheduled
 
 
-@pytest.mark.parametrize("top", ["NaN", "inf", "1e400", "1000,5"])  # not finite, or beyond DEPTH_MAX_M 1000 m
+@pytest.mark.parametrize(
+    "top",
+    [
+        "NaN",  # not a finite number (fields.Checks.number)
+        "inf",  # not a finite number (fields.Checks.number)
+        "1e400",  # overflows to infinity in a double (IEEE 754, computed)
+        "1000,5",  # beyond DEPTH_MAX_M 1000 m (schedule.py, common practice)
+    ],
+)
 def test_a_bad_depth_at_receipt_is_refused_like_anywhere_else(db: Database, people: People, top: str) -> None:
     job = _scheduled(db, people)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", top, sample_type="bulk"))
-    assert _fields(refused) == {"depth_from_m"}
+    assert _fields(refused) == {"depth_from_m"}  # field-level
 
 
 def test_an_unknown_method_on_a_row_leaves_no_sample_and_no_location_behind(
@@ -359,11 +348,12 @@ def test_an_unknown_method_on_a_row_leaves_no_sample_and_no_location_behind(
 ) -> None:
     job = _scheduled(db, people)
     before = _counts(db)
+    # "slake" is not one of server.engine.METHODS
     row = ReceiptRow("TP01-B1", "TP01", 0.5, 1.0, "bulk", location_kind="trial pit", methods=("slake",))
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    assert _fields(refused) == {"methods"}
-    assert _counts(db) == before
+    assert _fields(refused) == {"methods"}  # field-level (jobs.requests_in)
+    assert _counts(db) == before  # one transaction: no TP01, no TP01-B1
 
 
 def test_a_row_requests_only_the_tests_the_sample_does_not_have(db: Database, people: People) -> None:
@@ -372,7 +362,8 @@ def test_a_row_requests_only_the_tests_the_sample_does_not_have(db: Database, pe
     receive_sample(db, people.tech, job.job_id, row, DELIVERED)
     with db.session() as s:
         methods = sorted(t.method for t in s.exec(select(LabTest).where(LabTest.sample_id == job.u1)))
-    assert methods == ["atterberg", "water-content"]  # the scheduled Atterberg set is not doubled
+    # the schedule's Atterberg set is not doubled (jobs.requests_in skip_existing)
+    assert methods == ["atterberg", "water-content"]
 
 
 def test_a_sample_registered_at_receipt_is_audited_as_created_with_its_receipt(
@@ -381,21 +372,18 @@ def test_a_sample_registered_at_receipt_is_audited_as_created_with_its_receipt(
     job = _scheduled(db, people)
     row = ReceiptRow("TP01-B1", "TP01", 0.5, 1.0, "bulk", condition="leaking", location_kind="trial pit")
     done = receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    (location_event,) = [e for e in _events(db, "location") if e.after and e.after["code"] == "TP01"]
-    assert (location_event.action, location_event.actor) == ("create", "tech")
-    (event,) = _events(db, "sample", done.sample.id)
-    assert (event.action, event.actor, event.before) == ("create", "tech", None)
+    (location_event,) = [e for e in _events(db, "location") if e.after and e.after["code"] == "TP01"]  # one
+    assert (location_event.action, location_event.actor) == ("create", "tech")  # audit
+    (event,) = _events(db, "sample", done.sample.id)  # one event: the create carries the receipt
+    assert (event.action, event.actor, event.before) == ("create", "tech", None)  # audit (receipt.py)
     assert event.after is not None
-    assert (event.after["condition"], event.after["received_at"], event.after["received_by_id"]) == (
-        "leaking",
-        "2026-11-30T08:30:00Z",  # DELIVERED as JSON (computed)
-        people.tech.id,
-    )
+    after = (event.after["condition"], event.after["received_at"], event.after["received_by_id"])
+    assert after == ("leaking", DELIVERED_JSON, people.tech.id)  # as given; the receiver when none is named
 
 
 def test_a_receipt_for_a_job_that_does_not_exist_is_refused(db: Database, people: People) -> None:
-    with pytest.raises(NotFound):
+    with pytest.raises(NotFound):  # no job 9999 in a fresh database (receipt.receive_sample)
         receive_sample(
             db, people.tech, 9999, ReceiptRow("BH01-U1", "BH01", 1.2, sample_type="U100"), DELIVERED
         )
-    assert _count(db, Sample) == 0
+    assert _count(db, Sample) == 0  # nothing stored
