@@ -11,19 +11,21 @@ from __future__ import annotations
 import math
 import random
 from dataclasses import dataclass, field
-from datetime import date, timedelta
+from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
 from sqlalchemy.engine import make_url
+from sqlmodel import select
 
 from server.config import Settings
 from server.db.migrate import upgrade
 from server.db.session import Database
-from server.db.tables import User
+from server.db.tables import Job, User
 from server.demo_report import add_report_tests
 from server.engine import METHODS
-from server.services import bench, jobs, links, registers, reports, review, samples
+from server.exchange.spreadsheet import read_spreadsheet
+from server.services import bench, imports, jobs, links, receipt, registers, reports, review, samples
 from server.services.users import create_user
 
 LOGINS = (
@@ -244,12 +246,20 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         "Tarn Hollow, Selwyn Moor",
         due_date=date.today() + timedelta(days=14),
     )
+    delivered = datetime.now(UTC).replace(second=0, microsecond=0) - timedelta(days=3)
     for (code, kind), soils in LOCATIONS.items():
-        location = samples.add_location(db, admin, job.id or 0, code, kind)
+        samples.add_location(db, admin, job.id or 0, code, kind)
         for soil in soils:
-            sample = samples.add_sample(
-                db, admin, location.id or 0, soil.code, *soil.depth, soil.sample_type, soil.description
+            row = receipt.ReceiptRow(
+                soil.code,
+                code,
+                *soil.depth,
+                soil.sample_type,
+                soil.description,
+                "intact",
+                "Cold room, rack A",
             )
+            sample = receipt.receive_sample(db, tech, job.id or 0, row, delivered).sample
             (test,) = jobs.request_tests(db, admin, [sample.id or 0], ["atterberg"], assigned_to_id=tech.id)
             readings = {**atterberg_readings(soil, rng), **_bench_equipment(soil, equipment)}
             _advance(db, test.id or 0, soil, readings, tech, reviewer)
@@ -258,12 +268,49 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
     _every_bench_page(db, job.id or 0, admin, tech)
     report = reports.issue_report(db, reviewer, job.id or 0, settings.public_base_url)
     link = links.create_link(db, reviewer, job.id or 0, 30, "Selwyn Moor design office")
+    _scheduled_job(db, admin, tech, client.name)
     return DemoInfo(
         settings.database_url,
         job.code,
         report.number,
         f"{settings.public_base_url.rstrip('/')}/share/{link.token}",
     )
+
+
+# A second job as a client's schedule arrives: imported from a CSV file like any other, with
+# part of the delivery booked in and the rest still expected (fictional).
+SCHEDULE_JOB = "SMW-2640"
+SCHEDULE_CSV = "".join(
+    line + "\n"
+    for line in (
+        "Location,Location type,Easting (m),Northing (m),Ground level (m),"
+        "Sample,Depth top (m),Depth base (m),Sample type,Description,Tests",
+        "WS01,window sample,398120.5,512044.2,211.35,WS01-L1,0.50,1.50,liner,Soft brown sandy CLAY,"
+        "water-content",
+        "WS01,window sample,398120.5,512044.2,211.35,WS01-L2,1.50,2.50,liner,Firm grey CLAY,"
+        "water-content; atterberg",
+        "WS02,window sample,398161.0,512031.7,210.90,WS02-L1,0.40,1.40,liner,Soft brown silty CLAY,"
+        "water-content",
+        "WS02,window sample,398161.0,512031.7,210.90,WS02-L2,1.40,2.40,liner,Firm grey silty CLAY,"
+        "water-content; atterberg",
+        "HA01,hand auger,398140.2,512060.9,211.80,HA01-D1,0.30,,disturbed,Brown sandy topsoil,",
+    )
+)
+SCHEDULE_RECEIVED = ("WS01-L1", "WS01-L2", "WS02-L1")
+
+
+def _scheduled_job(db: Database, admin: User, tech: User, client: str) -> None:
+    """The spillway job: its schedule imported through the import service, then three of its
+    five samples received at the bench (the others are still expected)."""
+    schedule = read_spreadsheet("spillway-schedule.csv", SCHEDULE_CSV.encode())
+    target = imports.Target(SCHEDULE_JOB, client, "Tarn Hollow spillway channel", "Tarn Hollow, Selwyn Moor")
+    imports.import_schedule(db, admin, schedule, target, source="spillway-schedule.csv")
+    with db.session() as s:
+        job = s.exec(select(Job).where(Job.code == SCHEDULE_JOB)).one()
+    arrived = datetime.now(UTC).replace(second=0, microsecond=0) - timedelta(hours=2)
+    for code in SCHEDULE_RECEIVED:
+        row = receipt.ReceiptRow(code, condition="intact", stored_at="Cold room, rack B")
+        receipt.receive_sample(db, tech, job.id or 0, row, arrived)
 
 
 def _fill_registers(db: Database, admin: User) -> dict[str, dict[str, Any]]:

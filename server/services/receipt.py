@@ -145,7 +145,8 @@ def _receive_scheduled(
     values.pop("remarks", None)
     refusal = identity_refusal(s, sample, values)
     if refusal:
-        refuse(*refusal)
+        field, message = refusal
+        refuse("location" if field == "location_id" else field, message)  # the receipt sheet's name
     before = sample.model_dump(mode="json")
     for key, value in (values | receipt).items():
         setattr(sample, key, value)

@@ -26,8 +26,8 @@ from sqlmodel import col, select
 
 from server.config import Settings
 from server.db.session import Database
-from server.db.tables import LabTest, Report, Sample, User
-from server.demo import LOGINS, load_demo
+from server.db.tables import AuditEvent, Job, LabTest, Report, Sample, User
+from server.demo import LOGINS, SCHEDULE_JOB, SCHEDULE_RECEIVED, load_demo
 from server.demo_report import STRENGTHS
 from server.engine.rounding import reported
 from server.reports.context import DEFAULT_CAUTIONS
@@ -192,3 +192,15 @@ def test_the_same_report_data_render_the_same_bytes_as_the_stored_pdf(demo: Demo
                                   number=demo.report.number)
     again = render_report_pdf(data)
     assert hashlib.sha256(again).hexdigest() == demo.report.sha256
+
+
+def test_the_demo_has_a_job_started_from_an_imported_schedule_with_part_of_it_received(demo: Demo) -> None:
+    with demo.db.session() as s:
+        job = s.exec(select(Job).where(Job.code == SCHEDULE_JOB)).one()
+        rows = list(s.exec(select(Sample).where(Sample.job_id == job.id).order_by(col(Sample.code))))
+        imported = s.exec(
+            select(AuditEvent).where(AuditEvent.entity == "job", AuditEvent.action == "import")
+        ).one()
+    assert len(rows) == 5  # the demo's own schedule has five samples
+    assert sorted(x.code for x in rows if x.received_at) == sorted(SCHEDULE_RECEIVED)
+    assert imported.entity_id == job.id and imported.after["created"]["samples"] == 5

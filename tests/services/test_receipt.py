@@ -181,6 +181,23 @@ def test_a_scheduled_sample_with_readings_received_with_another_depth_is_refused
     assert _sample(db, job.job_id, "BH01-U1").received_at is None  # one transaction
 
 
+def test_a_scheduled_sample_with_readings_received_at_another_location_is_refused_at_the_location(
+    db: Database, people: People
+) -> None:
+    job = _scheduled(db, people)
+    with db.session() as s:
+        test = s.exec(select(LabTest).where(LabTest.sample_id == job.u1)).one()
+    readings = {"water_content": {"determinations": NATURAL}}  # a first part of the Atterberg set
+    bench.save_readings(db, people.tech, test.id or 0, readings, test.version)
+    before = _counts(db)
+    with pytest.raises(Invalid) as refused:
+        receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", "BH02"), DELIVERED)
+    # the receipt sheet's own field, where the page shows the message (ReceiptRow.location)
+    assert _fields(refused) == {"location"}
+    assert _counts(db) == before  # one transaction: no BH02
+    assert _sample(db, job.job_id, "BH01-U1").location_id == job.bh01  # the schedule's
+
+
 def test_a_sample_is_received_once(db: Database, people: People) -> None:
     job = _scheduled(db, people)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", stored_at="Rack 1"), DELIVERED)
