@@ -131,11 +131,12 @@ def matching_samples(
     sample_type: str = "",
 ) -> list[tuple[Sample, Location]]:
     """The samples of a job a bulk request covers: one location or all, optionally only those
-    whose description contains a word (any case) or of one sample type."""
+    whose description contains a word (any case) or of one sample type. Withdrawn samples take
+    no new tests and are never covered."""
     stmt = (
         select(Sample, Location)
         .join(Location, col(Location.id) == Sample.location_id)
-        .where(Location.job_id == job_id)
+        .where(Location.job_id == job_id, col(Sample.withdrawn_at).is_(None))
         .order_by(col(Location.code), col(Sample.depth_from_m), col(Sample.code))
     )
     if location_id is not None:

@@ -95,13 +95,20 @@ def receive_sample(
     location = location_values(
         LocationForm(row.location, row.location_kind), checks, {"code": "location", "kind": "location_kind"}
     )
+    if not row.sample_type.strip():
+        checks.add("sample_type", "choose the sample type: the schedule does not list this sample")
     values = sample_values(
-        SampleForm(row.code, row.depth_from_m, row.depth_to_m, row.sample_type, row.description), checks
+        SampleForm(
+            row.code, row.depth_from_m, row.depth_to_m, row.sample_type or "disturbed", row.description
+        ),
+        checks,
     )
     receipt: dict[str, Any] = {
         "condition": checks.choice("condition", row.condition, "condition on receipt", CONDITIONS),
         "stored_at": checks.text("stored_at", row.stored_at, "store location", STORE_MAX),
     }
+    if received_at is not None and received_at.tzinfo is None:
+        received_at = received_at.replace(tzinfo=UTC)  # a time without a zone is taken as UTC
     if received_at is not None and received_at > datetime.now(UTC) + FUTURE_SLACK:
         checks.add("received_at", "the time of receipt is in the future")
     checks.done()

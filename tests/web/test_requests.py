@@ -165,3 +165,14 @@ def test_technicians_do_not_request_tests(app_client: TestClient, db: Database, 
     fields = [("job_id", str(bh.job_id)), ("sample_ids", str(bh.samples["BH1-U1"])), ("methods", "vane")]
     assert post_form(app_client, "/bench", "/requests", fields).status_code == 403
     assert _tests(db) == before
+
+
+def test_a_bulk_request_leaves_out_a_withdrawn_sample(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    bh = _two_boreholes(db, people)
+    samples.withdraw_sample(db, people.admin, bh.samples["BH1-U1"], "Tube found empty on extrusion")
+    sign_in(app_client, "review", PASSWORDS["review"])
+    page = app_client.get(_clay_of_bh1(bh))
+    assert page.status_code == 200
+    assert "BH1-U1" not in page.text and "BH1-U3" in page.text  # the withdrawn clay is not offered
