@@ -125,9 +125,7 @@ def _output(ev: Evaluation, readings: dict[str, Any], section: Rows, i: int, out
     else:
         typed = value_at(readings, f"{section.path}.{i}.{out.align}")
         if _number(typed):
-            entry = next(
-                (e for e in entries if isinstance(e, dict) and same(e.get(out.align), typed)), None
-            )
+            entry = next((e for e in entries if isinstance(e, dict) and same(e.get(out.align), typed)), None)
     value = entry.get(out.field) if out.field and isinstance(entry, dict) else entry
     if not _number(value):
         return None
@@ -140,14 +138,23 @@ def _row_flags(ev: Evaluation, noun: str, number: int) -> list[Flag]:
     return [f for f in ev.flags if f.message.startswith(prefix)]
 
 
-def _cells(inputs: tuple[Input, ...], base: str, readings: dict[str, Any], errors: dict[str, str],
-           who: str) -> list[Cell]:
+def _cells(
+    inputs: tuple[Input, ...], base: str, readings: dict[str, Any], errors: dict[str, str], who: str
+) -> list[Cell]:
     cells = []
     for inp in inputs:
         path = f"{base}{inp.key}"
         cells.append(
-            Cell(inp, path, "r." + path, _dom(path), text_of(value_at(readings, path)), errors.get(path),
-                 who, hidden=not _shown_when(inp, readings))
+            Cell(
+                inp,
+                path,
+                "r." + path,
+                _dom(path),
+                text_of(value_at(readings, path)),
+                errors.get(path),
+                who,
+                hidden=not _shown_when(inp, readings),
+            )
         )
     return cells
 
@@ -173,8 +180,15 @@ def sheet_view(method: str, readings: dict[str, Any], ev: Evaluation) -> list[Se
             rows.append(SheetRow(i, i + 1, cells, outputs, _row_flags(ev, section.noun, i + 1), spare))
         whole = next((e for e in ev.errors if dotted(e.loc) == section.path), None)
         views.append(
-            SectionView(section, "rows", f"part-{n}", rows, hidden,
-                        whole.message if whole else None, whole.kind if whole else "")
+            SectionView(
+                section,
+                "rows",
+                f"part-{n}",
+                rows,
+                hidden,
+                whole.message if whole else None,
+                whole.kind if whole else "",
+            )
         )
     return views
 
@@ -325,16 +339,19 @@ def save_fields(request: Request, test_id: int, user: Staff, body: FieldsIn) -> 
         inp = input_at(method, item.path)
         if inp is None:
             return JSONResponse(
-                {"detail": f"{item.path!r} is not a field of this sheet",
-                 "errors": [{"path": item.path, "message": "not a field of this sheet"}]},
+                {
+                    "detail": f"{item.path!r} is not a field of this sheet",
+                    "errors": [{"path": item.path, "message": "not a field of this sheet"}],
+                },
                 status_code=422,
             )
         changes.append(bench.Change(item.path, inp.value(item.value), inp.value(item.base)))
     try:
         saved = bench.save_changes(database(request), user, test_id, changes)
     except bench.FieldConflicts as exc:
-        conflicts = [{"path": c.path, "theirs": text_of(c.theirs), "yours": text_of(c.yours)}
-                     for c in exc.conflicts]
+        conflicts = [
+            {"path": c.path, "theirs": text_of(c.theirs), "yours": text_of(c.yours)} for c in exc.conflicts
+        ]
         return JSONResponse({"detail": str(exc), "conflicts": conflicts}, status_code=409)
     except Invalid as exc:
         errors = [{"path": dotted(e.loc), "message": e.message} for e in exc.errors]

@@ -110,8 +110,15 @@ def staff_pdf(request: Request, report_id: int, user: Annotated[User, Depends(re
 
 
 def _verify_page(request: Request, status_code: int = 200, **context: object) -> Response:
-    context = {"verdict": None, "number": "", "revision": "", "sha256": "", "problem": "", "file_name": "",
-               **context}
+    context = {
+        "verdict": None,
+        "number": "",
+        "revision": "",
+        "sha256": "",
+        "problem": "",
+        "file_name": "",
+        **context,
+    }
     response = render(request, "pages/verify.html", status_code=status_code, user=None, **context)
     response.headers.update(PRIVATE)
     return response

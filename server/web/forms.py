@@ -90,3 +90,10 @@ def refusal_of(exc: Exception) -> tuple[dict[str, str], str]:
     if errors and all(hasattr(e, "loc") for e in errors):
         return errors_by_path(errors), f"Nothing was saved: {exc}."
     return {}, f"Nothing was saved: {exc}."
+
+
+def record_id(raw: str) -> int | None:
+    """A record id as a form or query sends it (a select's value, ``?sample=``), or None when it
+    is not one: only plain digits short enough for any backend's integer column are ids."""
+    raw = raw.strip()
+    return int(raw) if raw.isdigit() and len(raw) < 10 else None

@@ -15,6 +15,7 @@ from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, File, Form, HTTPException, Request, UploadFile
 from fastapi.responses import RedirectResponse
+from pydantic import BaseModel
 from sqlmodel import col, select
 from starlette.responses import Response
 
@@ -25,15 +26,13 @@ from server.exchange.schedule import CellError, Origin, Schedule
 from server.services import imports, staging
 from server.services.errors import ServiceError, http_status
 from server.services.imports import FILE_MAX_BYTES, ImportPlan, ImportRefused, Target
-from server.web.forms import refusal_of
+from server.web.forms import record_id, refusal_of
 from server.web.templating import render
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
-Text = Annotated[str, Form()]
-Texts = Annotated[list[str] | None, Form()]
 
 FIELD_CHOICES = {"": "(not read)", **{name: column.label for name, column in spreadsheet.FIELDS.items()}}
 ACTION_WORDS = {
@@ -95,11 +94,6 @@ def preview_rows(plan: ImportPlan) -> tuple[list[PreviewRow], list[CellError]]:
     return ordered, whole
 
 
-def _mapping(headers: list[str] | None, fields: list[str] | None) -> dict[str, str]:
-    """The person's choices of field for headers, as pairs of parallel form lists."""
-    return {h: f for h, f in zip(headers or [], fields or [], strict=False) if h}
-
-
 def _headers(filename: str, content: bytes, mapping: dict[str, str]) -> list[tuple[str, str, bool]]:
     """A spreadsheet's headers, each with the field it gives and whether a person chose it."""
     try:
@@ -111,18 +105,15 @@ def _headers(filename: str, content: bytes, mapping: dict[str, str]) -> list[tup
     return [(h, taken.get(i, ""), h in mapping) for i, h in enumerate(table.headers) if h.strip()]
 
 
-def _target(
-    request: Request, job_id: str, job: str, client: str, title: str, site: str
-) -> tuple[Target, Job | None]:
+def _target(request: Request, fields: ImportFields) -> tuple[Target, Job | None]:
     """The import's target: the page's job when it was opened from one, else what was typed."""
-    found = None
-    if job_id.isdigit() and len(job_id) < 10:
+    if fields.job_id:
         with database(request).session() as s:
-            found = s.get(Job, int(job_id))
+            found = s.get(Job, record_id(fields.job_id) or 0)
         if found is None:
             raise HTTPException(404, "no such job")
         return Target(found.code), found
-    return Target(job, client, title, site), None
+    return Target(fields.job, fields.client, fields.title, fields.site), None
 
 
 def _upload_page(
@@ -166,7 +157,6 @@ def job_import_page(request: Request, job_id: int, user: Checker) -> Response:
 
 def _preview(
     request: Request,
-    user: User,
     staged: staging.Staged,
     target: Target,
     job: Job | None,
@@ -200,24 +190,36 @@ def _preview(
     )
 
 
+class ImportFields(BaseModel):
+    """What the upload, preview and confirmation forms carry besides the file: the staged
+    file's token, the job (the page's own, or the one typed), and the header mapping chosen."""
+
+    token: str = ""
+    job_id: str = ""
+    job: str = ""
+    client: str = ""
+    title: str = ""
+    site: str = ""
+    map_header: list[str] = []
+    map_field: list[str] = []
+
+    def typed(self) -> dict[str, str]:
+        return {"job": self.job, "client": self.client, "title": self.title, "site": self.site}
+
+    def mapping(self) -> dict[str, str]:
+        """The person's choice of field for each header, as pairs of the parallel lists."""
+        return {h: f for h, f in zip(self.map_header, self.map_field, strict=False) if h}
+
+
+Fields = Annotated[ImportFields, Form()]
+
+
 @router.post("/import/preview")
 def preview_import(
-    request: Request,
-    user: Checker,
-    file: Annotated[UploadFile | None, File()] = None,
-    token: Text = "",
-    job_id: Text = "",
-    job: Text = "",
-    client: Text = "",
-    title: Text = "",
-    site: Text = "",
-    map_header: Texts = None,
-    map_field: Texts = None,
+    request: Request, user: Checker, fields: Fields, file: Annotated[UploadFile | None, File()] = None
 ) -> Response:
     """Read an upload (or the staged file again, with a header mapping) and show the preview."""
-    form = {"job": job, "client": client, "title": title, "site": site}
-    target, found = _target(request, job_id, job, client, title, site)
-    mapping = _mapping(map_header, map_field)
+    target, found = _target(request, fields)
     try:
         if file is not None and file.filename:
             content = file.file.read(FILE_MAX_BYTES + 1)
@@ -225,53 +227,41 @@ def preview_import(
                 # read_schedule words the refusal (kind of file, size) as the command does
                 imports.read_schedule(file.filename, content)
             staged = staging.stage(database(request), user, file.filename, content)
-        elif token:
-            staged = staging.staged(database(request), user, token)
+        elif fields.token:
+            staged = staging.staged(database(request), user, fields.token)
         else:
-            return _upload_page(
-                request, found, form, 422, errors={"file": "choose a .csv, .xlsx or .ags file to import"}
-            )
-        return _preview(request, user, staged, target, found, mapping)
+            errors = {"file": "choose a .csv, .xlsx or .ags file to import"}
+            return _upload_page(request, found, fields.typed(), 422, errors=errors)
+        return _preview(request, staged, target, found, fields.mapping())
     except ImportRefused as exc:
         message = "; ".join(e.message for e in exc.errors)
-        return _upload_page(request, found, form, 422, errors={"file": message})
+        return _upload_page(request, found, fields.typed(), 422, errors={"file": message})
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
-        return _upload_page(request, found, form, http_status(exc), errors=errors, problem=problem)
+        return _upload_page(request, found, fields.typed(), http_status(exc), errors=errors, problem=problem)
 
 
 @router.post("/import/confirm")
-def confirm_import(
-    request: Request,
-    user: Checker,
-    token: Text = "",
-    job_id: Text = "",
-    job: Text = "",
-    client: Text = "",
-    title: Text = "",
-    site: Text = "",
-    map_header: Texts = None,
-    map_field: Texts = None,
-) -> Response:
+def confirm_import(request: Request, user: Checker, fields: Fields) -> Response:
     """Import the previewed file in one transaction, then open the job."""
-    form = {"job": job, "client": client, "title": title, "site": site}
-    target, found = _target(request, job_id, job, client, title, site)
-    mapping = _mapping(map_header, map_field)
+    target, found = _target(request, fields)
+    mapping = fields.mapping()
     try:
-        staged = staging.staged(database(request), user, token)
+        staged = staging.staged(database(request), user, fields.token)
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
-        return _upload_page(request, found, form, http_status(exc), errors=errors, problem=problem)
+        return _upload_page(request, found, fields.typed(), http_status(exc), errors=errors, problem=problem)
     try:
         schedule = imports.read_schedule(staged.filename, staged.content, mapping or None)
         plan = imports.import_schedule(
             database(request), user, schedule, target, source=f"{staged.filename} (sha256 {staged.sha256})"
         )
     except ImportRefused as exc:
-        return _preview(request, user, staged, target, found, mapping, exc.errors)
+        return _preview(request, staged, target, found, mapping, exc.errors)
     except ServiceError as exc:
-        refused = [CellError(Origin(row=None), "job", str(exc))]
-        return _preview(request, user, staged, target, found, mapping, refused)
+        return _preview(
+            request, staged, target, found, mapping, [CellError(Origin(row=None), "job", str(exc))]
+        )
     staging.discard(database(request), staged.token)
     with database(request).session() as s:
         stored = s.exec(select(Job).where(Job.code == plan.job)).first()

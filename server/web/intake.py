@@ -1,7 +1,9 @@
 """Registration pages: clients, jobs, locations and samples (reviewers and admins).
 
 Every form posts, and either redirects to a page that says what was done (post, redirect,
-get) or shows the form again with the typed values and a message at each refused field.
+get) or shows the form again with the typed values and a message at each refused field. Each
+form's fields are one model (``ClientFields``...), shared by the page that adds a record and
+the page that edits it.
 """
 
 from __future__ import annotations
@@ -10,6 +12,7 @@ from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import RedirectResponse
+from pydantic import BaseModel
 from sqlmodel import col, select
 from starlette.responses import Response
 
@@ -18,7 +21,7 @@ from server.db.tables import Client, Job, Location, Sample, User
 from server.services import jobs, samples
 from server.services.errors import ServiceError, http_status
 from server.services.fields import refuse
-from server.web.forms import refusal_of
+from server.web.forms import record_id, refusal_of
 from server.web.job_page import done_message, job_page_response
 from server.web.templating import render
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES, STANDARDS
@@ -26,6 +29,58 @@ from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES, STANDARDS
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 Text = Annotated[str, Form()]
+
+
+class ClientFields(BaseModel):
+    name: str = ""
+    contact: str = ""
+    email: str = ""
+    postal_address: str = ""
+
+
+class JobFields(BaseModel):
+    client_id: str = ""
+    code: str = ""
+    title: str = ""
+    site: str = ""
+    order_reference: str = ""
+    received_on: str = ""
+    due_date: str = ""
+    standards: str = "astm"
+    notes: str = ""
+
+    def job_form(self) -> jobs.JobForm:
+        values = self.model_dump(exclude={"client_id"})
+        return jobs.JobForm(record_id(self.client_id) or 0, **values)
+
+
+class LocationFields(BaseModel):
+    code: str = ""
+    kind: str = "borehole"
+    easting: str = ""
+    northing: str = ""
+    ground_level_m: str = ""
+
+    def location_form(self) -> samples.LocationForm:
+        return samples.LocationForm(**self.model_dump())
+
+
+class SampleFields(BaseModel):
+    location_id: str = ""
+    code: str = ""
+    depth_from_m: str = ""
+    depth_to_m: str = ""
+    sample_type: str = "disturbed"
+    description: str = ""
+    remarks: str = ""
+
+    def sample_form(self) -> samples.SampleForm:
+        own = SampleFields.model_fields.keys() - {"location_id"}
+        return samples.SampleForm(**self.model_dump(include=set(own)))
+
+
+class NewSampleFields(SampleFields):
+    methods: list[str] = []
 
 
 def _get(request: Request, table: type[Any], record_id: int) -> Any:
@@ -36,18 +91,7 @@ def _get(request: Request, table: type[Any], record_id: int) -> Any:
     return found
 
 
-def _refused(
-    request: Request, exc: ServiceError, template: str, form: dict[str, Any], **context: Any
-) -> Response:
-    errors, problem = refusal_of(exc)
-    return render(
-        request, template, status_code=http_status(exc), errors=errors, problem=problem, form=form, **context
-    )
-
-
 # --- clients ----------------------------------------------------------------------------------
-
-CLIENT_FIELDS = ("name", "contact", "email", "postal_address")
 
 
 def _clients_page(request: Request, status_code: int = 200, **extra: Any) -> Response:
@@ -58,7 +102,7 @@ def _clients_page(request: Request, status_code: int = 200, **extra: Any) -> Res
         "pages/clients.html",
         status_code=status_code,
         rows=rows,
-        form=extra.get("form", dict.fromkeys(CLIENT_FIELDS, "")),
+        form=extra.get("form", ClientFields().model_dump()),
         errors=extra.get("errors", {}),
         problem=extra.get("problem"),
         message=done_message(extra.get("done", "")),
@@ -71,19 +115,12 @@ def clients_page(request: Request, user: Checker, done: str = "") -> Response:
 
 
 @router.post("/clients")
-def add_client(
-    request: Request,
-    user: Checker,
-    name: Text = "",
-    contact: Text = "",
-    email: Text = "",
-    postal_address: Text = "",
-) -> Response:
-    form = {"name": name, "contact": contact, "email": email, "postal_address": postal_address}
+def add_client(request: Request, user: Checker, fields: Annotated[ClientFields, Form()]) -> Response:
     try:
-        jobs.create_client(database(request), user, name, contact, email, postal_address)
+        jobs.create_client(database(request), user, **fields.model_dump())
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
+        form = fields.model_dump()
         return _clients_page(request, http_status(exc), form=form, errors=errors, problem=problem)
     return RedirectResponse("/clients?done=client-added", status_code=303)
 
@@ -112,39 +149,20 @@ def _client_form(request: Request, client: Client, form: dict[str, Any], **extra
 
 @router.post("/clients/{client_id}")
 def save_client(
-    request: Request,
-    client_id: int,
-    user: Checker,
-    name: Text = "",
-    contact: Text = "",
-    email: Text = "",
-    postal_address: Text = "",
+    request: Request, client_id: int, user: Checker, fields: Annotated[ClientFields, Form()]
 ) -> Response:
     client = _get(request, Client, client_id)
-    form = {"name": name, "contact": contact, "email": email, "postal_address": postal_address}
     try:
-        jobs.update_client(database(request), user, client_id, name, contact, email, postal_address)
+        jobs.update_client(database(request), user, client_id, **fields.model_dump())
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
         return _client_form(
-            request, client, form, status_code=http_status(exc), errors=errors, problem=problem
+            request, client, fields.model_dump(), status_code=http_status(exc), errors=errors, problem=problem
         )
     return RedirectResponse(f"/clients/{client_id}?done=client-saved", status_code=303)
 
 
 # --- jobs -------------------------------------------------------------------------------------
-
-JOB_FIELDS = (
-    "client_id",
-    "code",
-    "title",
-    "site",
-    "order_reference",
-    "received_on",
-    "due_date",
-    "standards",
-    "notes",
-)
 
 
 def _job_form_page(request: Request, job: Job | None, form: dict[str, Any], **extra: Any) -> Response:
@@ -171,49 +189,26 @@ def _job_form_of(job: Job) -> dict[str, Any]:
 
 
 @router.get("/jobs/new")
-def new_job_page(request: Request, user: Checker, client: int | None = None) -> Response:
-    form: dict[str, Any] = dict.fromkeys(JOB_FIELDS, "")
-    form |= {"standards": "astm", "client_id": client or ""}
+def new_job_page(request: Request, user: Checker, client: str = "") -> Response:
+    form = JobFields(client_id=str(record_id(client) or "")).model_dump()
     return _job_form_page(request, None, form)
 
 
-def _form_job(client_id: str, **values: str) -> jobs.JobForm:
-    return jobs.JobForm(int(client_id) if client_id.isdigit() and len(client_id) < 10 else 0, **values)
+def _save_job(request: Request, user: User, fields: JobFields, job: Job | None) -> Response:
+    """Register a job (``job`` None) or save its edit, then open it; or show the refusals."""
+    try:
+        saved = jobs.save_job(database(request), user, fields.job_form(), job.id if job else None)
+    except ServiceError as exc:
+        errors, problem = refusal_of(exc)
+        return _job_form_page(
+            request, job, fields.model_dump(), status_code=http_status(exc), errors=errors, problem=problem
+        )
+    return RedirectResponse(f"/jobs/{saved.id}?done={'saved' if job else 'created'}", status_code=303)
 
 
 @router.post("/jobs/new")
-def create_job(
-    request: Request,
-    user: Checker,
-    client_id: Text = "",
-    code: Text = "",
-    title: Text = "",
-    site: Text = "",
-    order_reference: Text = "",
-    received_on: Text = "",
-    due_date: Text = "",
-    standards: Text = "astm",
-    notes: Text = "",
-) -> Response:
-    values = {
-        "code": code,
-        "title": title,
-        "site": site,
-        "order_reference": order_reference,
-        "received_on": received_on,
-        "due_date": due_date,
-        "standards": standards,
-        "notes": notes,
-    }
-    try:
-        job = jobs.save_job(database(request), user, _form_job(client_id, **values))
-    except ServiceError as exc:
-        errors, problem = refusal_of(exc)
-        form = {"client_id": client_id, **values}
-        return _job_form_page(
-            request, None, form, status_code=http_status(exc), errors=errors, problem=problem
-        )
-    return RedirectResponse(f"/jobs/{job.id}?done=created", status_code=303)
+def create_job(request: Request, user: Checker, fields: Annotated[JobFields, Form()]) -> Response:
+    return _save_job(request, user, fields, None)
 
 
 @router.get("/jobs/{job_id}/edit")
@@ -223,40 +218,8 @@ def edit_job_page(request: Request, job_id: int, user: Checker) -> Response:
 
 
 @router.post("/jobs/{job_id}/edit")
-def save_job(
-    request: Request,
-    job_id: int,
-    user: Checker,
-    client_id: Text = "",
-    code: Text = "",
-    title: Text = "",
-    site: Text = "",
-    order_reference: Text = "",
-    received_on: Text = "",
-    due_date: Text = "",
-    standards: Text = "astm",
-    notes: Text = "",
-) -> Response:
-    job = _get(request, Job, job_id)
-    values = {
-        "code": code,
-        "title": title,
-        "site": site,
-        "order_reference": order_reference,
-        "received_on": received_on,
-        "due_date": due_date,
-        "standards": standards,
-        "notes": notes,
-    }
-    try:
-        jobs.save_job(database(request), user, _form_job(client_id, **values), job_id)
-    except ServiceError as exc:
-        errors, problem = refusal_of(exc)
-        form = {"client_id": client_id, **values}
-        return _job_form_page(
-            request, job, form, status_code=http_status(exc), errors=errors, problem=problem
-        )
-    return RedirectResponse(f"/jobs/{job_id}?done=saved", status_code=303)
+def save_job(request: Request, job_id: int, user: Checker, fields: Annotated[JobFields, Form()]) -> Response:
+    return _save_job(request, user, fields, _get(request, Job, job_id))
 
 
 # --- locations --------------------------------------------------------------------------------
@@ -264,32 +227,18 @@ def save_job(
 
 @router.post("/jobs/{job_id}/locations")
 def add_location(
-    request: Request,
-    job_id: int,
-    user: Checker,
-    code: Text = "",
-    kind: Text = "borehole",
-    easting: Text = "",
-    northing: Text = "",
-    ground_level_m: Text = "",
+    request: Request, job_id: int, user: Checker, fields: Annotated[LocationFields, Form()]
 ) -> Response:
     _get(request, Job, job_id)
-    form = {
-        "code": code,
-        "kind": kind,
-        "easting": easting,
-        "northing": northing,
-        "ground_level_m": ground_level_m,
-    }
     try:
-        samples.add_location(database(request), user, job_id, code, kind, easting, northing, ground_level_m)
+        samples.add_location(database(request), user, job_id, **fields.model_dump())
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
         return job_page_response(
             request,
             job_id,
             status_code=http_status(exc),
-            location_form=form,
+            location_form=fields.model_dump(),
             location_errors=errors,
             error=problem,
         )
@@ -319,88 +268,44 @@ def _location_form(request: Request, loc: Location, form: dict[str, Any], **extr
 
 @router.post("/locations/{location_id}/edit")
 def save_location(
-    request: Request,
-    location_id: int,
-    user: Checker,
-    code: Text = "",
-    kind: Text = "borehole",
-    easting: Text = "",
-    northing: Text = "",
-    ground_level_m: Text = "",
+    request: Request, location_id: int, user: Checker, fields: Annotated[LocationFields, Form()]
 ) -> Response:
     loc = _get(request, Location, location_id)
-    form = {
-        "code": code,
-        "kind": kind,
-        "easting": easting,
-        "northing": northing,
-        "ground_level_m": ground_level_m,
-    }
     try:
-        samples.update_location(
-            database(request),
-            user,
-            location_id,
-            samples.LocationForm(code, kind, easting, northing, ground_level_m),
-        )
+        samples.update_location(database(request), user, location_id, fields.location_form())
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
         return _location_form(
-            request, loc, form, status_code=http_status(exc), errors=errors, problem=problem
+            request, loc, fields.model_dump(), status_code=http_status(exc), errors=errors, problem=problem
         )
     return RedirectResponse(f"/jobs/{loc.job_id}?done=location-saved#locations", status_code=303)
 
 
 # --- samples ----------------------------------------------------------------------------------
 
-SAMPLE_FIELDS = ("location_id", "code", "depth_from_m", "depth_to_m", "sample_type", "description", "remarks")
-
-
-def _location_id(raw: str) -> int:
-    return int(raw) if raw.isdigit() and len(raw) < 10 else 0
-
 
 @router.post("/jobs/{job_id}/samples")
 def add_sample(
-    request: Request,
-    job_id: int,
-    user: Checker,
-    location_id: Text = "",
-    code: Text = "",
-    depth_from_m: Text = "",
-    depth_to_m: Text = "",
-    sample_type: Text = "disturbed",
-    description: Text = "",
-    remarks: Text = "",
-    methods: Annotated[list[str] | None, Form()] = None,
+    request: Request, job_id: int, user: Checker, fields: Annotated[NewSampleFields, Form()]
 ) -> Response:
     _get(request, Job, job_id)
-    form = {
-        "location_id": location_id,
-        "code": code,
-        "depth_from_m": depth_from_m,
-        "depth_to_m": depth_to_m,
-        "sample_type": sample_type,
-        "description": description,
-        "remarks": remarks,
-        "methods": methods or [],
-    }
     try:
         with database(request).session() as s:
-            loc = s.get(Location, _location_id(location_id))
+            loc = s.get(Location, record_id(fields.location_id) or 0)
         if loc is None or loc.job_id != job_id:
             refuse("location_id", "choose a location of this job (add one first)")
+        form = fields.sample_form()
         samples.add_sample(
             database(request),
             user,
             loc.id or 0,
-            code,
-            depth_from_m,
-            depth_to_m,
-            sample_type,
-            description,
-            remarks,
-            methods or [],
+            form.code,
+            form.depth_from_m,
+            form.depth_to_m,
+            form.sample_type,
+            form.description,
+            form.remarks,
+            fields.methods,
         )
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
@@ -408,7 +313,7 @@ def add_sample(
             request,
             job_id,
             status_code=http_status(exc),
-            sample_form=form,
+            sample_form=fields.model_dump(),
             sample_errors=errors,
             error=problem,
         )
@@ -446,34 +351,16 @@ def edit_sample_page(request: Request, sample_id: int, user: Checker) -> Respons
 
 @router.post("/samples/{sample_id}/edit")
 def save_sample(
-    request: Request,
-    sample_id: int,
-    user: Checker,
-    location_id: Text = "",
-    code: Text = "",
-    depth_from_m: Text = "",
-    depth_to_m: Text = "",
-    sample_type: Text = "disturbed",
-    description: Text = "",
-    remarks: Text = "",
+    request: Request, sample_id: int, user: Checker, fields: Annotated[SampleFields, Form()]
 ) -> Response:
     sample = _get(request, Sample, sample_id)
-    form = {
-        "location_id": location_id,
-        "code": code,
-        "depth_from_m": depth_from_m,
-        "depth_to_m": depth_to_m,
-        "sample_type": sample_type,
-        "description": description,
-        "remarks": remarks,
-    }
-    changes = samples.SampleForm(code, depth_from_m, depth_to_m, sample_type, description, remarks)
     try:
-        samples.update_sample(database(request), user, sample_id, _location_id(location_id), changes)
+        location_id = record_id(fields.location_id) or 0
+        samples.update_sample(database(request), user, sample_id, location_id, fields.sample_form())
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
         return _sample_form(
-            request, sample, form, status_code=http_status(exc), errors=errors, problem=problem
+            request, sample, fields.model_dump(), status_code=http_status(exc), errors=errors, problem=problem
         )
     return RedirectResponse(f"/samples/{sample_id}?done=sample-saved", status_code=303)
 

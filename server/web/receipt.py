@@ -29,7 +29,7 @@ from server.reports.labels import Label, label_sheet_pdf, single_label_pdf
 from server.services import receipt
 from server.services.errors import ServiceError, http_status
 from server.services.fields import refuse
-from server.web.forms import refusal_of
+from server.web.forms import record_id, refusal_of
 from server.web.templating import is_htmx, render
 from server.workflow.vocabulary import CONDITIONS, LOCATION_KINDS, SAMPLE_TYPES
 
@@ -67,11 +67,6 @@ def _received_at(text: str) -> datetime | None:
     except ValueError:
         refuse("received_at", f"{text[:40]!r} is not a date and time (YYYY-MM-DD HH:MM)")
     return value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
-
-
-def _int_id(text: str) -> int | None:
-    text = text.strip()
-    return int(text) if text.isdigit() and len(text) < 10 else None
 
 
 def _job(s: Session, job_id: int) -> Job:
@@ -164,7 +159,7 @@ def receive_page(request: Request, job_id: int, user: Staff, saved: str = "") ->
     """The receipt sheet; after a row posted without JavaScript, the query carries the delivery
     facts to keep and the code just saved."""
     sticky = {k: v for k, v in request.query_params.items() if k in STICKY}
-    saved_id = _int_id(saved)
+    saved_id = record_id(saved)
     saved_sample = None
     if saved_id is not None:
         with database(request).session() as s:
@@ -219,7 +214,7 @@ def receive_row(
     fragment = is_htmx(request)
     try:
         when = _received_at(received_at)
-        receiver = _int_id(received_by_id) if received_by_id.strip() else user.id
+        receiver = record_id(received_by_id) if received_by_id.strip() else user.id
         done = receipt.receive_sample(database(request), user, job_id, row, when, receiver or -1)
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
@@ -290,7 +285,7 @@ def job_labels(
 ) -> Response:
     """Labels of the chosen samples of a job (``sample=id``, repeated), or of every sample not
     withdrawn when none is chosen."""
-    chosen = {i for i in (_int_id(x) for x in (sample or [])) if i is not None}
+    chosen = {i for i in (record_id(x) for x in (sample or [])) if i is not None}
     with database(request).session() as s:
         job = _job(s, job_id)
         stmt = select(Sample).where(Sample.job_id == job_id).order_by(col(Sample.code))

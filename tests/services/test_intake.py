@@ -19,15 +19,16 @@ from datetime import UTC, datetime
 from typing import Any
 
 import pytest
-from sqlmodel import col, func, select
+from sqlmodel import select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Sample
+from server.db.tables import Client, Job, LabTest, Sample
 from server.services import bench, jobs, reports, samples
 from server.services.errors import Invalid
 from server.services.samples import LocationForm, SampleForm
 from tests.conftest import People
 from tests.reports.issued import approve
+from tests.support.records import audit_events, refused_fields, row_count, row_counts
 from tests.support.scenario import NATURAL
 
 BASE = "http://lab.example"
@@ -36,31 +37,6 @@ EMAIL = "lab.orders@marlowvale.example"
 
 
 # --- helpers ------------------------------------------------------------------------------------
-
-
-def _count(db: Database, table: type) -> int:
-    with db.session() as s:
-        return int(s.exec(select(func.count()).select_from(table)).one())
-
-
-def _counts(db: Database) -> dict[str, int]:
-    """Rows of every table intake writes, to show that a refused call stored nothing."""
-    tables: tuple[type, ...] = (Client, Job, Location, Sample, LabTest, AuditEvent)
-    return {t.__name__: _count(db, t) for t in tables}
-
-
-def _events(db: Database, entity: str, entity_id: int | None = None) -> list[AuditEvent]:
-    with db.session() as s:
-        query = select(AuditEvent).where(AuditEvent.entity == entity)
-        if entity_id is not None:
-            query = query.where(AuditEvent.entity_id == entity_id)
-        return list(s.exec(query.order_by(col(AuditEvent.id))))
-
-
-def _fields(refused: pytest.ExceptionInfo[Invalid]) -> set[str]:
-    """The fields a refusal names; each error is field-level (one field per location)."""
-    assert all(len(e.loc) == 1 for e in refused.value.errors), refused.value.errors  # field-level
-    return {str(e.loc[0]) for e in refused.value.errors}
 
 
 def _sample(db: Database, sample_id: int) -> Sample:
@@ -107,7 +83,7 @@ def test_registering_a_client_is_audited_with_its_fields_and_the_actor(db: Datab
     made = jobs.create_client(db, people.admin, "  Marlow Vale Civils ", "Dana Okafor", EMAIL, "1 Quay Row")
     # surrounding blanks stripped (fields.Checks.text), the rest as given
     assert (made.name, made.contact, made.email) == ("Marlow Vale Civils", "Dana Okafor", EMAIL)
-    (event,) = _events(db, "client", made.id)  # one event per create (audit)
+    (event,) = audit_events(db, "client", made.id)  # one event per create (audit)
     assert (event.action, event.actor, event.actor_id) == ("create", "admin", people.admin.id)  # audit
     assert event.before is None and event.after is not None  # nothing before a create (audit)
     assert (event.after["name"], event.after["email"]) == ("Marlow Vale Civils", EMAIL)  # as stored
@@ -115,11 +91,11 @@ def test_registering_a_client_is_audited_with_its_fields_and_the_actor(db: Datab
 
 def test_a_client_name_is_unique_whatever_its_case(db: Database, people: People) -> None:
     jobs.create_client(db, people.admin, "Marlow Vale Civils")
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         jobs.create_client(db, people.admin, "MARLOW vale civils")
-    assert _fields(refused) == {"name"}  # one firm, one record (jobs.create_client docstring)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"name"}  # one firm, one record (jobs.create_client docstring)
+    assert row_counts(db) == before  # one transaction
 
 
 @pytest.mark.parametrize(
@@ -152,19 +128,19 @@ def test_a_client_email_that_is_not_an_address_is_refused_at_its_field(
 ) -> None:
     with pytest.raises(Invalid) as refused:
         jobs.create_client(db, people.admin, "Marlow Vale Civils", email=email)
-    assert _fields(refused) == {"email"}  # field-level
-    assert _count(db, Client) == 0  # one transaction
+    assert refused_fields(refused) == {"email"}  # field-level
+    assert row_count(db, Client) == 0  # one transaction
 
 
 def test_a_client_with_several_mistakes_is_refused_at_each_field_and_nothing_is_stored(
     db: Database, people: People
 ) -> None:
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         # blank name (required), contact of 201 (at most 200), not an e-mail: jobs.client_values
         jobs.create_client(db, people.admin, "  ", "D" * 201, "not-an-address")
-    assert _fields(refused) == {"name", "contact", "email"}  # field-level, all at once (fields.Checks)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"name", "contact", "email"}  # field-level, all at once (fields.Checks)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_editing_a_client_keeps_before_and_after_in_the_audit(db: Database, people: People) -> None:
@@ -173,7 +149,7 @@ def test_editing_a_client_keeps_before_and_after_in_the_audit(db: Database, peop
     jobs.update_client(
         db, people.review, made.id or 0, "Marlow Vale Civils Ltd", "Dana Okafor", new_email, ""
     )
-    event = _events(db, "client", made.id)[-1]
+    event = audit_events(db, "client", made.id)[-1]
     assert (event.action, event.actor) == ("update", "review")  # audit
     assert event.before is not None and event.after is not None  # audit
     assert (event.before["name"], event.before["email"]) == ("Marlow Vale Civils", EMAIL)  # as registered
@@ -189,7 +165,7 @@ def test_a_client_can_change_the_case_of_its_own_name_but_not_take_another_clien
     assert edited.name == "MARLOW VALE CIVILS"  # no clash with itself (jobs._unique_client_name)
     with pytest.raises(Invalid) as refused:
         jobs.update_client(db, people.admin, made.id or 0, "quarry end surveys", "", "", "")
-    assert _fields(refused) == {"name"}  # unique whatever the case (jobs.create_client docstring)
+    assert refused_fields(refused) == {"name"}  # unique whatever the case (jobs.create_client docstring)
 
 
 # --- jobs ---------------------------------------------------------------------------------------
@@ -212,7 +188,7 @@ def test_a_job_is_registered_with_its_details_and_audited(db: Database, people: 
     assert job.received_at == datetime(2026, 11, 6, tzinfo=UTC)  # the day at 00:00 UTC (jobs.job_values)
     # as given
     assert (job.standards, job.order_reference, str(job.due_date)) == ("bs-iso", "PO 55120", "2026-11-20")
-    (event,) = _events(db, "job", job.id)  # one event per create (audit)
+    (event,) = audit_events(db, "job", job.id)  # one event per create (audit)
     assert (event.action, event.actor, event.before) == ("create", "review", None)  # audit
     assert event.after is not None
     assert (event.after["code"], event.after["standards"]) == (JOB, "bs-iso")  # as given
@@ -238,26 +214,26 @@ def test_an_unknown_family_of_standards_is_refused_at_its_field(
     client = jobs.create_client(db, people.admin, "Marlow Vale Civils")
     with pytest.raises(Invalid) as refused:
         jobs.create_job(db, people.admin, client.id or 0, JOB, standards=standards)
-    assert _fields(refused) == {"standards"}  # field-level
-    assert _count(db, Job) == 0  # one transaction
+    assert refused_fields(refused) == {"standards"}  # field-level
+    assert row_count(db, Job) == 0  # one transaction
 
 
 def test_a_duplicate_job_number_is_refused_at_its_field_and_nothing_is_stored(
     db: Database, people: People
 ) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         jobs.create_job(db, people.admin, site.client_id, f" {JOB} ", "Another culvert")  # blanks stripped
-    assert _fields(refused) == {"code"}  # the job number is unique in the laboratory (tables.Job)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"code"}  # the job number is unique in the laboratory (tables.Job)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_job_form_with_several_mistakes_names_each_field_and_stores_nothing(
     db: Database, people: People
 ) -> None:
     client = jobs.create_client(db, people.admin, "Marlow Vale Civils")
-    before = _counts(db)
+    before = row_counts(db)
     form = jobs.JobForm(
         client.id or 0,
         code="",  # required (jobs.job_values)
@@ -269,8 +245,8 @@ def test_a_job_form_with_several_mistakes_names_each_field_and_stores_nothing(
     with pytest.raises(Invalid) as refused:
         jobs.save_job(db, people.admin, form)
     everything = {"code", "title", "received_on", "due_date", "standards"}  # the five typed above
-    assert _fields(refused) == everything  # field-level, all at once (fields.Checks)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == everything  # field-level, all at once (fields.Checks)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_due_date_before_the_received_date_is_refused_at_the_due_date(db: Database, people: People) -> None:
@@ -279,15 +255,15 @@ def test_a_due_date_before_the_received_date_is_refused_at_the_due_date(db: Data
         jobs.create_job(
             db, people.admin, client.id or 0, JOB, due_date="2026-11-05", received_on="2026-11-06"
         )
-    assert _fields(refused) == {"due_date"}  # common practice: work is not due before it arrives
-    assert _count(db, Job) == 0  # one transaction
+    assert refused_fields(refused) == {"due_date"}  # common practice: work is not due before it arrives
+    assert row_count(db, Job) == 0  # one transaction
 
 
 def test_a_job_for_a_client_that_is_not_registered_is_refused(db: Database, people: People) -> None:
     with pytest.raises(Invalid) as refused:
         jobs.create_job(db, people.admin, 9999, JOB)  # no client 9999 in a fresh database
-    assert _fields(refused) == {"client_id"}  # field-level (jobs._job_checks)
-    assert _count(db, Job) == 0  # one transaction
+    assert refused_fields(refused) == {"client_id"}  # field-level (jobs._job_checks)
+    assert row_count(db, Job) == 0  # one transaction
 
 
 def test_editing_a_job_keeps_before_and_after_and_its_received_date(db: Database, people: People) -> None:
@@ -297,7 +273,7 @@ def test_editing_a_job_keeps_before_and_after_and_its_received_date(db: Database
     edited = jobs.save_job(db, people.review, form, job.id)
     # a blank received date keeps the one registered (jobs.job_in)
     assert edited.received_at == datetime(2026, 11, 6, tzinfo=UTC)
-    event = _events(db, "job", job.id)[-1]
+    event = audit_events(db, "job", job.id)[-1]
     assert (event.action, event.actor) == ("update", "review")  # audit
     assert event.before is not None and event.after is not None  # audit
     assert (event.before["title"], event.before["due_date"]) == ("Harrow Lane", None)  # as registered
@@ -310,7 +286,7 @@ def test_a_job_cannot_take_the_number_of_another_job(db: Database, people: Peopl
     other = jobs.create_job(db, people.admin, site.client_id, "MV-2026-015", "Harrow Lane outfall")
     with pytest.raises(Invalid) as refused:
         jobs.save_job(db, people.admin, jobs.JobForm(site.client_id, JOB, "Harrow Lane outfall"), other.id)
-    assert _fields(refused) == {"code"}  # unique in the laboratory (tables.Job)
+    assert refused_fields(refused) == {"code"}  # unique in the laboratory (tables.Job)
 
 
 def test_the_job_number_changes_freely_until_a_report_is_issued_then_is_locked(
@@ -326,16 +302,16 @@ def test_the_job_number_changes_freely_until_a_report_is_issued_then_is_locked(
         test = s.exec(select(LabTest).where(LabTest.sample_id == sample.id)).one()
     approve(db, people, test.id or 0)
     reports.issue_report(db, people.review, site.job_id, BASE)
-    events = len(_events(db, "job", site.job_id))
+    events = len(audit_events(db, "job", site.job_id))
     renumbered = jobs.JobForm(site.client_id, "MV-2026-140", "Harrow Lane")
     with pytest.raises(Invalid) as refused:
         jobs.save_job(db, people.admin, renumbered, site.job_id)
-    assert _fields(refused) == {"code"}  # the number is printed on the report (DESIGN.md section 5)
+    assert refused_fields(refused) == {"code"}  # the number is printed on the report (DESIGN.md section 5)
     with db.session() as s:
         stored = s.get(Job, site.job_id)
     assert stored is not None
     assert (stored.code, stored.title) == (JOB, "Harrow Lane culvert")  # one transaction: the title neither
-    assert len(_events(db, "job", site.job_id)) == events  # one transaction: no event
+    assert len(audit_events(db, "job", site.job_id)) == events  # one transaction: no event
     retitled = jobs.JobForm(site.client_id, JOB, "Harrow Lane, phase 1")
     kept = jobs.save_job(db, people.admin, retitled, site.job_id)
     assert kept.title == "Harrow Lane, phase 1"  # the other details still change (jobs.save_job docstring)
@@ -349,7 +325,7 @@ def test_adding_a_location_is_audited_with_its_fields(db: Database, people: Peop
     pit = samples.add_location(db, people.tech, site.job_id, "TP01", "trial pit", "451203,5", 218440, "62,4")
     assert (pit.kind, pit.northing) == ("trial pit", 218440.0)  # as given
     assert (pit.easting, pit.ground_level_m) == (451203.5, 62.4)  # decimal comma (fields.Checks.number)
-    (event,) = _events(db, "location", pit.id)  # one event per create (audit)
+    (event,) = audit_events(db, "location", pit.id)  # one event per create (audit)
     assert (event.action, event.actor, event.before) == ("create", "tech", None)  # audit
     assert event.after is not None
     assert (event.after["code"], event.after["kind"]) == ("TP01", "trial pit")  # as given
@@ -357,11 +333,11 @@ def test_adding_a_location_is_audited_with_its_fields(db: Database, people: Peop
 
 def test_a_location_code_is_unique_in_its_job_but_not_across_jobs(db: Database, people: People) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.add_location(db, people.admin, site.job_id, "BH01", "trial pit")
-    assert _fields(refused) == {"code"}  # unique in its job (tables.Location uq_location_job_code)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"code"}  # unique in its job (tables.Location uq_location_job_code)
+    assert row_counts(db) == before  # one transaction
     other = _site(db, people, "MV-2026-015")  # adds a BH01 of its own to another job
     assert other.bh01 != site.bh01  # another record (tables.Location: unique per job only)
 
@@ -370,7 +346,7 @@ def test_a_location_with_several_mistakes_names_each_field_and_stores_nothing(
     db: Database, people: People
 ) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.add_location(
             db,
@@ -383,8 +359,8 @@ def test_a_location_with_several_mistakes_names_each_field_and_stores_nothing(
             9500,  # above GROUND_LEVEL_RANGE 9000 m (samples.py)
         )
     everything = {"code", "kind", "easting", "northing", "ground_level_m"}  # the five typed above
-    assert _fields(refused) == everything  # field-level, all at once (fields.Checks)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == everything  # field-level, all at once (fields.Checks)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_editing_a_location_keeps_before_and_after_and_refuses_a_code_in_use(
@@ -395,14 +371,14 @@ def test_editing_a_location_keeps_before_and_after_and_refuses_a_code_in_use(
     samples.update_location(
         db, people.review, site.bh01, LocationForm("BH01A", "borehole", ground_level_m=58.1)
     )
-    event = _events(db, "location", site.bh01)[-1]
+    event = audit_events(db, "location", site.bh01)[-1]
     assert (event.action, event.actor) == ("update", "review")  # audit
     assert event.before is not None and event.after is not None  # audit
     assert (event.before["code"], event.before["ground_level_m"]) == ("BH01", None)  # as added by _site
     assert (event.after["code"], event.after["ground_level_m"]) == ("BH01A", 58.1)  # as given
     with pytest.raises(Invalid) as refused:
         samples.update_location(db, people.review, site.bh01, LocationForm("BH02"))
-    assert _fields(refused) == {"code"}  # unique in its job (tables.Location)
+    assert refused_fields(refused) == {"code"}  # unique in its job (tables.Location)
 
 
 # --- samples: registration ----------------------------------------------------------------------
@@ -421,7 +397,7 @@ def test_a_sample_is_registered_with_its_tests_requested_in_the_same_go(db: Data
         "Firm brown slightly sandy CLAY",
         methods=["atterberg", "water-content"],
     )
-    (created,) = _events(db, "sample", sample.id)  # one event per create (audit)
+    (created,) = audit_events(db, "sample", sample.id)  # one event per create (audit)
     assert (created.action, created.actor, created.before) == ("create", "tech", None)  # audit
     assert created.after is not None
     after = (created.after["code"], created.after["depth_from_m"], created.after["depth_to_m"])
@@ -429,7 +405,10 @@ def test_a_sample_is_registered_with_its_tests_requested_in_the_same_go(db: Data
     with db.session() as s:
         methods = sorted(t.method for t in s.exec(select(LabTest).where(LabTest.sample_id == sample.id)))
     assert methods == ["atterberg", "water-content"]  # as given (samples.add_sample)
-    assert [e.action for e in _events(db, "lab_test")] == ["request", "request"]  # one event per test (audit)
+    assert [e.action for e in audit_events(db, "lab_test")] == [
+        "request",
+        "request",
+    ]  # one event a test (audit)
 
 
 def test_a_blank_base_is_the_top_of_a_point_sample(db: Database, people: People) -> None:
@@ -472,36 +451,36 @@ def test_a_depth_that_is_not_a_finite_number_within_1000_m_is_refused_at_its_fie
     db: Database, people: People, top: Any
 ) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.add_sample(db, people.admin, site.bh01, "BH01-U1", top, 1.0)
-    assert _fields(refused) == {"depth_from_m"}  # field-level
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"depth_from_m"}  # field-level
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_bad_base_is_refused_at_the_base_alone(db: Database, people: People) -> None:
     site = _site(db, people)
     with pytest.raises(Invalid) as refused:
         samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, "abc")
-    assert _fields(refused) == {"depth_to_m"}  # field-level
+    assert refused_fields(refused) == {"depth_to_m"}  # field-level
     (error,) = refused.value.errors  # not also "above the top": the base was never read (samples.py)
     assert "must be a number" in error.message  # fields.Checks.number
 
 
 def test_a_base_above_the_top_is_refused_at_the_base(db: Database, people: People) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.65, 1.20)
-    assert _fields(refused) == {"depth_to_m"}  # base not above top (tables.Sample depth_order)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"depth_to_m"}  # base not above top (tables.Sample depth_order)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_sample_with_several_mistakes_names_each_field_and_stores_nothing(
     db: Database, people: People
 ) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.add_sample(
             db,
@@ -515,20 +494,20 @@ def test_a_sample_with_several_mistakes_names_each_field_and_stores_nothing(
             "R" * 1001,  # REMARKS_MAX 1000 (schedule.py)
         )
     everything = {"code", "depth_from_m", "depth_to_m", "sample_type", "description", "remarks"}
-    assert _fields(refused) == everything  # field-level, all at once (fields.Checks)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == everything  # field-level, all at once (fields.Checks)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_sample_code_is_unique_in_its_job_but_not_across_jobs(db: Database, people: People) -> None:
     site = _site(db, people)
     samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
     bh02 = samples.add_location(db, people.admin, site.job_id, "BH02")
-    before = _counts(db)
+    before = row_counts(db)
     for location_id in (site.bh01, bh02.id or 0):  # at the same or another location of the job
         with pytest.raises(Invalid) as refused:
             samples.add_sample(db, people.admin, location_id, "BH01-U1", 3.0, 3.45, "U100")
-        assert _fields(refused) == {"code"}  # unique in its job (tables.Sample uq_sample_job_code)
-    assert _counts(db) == before  # one transaction
+        assert refused_fields(refused) == {"code"}  # unique in its job (tables.Sample uq_sample_job_code)
+    assert row_counts(db) == before  # one transaction
     other = _site(db, people, "MV-2026-015")
     made = samples.add_sample(db, people.admin, other.bh01, "BH01-U1", 1.2, 1.65, "U100")
     assert made.job_id == other.job_id  # the same code in another job is another sample (tables.Sample)
@@ -536,20 +515,20 @@ def test_a_sample_code_is_unique_in_its_job_but_not_across_jobs(db: Database, pe
 
 def test_an_unknown_method_leaves_no_sample_behind(db: Database, people: People) -> None:
     site = _site(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         # "slake" is not one of server.engine.METHODS
         samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, methods=["atterberg", "slake"])
-    assert _fields(refused) == {"methods"}  # field-level (jobs.requests_in)
-    assert _counts(db) == before  # one transaction: the sample went back with the refusal
+    assert refused_fields(refused) == {"methods"}  # field-level (jobs.requests_in)
+    assert row_counts(db) == before  # one transaction: the sample went back with the refusal
 
 
 def test_a_sample_at_a_location_that_does_not_exist_is_refused(db: Database, people: People) -> None:
     _site(db, people)
     with pytest.raises(Invalid) as refused:
         samples.add_sample(db, people.admin, 9999, "BH01-U1", 1.2)  # no location 9999 in a fresh database
-    assert _fields(refused) == {"location_id"}  # field-level (samples._location_of_job)
-    assert _count(db, Sample) == 0  # one transaction
+    assert refused_fields(refused) == {"location_id"}  # field-level (samples._location_of_job)
+    assert row_count(db, Sample) == 0  # one transaction
 
 
 # --- samples: corrections -----------------------------------------------------------------------
@@ -569,7 +548,7 @@ def test_a_sample_with_tests_requested_but_nothing_entered_can_be_corrected_enti
     # a requested test holds no readings, so the identity is still open (samples.update_sample docstring)
     assert (stored.location_id, stored.code, stored.sample_type) == (bh02.id, "BH02-U1", "UT100")  # as given
     assert (stored.depth_from_m, stored.depth_to_m) == (2.0, 2.45)  # decimal comma (fields.Checks.number)
-    event = _events(db, "sample", made.id)[-1]
+    event = audit_events(db, "sample", made.id)[-1]
     assert (event.action, event.actor) == ("update", "review")  # audit
     assert event.before is not None and event.after is not None  # audit
     assert (event.before["code"], event.before["location_id"]) == ("BH01-U1", site.bh01)  # as registered
@@ -581,7 +560,9 @@ def test_saving_a_sample_unchanged_writes_no_audit_event(db: Database, people: P
     made = samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
     unchanged = SampleForm("BH01-U1", "1,2", 1.65, "U100")  # 1,2 is 1.2 (fields.Checks.number)
     samples.update_sample(db, people.admin, made.id or 0, site.bh01, unchanged)
-    assert [e.action for e in _events(db, "sample", made.id)] == ["create"]  # samples.change_in: no change
+    assert [e.action for e in audit_events(db, "sample", made.id)] == [
+        "create"
+    ]  # samples.change_in: no change
 
 
 @pytest.mark.parametrize(
@@ -605,11 +586,13 @@ def test_a_sample_with_readings_keeps_its_identity(
         SampleForm("BH01-U1", 1.20, 1.65, "U100", "Firm brown CLAY"),  # as registered by _entered
         **{k: v for k, v in change.items() if k != "location"},
     )
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.update_sample(db, people.admin, sample_id, location_id, form)
-    assert _fields(refused) == {field}  # results name the sample (samples.py docstring; DESIGN.md section 5)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {
+        field
+    }  # results name the sample (samples.py docstring; DESIGN.md section 5)
+    assert row_counts(db) == before  # one transaction
     stored = _sample(db, sample_id)
     identity = (stored.location_id, stored.code, stored.depth_from_m, stored.depth_to_m, stored.sample_type)
     assert identity == (site.bh01, "BH01-U1", 1.20, 1.65, "U100")  # as registered by _entered
@@ -625,7 +608,7 @@ def test_a_sample_with_readings_still_takes_a_corrected_description_and_remarks(
     samples.update_sample(db, people.review, sample_id, site.bh01, form)
     stored = _sample(db, sample_id)
     assert (stored.description, stored.remarks) == (described, "top 20 mm disturbed")  # as given
-    event = _events(db, "sample", sample_id)[-1]
+    event = audit_events(db, "sample", sample_id)[-1]
     assert event.action == "update" and event.before is not None and event.after is not None  # audit
     assert event.before["description"] == "Firm brown CLAY"  # as registered by _entered
     assert event.after["description"] == described  # as given
@@ -646,11 +629,11 @@ def test_there_is_no_way_to_delete_a_sample_or_any_record_of_intake() -> None:
 def test_withdrawing_a_sample_needs_a_reason(db: Database, people: People, reason: str) -> None:
     site = _site(db, people)
     made = samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         samples.withdraw_sample(db, people.review, made.id or 0, reason)
-    assert _fields(refused) == {"reason"}  # field-level (review.required_reason)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"reason"}  # field-level (review.required_reason)
+    assert row_counts(db) == before  # one transaction
     assert _sample(db, made.id or 0).withdrawn_at is None  # one transaction
 
 
@@ -659,7 +642,7 @@ def test_a_withdrawal_reason_is_at_most_1000_characters(db: Database, people: Pe
     made = samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
     with pytest.raises(Invalid) as refused:
         samples.withdraw_sample(db, people.review, made.id or 0, "x" * 1001)  # review.MAX_REASON 1000
-    assert _fields(refused) == {"reason"}  # field-level
+    assert refused_fields(refused) == {"reason"}  # field-level
 
 
 def test_a_withdrawn_sample_keeps_its_row_its_tests_and_the_reason_in_the_audit(
@@ -678,7 +661,7 @@ def test_a_withdrawn_sample_keeps_its_row_its_tests_and_the_reason_in_the_audit(
     with db.session() as s:
         # its tests are kept as they are (samples.withdraw_sample docstring)
         assert s.get(LabTest, test_id) is not None
-    event = _events(db, "sample", sample_id)[-1]
+    event = audit_events(db, "sample", sample_id)[-1]
     assert (event.action, event.actor, event.reason) == ("withdraw", "review", reason)  # audit: who, why
     assert event.before is not None and event.after is not None  # audit
     assert (event.before["withdrawn_at"], event.before["withdrawn_reason"]) == (None, None)  # not withdrawn
@@ -690,14 +673,14 @@ def test_a_sample_is_withdrawn_once(db: Database, people: People) -> None:
     site = _site(db, people)
     made = samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
     samples.withdraw_sample(db, people.review, made.id or 0, "Duplicate of BH01-U2")
-    events = len(_events(db, "sample", made.id))
+    events = len(audit_events(db, "sample", made.id))
     with pytest.raises(Invalid) as refused:
         samples.withdraw_sample(db, people.admin, made.id or 0, "Sample lost")
-    assert _fields(refused) == {"reason"}  # field-level (samples.withdraw_sample)
+    assert refused_fields(refused) == {"reason"}  # field-level (samples.withdraw_sample)
     stored = _sample(db, made.id or 0)
     assert stored.withdrawn_reason == "Duplicate of BH01-U2"  # the first withdrawal's, as given
     assert stored.withdrawn_by_id == people.review.id  # the first withdrawal's actor
-    assert len(_events(db, "sample", made.id)) == events  # one transaction: no event
+    assert len(audit_events(db, "sample", made.id)) == events  # one transaction: no event
 
 
 def test_a_withdrawn_sample_refuses_new_tests_and_edits(db: Database, people: People) -> None:
@@ -705,13 +688,13 @@ def test_a_withdrawn_sample_refuses_new_tests_and_edits(db: Database, people: Pe
     gone = samples.add_sample(db, people.admin, site.bh01, "BH01-U1", 1.2, 1.65, "U100")
     kept = samples.add_sample(db, people.admin, site.bh01, "BH01-U2", 2.0, 2.45, "U100")
     samples.withdraw_sample(db, people.review, gone.id or 0, "Tube empty on extrusion")
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         jobs.request_tests(db, people.review, [kept.id or 0, gone.id or 0], ["water-content"])
-    assert _fields(refused) == {"sample_ids"}  # field-level (jobs.requests_in)
+    assert refused_fields(refused) == {"sample_ids"}  # field-level (jobs.requests_in)
     described = SampleForm("BH01-U1", 1.2, 1.65, "U100", "Soft CLAY")
     with pytest.raises(Invalid) as refused:
         samples.update_sample(db, people.review, gone.id or 0, site.bh01, described)
-    assert _fields(refused) == {"code"}  # field-level (samples.update_sample)
-    assert _counts(db) == before  # one transaction: not even the request for BH01-U2
+    assert refused_fields(refused) == {"code"}  # field-level (samples.update_sample)
+    assert row_counts(db) == before  # one transaction: not even the request for BH01-U2
     assert _sample(db, gone.id or 0).description == ""  # as registered

@@ -15,43 +15,20 @@ from dataclasses import dataclass
 from datetime import UTC, datetime, timedelta
 
 import pytest
-from sqlmodel import col, func, select
+from sqlmodel import select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, Job, LabTest, Location, Sample
+from server.db.tables import LabTest, Location, Sample
 from server.services import bench, jobs, samples, users
 from server.services.errors import Invalid, NotFound
 from server.services.receipt import ReceiptRow, receive_sample
 from server.workflow.vocabulary import CONDITIONS
 from tests.conftest import People
+from tests.support.records import audit_events, refused_fields, row_count, row_counts
 from tests.support.scenario import NATURAL
 
 DELIVERED = datetime(2026, 11, 30, 8, 30, tzinfo=UTC)  # a morning in the past of the test run (fictional)
 DELIVERED_JSON = "2026-11-30T08:30:00Z"  # DELIVERED as the audit's JSON writes it (pydantic, computed)
-
-
-def _count(db: Database, table: type) -> int:
-    with db.session() as s:
-        return int(s.exec(select(func.count()).select_from(table)).one())
-
-
-def _counts(db: Database) -> dict[str, int]:
-    """Rows of every table a receipt writes, to show that a refused row stored nothing."""
-    return {t.__name__: _count(db, t) for t in (Job, Location, Sample, LabTest, AuditEvent)}
-
-
-def _events(db: Database, entity: str, entity_id: int | None = None) -> list[AuditEvent]:
-    with db.session() as s:
-        query = select(AuditEvent).where(AuditEvent.entity == entity)
-        if entity_id is not None:
-            query = query.where(AuditEvent.entity_id == entity_id)
-        return list(s.exec(query.order_by(col(AuditEvent.id))))
-
-
-def _fields(refused: pytest.ExceptionInfo[Invalid]) -> set[str]:
-    """The fields a refusal names; each error is field-level (one field per location)."""
-    assert all(len(e.loc) == 1 for e in refused.value.errors), refused.value.errors  # field-level
-    return {str(e.loc[0]) for e in refused.value.errors}
 
 
 def _sample(db: Database, job_id: int, code: str) -> Sample:
@@ -142,7 +119,7 @@ def test_a_scheduled_sample_received_by_its_code_alone_keeps_the_schedule_and_is
     assert stored.sample_type == "U100"  # the schedule's
     assert (stored.description, stored.remarks) == ("Firm brown CLAY", "sealed")  # the schedule's
     assert (stored.condition, stored.received_at) == ("intact", DELIVERED)  # ReceiptRow's default; as given
-    event = _events(db, "sample", job.u1)[-1]
+    event = audit_events(db, "sample", job.u1)[-1]
     assert (event.action, event.actor) == ("receive", "tech")  # audit (receipt._receive_scheduled)
     assert event.before is not None and event.after is not None  # audit
     before = (event.before["received_at"], event.before["condition"], event.before["stored_at"])
@@ -150,7 +127,7 @@ def test_a_scheduled_sample_received_by_its_code_alone_keeps_the_schedule_and_is
     after = (event.after["received_at"], event.after["condition"], event.after["stored_at"])
     assert after == (DELIVERED_JSON, "intact", "Cold room")  # as given
     assert event.after["received_by_id"] == people.tech.id  # the receiver when none is named
-    assert (_count(db, Sample), _count(db, Location)) == (1, 1)  # nothing new registered (as scheduled)
+    assert (row_count(db, Sample), row_count(db, Location)) == (1, 1)  # nothing new registered (as scheduled)
 
 
 def test_what_the_delivery_shows_differently_corrects_a_scheduled_sample_with_nothing_entered(
@@ -173,11 +150,11 @@ def test_a_scheduled_sample_with_readings_received_with_another_depth_is_refused
         test = s.exec(select(LabTest).where(LabTest.sample_id == job.u1)).one()
     readings = {"water_content": {"determinations": NATURAL}}  # a first part of the Atterberg set
     bench.save_readings(db, people.tech, test.id or 0, readings, test.version)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", depth_from_m=1.5), DELIVERED)
-    assert _fields(refused) == {"depth_from_m"}  # identity fixed once entered (samples.IDENTITY)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"depth_from_m"}  # identity fixed once entered (samples.IDENTITY)
+    assert row_counts(db) == before  # one transaction
     assert _sample(db, job.job_id, "BH01-U1").received_at is None  # one transaction
 
 
@@ -189,26 +166,26 @@ def test_a_scheduled_sample_with_readings_received_at_another_location_is_refuse
         test = s.exec(select(LabTest).where(LabTest.sample_id == job.u1)).one()
     readings = {"water_content": {"determinations": NATURAL}}  # a first part of the Atterberg set
     bench.save_readings(db, people.tech, test.id or 0, readings, test.version)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", "BH02"), DELIVERED)
     # the receipt sheet's own field, where the page shows the message (ReceiptRow.location)
-    assert _fields(refused) == {"location"}
-    assert _counts(db) == before  # one transaction: no BH02
+    assert refused_fields(refused) == {"location"}
+    assert row_counts(db) == before  # one transaction: no BH02
     assert _sample(db, job.job_id, "BH01-U1").location_id == job.bh01  # the schedule's
 
 
 def test_a_sample_is_received_once(db: Database, people: People) -> None:
     job = _scheduled(db, people)
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", stored_at="Rack 1"), DELIVERED)
-    before = _counts(db)
+    before = row_counts(db)
     later = DELIVERED + timedelta(hours=3)
     with pytest.raises(Invalid) as refused:
         # the second row also names a new borehole, which must not be left behind either
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", "BH09", stored_at="Rack 9"), later)
-    assert _fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
+    assert refused_fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
     assert "received already" in refused.value.errors[0].message  # receipt._receive_scheduled
-    assert _counts(db) == before  # one transaction: no BH09, no event
+    assert row_counts(db) == before  # one transaction: no BH09, no event
     stored = _sample(db, job.job_id, "BH01-U1")
     assert (stored.received_at, stored.stored_at) == (DELIVERED, "Rack 1")  # the first receipt's, as given
 
@@ -219,8 +196,8 @@ def test_a_new_sample_received_twice_is_refused_the_second_time(db: Database, pe
     receive_sample(db, people.tech, job.job_id, row, DELIVERED)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    assert _fields(refused) == {"code"}  # received already (receipt._receive_scheduled)
-    assert _count(db, Sample) == 2  # BH01-U1 (scheduled) and one BH01-D5
+    assert refused_fields(refused) == {"code"}  # received already (receipt._receive_scheduled)
+    assert row_count(db, Sample) == 2  # BH01-U1 (scheduled) and one BH01-D5
 
 
 @pytest.mark.parametrize("condition", list(CONDITIONS))  # every id of vocabulary.CONDITIONS
@@ -235,11 +212,11 @@ def test_a_condition_outside_the_vocabulary_is_refused_at_its_field(
     db: Database, people: People, condition: str
 ) -> None:
     job = _scheduled(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1", condition=condition), DELIVERED)
-    assert _fields(refused) == {"condition"}  # field-level
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"condition"}  # field-level
+    assert row_counts(db) == before  # one transaction
 
 
 def test_the_receiver_is_recorded_and_must_be_an_active_member_of_the_laboratory(
@@ -247,29 +224,29 @@ def test_the_receiver_is_recorded_and_must_be_an_active_member_of_the_laboratory
 ) -> None:
     job = _scheduled(db, people)
     users.set_active(db, people.admin, people.review2.id or 0, False, "left the laboratory")
-    before = _counts(db)
+    before = row_counts(db)
     for receiver in (people.review2.id or 0, 9999):  # inactive; no such user in a fresh database
         with pytest.raises(Invalid) as refused:
             receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED, receiver)
-        assert _fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
+        assert refused_fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
         new_row = ReceiptRow("BH01-D2", "BH02", 2.0, sample_type="bulk")
         with pytest.raises(Invalid) as refused:
             receive_sample(db, people.tech, job.job_id, new_row, DELIVERED, receiver)
-        assert _fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
-    assert _counts(db) == before  # one transaction: neither row, nor BH02
+        assert refused_fields(refused) == {"received_by_id"}  # field-level (receipt.receive_sample)
+    assert row_counts(db) == before  # one transaction: neither row, nor BH02
     receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED, people.review.id)
     assert _sample(db, job.job_id, "BH01-U1").received_by_id == people.review.id  # as given
-    assert _events(db, "sample", job.u1)[-1].actor == "tech"  # audit: who typed it in
+    assert audit_events(db, "sample", job.u1)[-1].actor == "tech"  # audit: who typed it in
 
 
 def test_a_time_of_receipt_in_the_future_is_refused(db: Database, people: People) -> None:
     job = _scheduled(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     tomorrow = datetime.now(UTC) + timedelta(days=1)  # beyond FUTURE_SLACK, 10 min (receipt.py)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), tomorrow)
-    assert _fields(refused) == {"received_at"}  # field-level
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"received_at"}  # field-level
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_clock_a_few_minutes_fast_and_a_blank_time_are_accepted(db: Database, people: People) -> None:
@@ -289,11 +266,11 @@ def test_a_clock_a_few_minutes_fast_and_a_blank_time_are_accepted(db: Database, 
 def test_a_withdrawn_scheduled_sample_cannot_be_received(db: Database, people: People) -> None:
     job = _scheduled(db, people)
     samples.withdraw_sample(db, people.review, job.u1, "Cancelled by the client's engineer")
-    before = _counts(db)
+    before = row_counts(db)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-U1"), DELIVERED)
-    assert _fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == {"code"}  # field-level (receipt._receive_scheduled)
+    assert row_counts(db) == before  # one transaction
     assert _sample(db, job.job_id, "BH01-U1").received_at is None  # one transaction
 
 
@@ -301,7 +278,7 @@ def test_a_new_sample_row_with_several_mistakes_names_each_field_and_stores_noth
     db: Database, people: People
 ) -> None:
     job = _scheduled(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     row = ReceiptRow(
         "BH02-D1",  # not on the schedule, so it needs a location and a depth (receipt.py)
         "",  # blank location: required (fields.Checks.code)
@@ -324,8 +301,8 @@ def test_a_new_sample_row_with_several_mistakes_names_each_field_and_stores_noth
         "stored_at",
         "received_at",
     }
-    assert _fields(refused) == everything  # field-level, all at once (fields.Checks)
-    assert _counts(db) == before  # one transaction
+    assert refused_fields(refused) == everything  # field-level, all at once (fields.Checks)
+    assert row_counts(db) == before  # one transaction
 
 
 def test_a_new_sample_needs_its_depth_and_type_even_when_the_rest_is_right(
@@ -336,12 +313,12 @@ def test_a_new_sample_needs_its_depth_and_type_even_when_the_rest_is_right(
         receive_sample(
             db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", sample_type="bulk"), DELIVERED
         )
-    assert _fields(refused) == {"depth_from_m"}  # required (samples.sample_values)
+    assert refused_fields(refused) == {"depth_from_m"}  # required (samples.sample_values)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", 2.0), DELIVERED)
     # no schedule value to keep, and ReceiptRow's type defaults to blank (receipt.ReceiptRow)
-    assert _fields(refused) == {"sample_type"}  # field-level
-    assert _count(db, Sample) == 1  # one transaction: BH01-U1 alone, as scheduled
+    assert refused_fields(refused) == {"sample_type"}  # field-level
+    assert row_count(db, Sample) == 1  # one transaction: BH01-U1 alone, as scheduled
 
 
 @pytest.mark.parametrize(
@@ -357,20 +334,20 @@ def test_a_bad_depth_at_receipt_is_refused_like_anywhere_else(db: Database, peop
     job = _scheduled(db, people)
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, ReceiptRow("BH01-D2", "BH01", top, sample_type="bulk"))
-    assert _fields(refused) == {"depth_from_m"}  # field-level
+    assert refused_fields(refused) == {"depth_from_m"}  # field-level
 
 
 def test_an_unknown_method_on_a_row_leaves_no_sample_and_no_location_behind(
     db: Database, people: People
 ) -> None:
     job = _scheduled(db, people)
-    before = _counts(db)
+    before = row_counts(db)
     # "slake" is not one of server.engine.METHODS
     row = ReceiptRow("TP01-B1", "TP01", 0.5, 1.0, "bulk", location_kind="trial pit", methods=("slake",))
     with pytest.raises(Invalid) as refused:
         receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    assert _fields(refused) == {"methods"}  # field-level (jobs.requests_in)
-    assert _counts(db) == before  # one transaction: no TP01, no TP01-B1
+    assert refused_fields(refused) == {"methods"}  # field-level (jobs.requests_in)
+    assert row_counts(db) == before  # one transaction: no TP01, no TP01-B1
 
 
 def test_a_row_requests_only_the_tests_the_sample_does_not_have(db: Database, people: People) -> None:
@@ -389,9 +366,11 @@ def test_a_sample_registered_at_receipt_is_audited_as_created_with_its_receipt(
     job = _scheduled(db, people)
     row = ReceiptRow("TP01-B1", "TP01", 0.5, 1.0, "bulk", condition="leaking", location_kind="trial pit")
     done = receive_sample(db, people.tech, job.job_id, row, DELIVERED)
-    (location_event,) = [e for e in _events(db, "location") if e.after and e.after["code"] == "TP01"]  # one
+    (location_event,) = [
+        e for e in audit_events(db, "location") if e.after and e.after["code"] == "TP01"
+    ]  # one
     assert (location_event.action, location_event.actor) == ("create", "tech")  # audit
-    (event,) = _events(db, "sample", done.sample.id)  # one event: the create carries the receipt
+    (event,) = audit_events(db, "sample", done.sample.id)  # one event: the create carries the receipt
     assert (event.action, event.actor, event.before) == ("create", "tech", None)  # audit (receipt.py)
     assert event.after is not None
     after = (event.after["condition"], event.after["received_at"], event.after["received_by_id"])
@@ -403,4 +382,4 @@ def test_a_receipt_for_a_job_that_does_not_exist_is_refused(db: Database, people
         receive_sample(
             db, people.tech, 9999, ReceiptRow("BH01-U1", "BH01", 1.2, sample_type="U100"), DELIVERED
         )
-    assert _count(db, Sample) == 0  # nothing stored
+    assert row_count(db, Sample) == 0  # nothing stored

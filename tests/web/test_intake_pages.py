@@ -11,34 +11,19 @@ import re
 
 import pytest
 from fastapi.testclient import TestClient
-from sqlmodel import col, func, select
+from sqlmodel import select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Sample
+from server.db.tables import Client, Job, LabTest, Location, Sample
 from server.services import bench, jobs, reports, samples
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import two_approved_samples
 from tests.support.http import post_form, sign_in
+from tests.support.records import audit_events, row_count
 from tests.support.scenario import ATTERBERG
 
 BASE = "http://testserver"
 HOSTILE = "<script>alert(1)</script> & <b>x</b>"
-
-
-def _count(db: Database, table: type) -> int:
-    with db.session() as s:
-        return int(s.exec(select(func.count()).select_from(table)).one())
-
-
-def _events(db: Database, entity: str, action: str) -> list[AuditEvent]:
-    with db.session() as s:
-        return list(
-            s.exec(
-                select(AuditEvent)
-                .where(AuditEvent.entity == entity, AuditEvent.action == action)
-                .order_by(col(AuditEvent.id))
-            )
-        )
 
 
 def _error_at(page_text: str, field: str) -> str:
@@ -69,7 +54,7 @@ def test_a_reviewer_registers_a_client_and_the_audit_keeps_what_was_typed(
     )
     assert reply.status_code == 200 and "Client registered." in reply.text
     assert "Fenwick Drainage Board" in reply.text
-    (event,) = _events(db, "client", "create")
+    (event,) = audit_events(db, "client", action="create")
     assert event.actor_id == people.review.id and event.after["email"] == "r.amberley@fenwick.example"
 
 
@@ -82,7 +67,7 @@ def test_a_client_form_with_several_mistakes_shows_each_at_its_field_and_stores_
     assert "required" in _error_at(reply.text, "name")
     assert "not an e-mail address" in _error_at(reply.text, "email")
     assert 'value="not-an-address"' in reply.text  # the typed value is kept
-    assert _count(db, Client) == 0
+    assert row_count(db, Client) == 0
 
 
 def test_technicians_cannot_register_clients_or_jobs(app_client: TestClient, db: Database) -> None:
@@ -121,7 +106,7 @@ def test_a_job_is_registered_and_edited_with_before_and_after_in_the_audit(
     edited = fields | {"title": "Marsh Lane culvert and headwall"}
     reply = post_form(app_client, f"{job_path}/edit", f"{job_path}/edit", edited, follow_redirects=False)
     assert reply.status_code == 303
-    (event,) = _events(db, "job", "update")
+    (event,) = audit_events(db, "job", action="update")
     assert event.before["title"] == "Marsh Lane culvert"
     assert event.after["title"] == "Marsh Lane culvert and headwall"
 
@@ -143,7 +128,7 @@ def test_a_due_date_before_receipt_then_a_duplicate_job_number_are_refused_at_th
     assert reply.status_code == 422 and "before the received date" in _error_at(reply.text, "due_date")
     reply = post_form(app_client, "/jobs/new", "/jobs/new", fields | {"code": job.code, "due_date": ""})
     assert reply.status_code in (409, 422) and job.code in _error_at(reply.text, "code")
-    assert _count(db, Job) == 1
+    assert row_count(db, Job) == 1
 
 
 def test_the_job_number_is_locked_once_a_report_is_issued(
@@ -212,7 +197,7 @@ def test_locations_and_samples_are_added_from_the_job_page_with_tests_requested(
         methods = sorted(s.exec(select(LabTest.method).where(LabTest.sample_id == sample.id)))
     assert methods == ["atterberg", "water-content"]
     assert sample.received_at is None  # registered from a schedule, not received yet
-    assert [e.after["code"] for e in _events(db, "sample", "create")] == ["BH3-U4"]
+    assert [e.after["code"] for e in audit_events(db, "sample", action="create")] == ["BH3-U4"]
 
 
 def test_a_sample_with_base_above_top_and_an_unknown_type_is_refused_and_nothing_stored(
@@ -238,7 +223,7 @@ def test_a_sample_with_base_above_top_and_an_unknown_type_is_refused_and_nothing
     assert reply.status_code == 422
     assert "above depth top" in _error_at(reply.text, "depth_to_m")  # base >= top (DESIGN.md section 7)
     assert _error_at(reply.text, "sample_type")
-    assert _count(db, Sample) == 0 and _count(db, LabTest) == 0
+    assert row_count(db, Sample) == 0 and row_count(db, LabTest) == 0
 
 
 def test_a_sample_with_readings_cannot_move_but_its_description_can_be_corrected(
@@ -288,9 +273,9 @@ def test_withdrawing_a_sample_needs_a_reason_and_shows_on_the_job_page(
     assert reply.status_code == 200
     job_page = app_client.get(f"/jobs/{job.id}")
     assert "withdrawn" in job_page.text.lower() and reason in job_page.text
-    (event,) = _events(db, "sample", "withdraw")
+    (event,) = audit_events(db, "sample", action="withdraw")
     assert event.reason == reason and event.before["withdrawn_at"] is None and event.after["withdrawn_at"]
-    assert _count(db, Sample) == 1  # kept, never deleted (DESIGN.md section 7)
+    assert row_count(db, Sample) == 1  # kept, never deleted (DESIGN.md section 7)
 
 
 def test_what_people_type_is_escaped_on_every_intake_page(
