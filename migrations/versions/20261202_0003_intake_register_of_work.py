@@ -68,7 +68,7 @@ def upgrade() -> None:
         batch_op.create_foreign_key(batch_op.f("fk_sample_job_id_job"), "job", ["job_id"], ["id"])
 
     op.create_table(
-        "stagedimport",
+        "staged_import",
         sa.Column("id", sa.Integer(), nullable=False),
         sa.Column("token", sa.String(length=64), nullable=False),
         sa.Column("user_id", sa.Integer(), nullable=False),
@@ -76,16 +76,16 @@ def upgrade() -> None:
         sa.Column("sha256", sa.String(length=64), nullable=False),
         sa.Column("content", sa.LargeBinary(), nullable=False),
         sa.Column("created_at", sa.DateTime(), nullable=False),
-        sa.ForeignKeyConstraint(["user_id"], ["user.id"], name=op.f("fk_stagedimport_user_id_user")),
-        sa.PrimaryKeyConstraint("id", name=op.f("pk_stagedimport")),
-        sa.UniqueConstraint("token", name=op.f("uq_stagedimport_token")),
+        sa.ForeignKeyConstraint(["user_id"], ["user.id"], name=op.f("fk_staged_import_user_id_user")),
+        sa.PrimaryKeyConstraint("id", name=op.f("pk_staged_import")),
+        sa.UniqueConstraint("token", name=op.f("uq_staged_import_token")),
     )
-    op.create_index(op.f("ix_stagedimport_user_id"), "stagedimport", ["user_id"], unique=False)
+    op.create_index(op.f("ix_staged_import_user_id"), "staged_import", ["user_id"], unique=False)
 
 
 def downgrade() -> None:
-    op.drop_index(op.f("ix_stagedimport_user_id"), table_name="stagedimport")
-    op.drop_table("stagedimport")
+    op.drop_index(op.f("ix_staged_import_user_id"), table_name="staged_import")
+    op.drop_table("staged_import")
     op.execute("UPDATE sample SET received_at = CURRENT_TIMESTAMP WHERE received_at IS NULL")
     with op.batch_alter_table("sample", schema=None) as batch_op:
         batch_op.drop_constraint(batch_op.f("fk_sample_job_id_job"), type_="foreignkey")

@@ -99,6 +99,7 @@ class Equipment(SQLModel, table=True):
     kind: str = Field(max_length=32)
     description: str = Field(default="", max_length=200)
     calibration_due: date | None = None
+    capacity_g: float | None = None  # a balance's capacity: a heavier mass is a typing slip
     active: bool = True
 
 
@@ -211,6 +212,9 @@ class LabTest(SQLModel, table=True):
     approver_role: str | None = Field(default=None, max_length=16)
     signature_meaning: str | None = Field(default=None, max_length=300)
     return_reason: str | None = Field(default=None, max_length=1000)
+    # Why an error-severity flag stands, as the technician recorded it at hand-in (flag code ->
+    # words); the reviewer sees it beside the flag.
+    flag_reasons: dict[str, Any] | None = _json()
 
 
 class Report(SQLModel, table=True):
@@ -229,6 +233,11 @@ class Report(SQLModel, table=True):
     fingerprint: str = Field(max_length=64)
     pdf: bytes = Field(sa_type=sa.LargeBinary)
     superseded_by_id: int | None = Field(default=None, foreign_key="report.id")
+    # The issuer's electronic signature: its meaning as shown before signing (the signer and
+    # the time are issued_by_id and issued_at), and the decision recorded when this report
+    # carries test revisions another current report carries too.
+    signature_meaning: str = Field(default="", max_length=300)
+    overlap_decision: str = Field(default="", max_length=1000)
 
 
 class ReportTest(SQLModel, table=True):
@@ -247,6 +256,8 @@ class StagedImport(SQLModel, table=True):
     are capped at 1 MB) so that the confirmed import reads exactly the bytes that were
     previewed (``sha256``). Removed when imported, and after a day when left unconfirmed.
     """
+
+    __tablename__ = "staged_import"
 
     id: int | None = Field(default=None, primary_key=True)
     token: str = Field(max_length=64, unique=True)
@@ -305,5 +316,10 @@ class AuditEvent(SQLModel, table=True):
     before: dict[str, Any] | None = _json()
     after: dict[str, Any] | None = _json()
     reason: str | None = Field(default=None, max_length=1000)
+    # When the person typed the change, where it reached the server later (an offline tablet).
+    typed_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    # The hash chain: SHA-256 of this event's content and of the event before it.
+    prev_sha256: str = Field(default="", max_length=64)
+    sha256: str = Field(default="", max_length=64)
 
     __table_args__ = (sa.Index("ix_audit_event_entity", "entity", "entity_id"),)

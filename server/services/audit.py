@@ -10,6 +10,7 @@ import io
 import json
 from collections.abc import Iterable
 from dataclasses import dataclass
+from datetime import datetime
 from typing import Any
 
 from sqlmodel import Session
@@ -27,8 +28,11 @@ def record(
     before: dict[str, Any] | None = None,
     after: dict[str, Any] | None = None,
     reason: str | None = None,
+    typed_at: datetime | None = None,
 ) -> AuditEvent:
-    """Add one event to the session; it commits (or not) with the change it describes."""
+    """Add one event to the session; it commits (or not) with the change it describes.
+    ``typed_at`` is when the person typed the change, given when it reached the server later
+    (an entry kept on an offline tablet); the event's own time is its arrival."""
     event = AuditEvent(
         actor_id=actor.id if actor else None,
         actor=actor.username if actor else "system",
@@ -38,6 +42,7 @@ def record(
         before=before,
         after=after,
         reason=reason,
+        typed_at=typed_at,
     )
     session.add(event)
     return event
