@@ -20,6 +20,7 @@ from server.db.session import Database
 from server.db.tables import Client, Job, LinkAccess, Report, ShareLink, User, utcnow
 from server.services import audit
 from server.services.errors import Forbidden, NotFound, invalid
+from server.services.review import required_reason
 from server.workflow.states import CHECKERS, Role
 
 MAX_DAYS = 366
@@ -91,10 +92,11 @@ def create_link(
         return NewLink(link, token)
 
 
-def revoke_link(db: Database, actor: User, link_id: int) -> ShareLink:
-    """Withdraw a link at once; withdrawing it again changes nothing."""
+def revoke_link(db: Database, actor: User, link_id: int, reason: str) -> ShareLink:
+    """Withdraw a link at once, with the reason (audited); withdrawing it again changes nothing."""
     if Role(actor.role) not in CHECKERS:
         raise Forbidden("only a reviewer or admin withdraws client links")
+    reason = required_reason(reason, "withdraw a client link")
     with db.transaction() as s:
         link = s.get(ShareLink, link_id)
         if link is None:
@@ -110,6 +112,7 @@ def revoke_link(db: Database, actor: User, link_id: int) -> ShareLink:
                 "revoke",
                 before={"revoked_at": None},
                 after={"revoked_at": link.revoked_at.isoformat()},
+                reason=reason,
             )
         return link
 

@@ -201,13 +201,29 @@ def approve_batch(
         return tests
 
 
+REASON_MIN = 10  # characters: a few words, not "x" or "ok" (ISO/IEC 17025:2017 cl. 7.5.2: the change and why)
+REASON_LETTERS_MIN = 5  # letters in it, so that punctuation or digits alone are refused
+REASON_DISTINCT_MIN = 4  # different letters, so that "aaaaaaaaaa" or "xyxyxyxyxy" is refused
+
+
 def required_reason(reason: str, doing: str) -> str:
-    """The reason a person gives for a change that needs one: present and of bounded length."""
-    reason = reason.strip()
+    """The reason a person gives for a change that needs one (a return, an amendment, a
+    withdrawal): real words, of bounded length. A record that says why it changed only
+    serves its purpose if the words say something, so "x", "..........", or one letter
+    repeated are refused at the field."""
+    reason = " ".join(reason.split())
     if not reason:
         raise invalid("reason", f"a reason is required to {doing}")
     if len(reason) > MAX_REASON:
         raise invalid("reason", f"the reason is limited to {MAX_REASON} characters")
+    letters = [c.casefold() for c in reason if c.isalpha()]
+    too_thin = len(letters) < REASON_LETTERS_MIN or len(set(letters)) < REASON_DISTINCT_MIN
+    if len(reason) < REASON_MIN or too_thin:
+        raise invalid(
+            "reason",
+            f"say in a few words why you {doing} (at least {REASON_MIN} characters of real words;"
+            " it is kept with the record and may be printed on the report)",
+        )
     return reason
 
 

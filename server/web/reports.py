@@ -12,6 +12,7 @@ from server.auth.sessions import csrf_protect, database, require_roles
 from server.db.tables import Report, ShareLink, User
 from server.services import links, reports
 from server.services.errors import ServiceError, http_status
+from server.web.forms import refusal_of
 from server.web.job_page import job_page_response
 from server.web.templating import render
 
@@ -99,21 +100,45 @@ def create_link(
 @router.get("/jobs/{job_id}/links")
 def job_links_page(request: Request, job_id: int, user: Checker) -> Response:
     """Every link that opens this job, its state, and the full log of its use."""
+    return _job_links(request, job_id)
+
+
+def _job_links(request: Request, job_id: int, status_code: int = 200, **extra: object) -> Response:
     try:
         found = links.job_links(database(request), job_id)
     except ServiceError as exc:
         raise HTTPException(http_status(exc), str(exc)) from exc
-    return render(request, "pages/job_links.html", found=found)
+    return render(request, "pages/job_links.html", status_code=status_code, found=found, **extra)
 
 
 @router.post("/links/{link_id}/revoke")
 def revoke_link(
-    request: Request, link_id: int, user: Checker, job_id: Annotated[int | None, Form()] = None
+    request: Request,
+    link_id: int,
+    user: Checker,
+    job_id: Annotated[int | None, Form()] = None,
+    reason: Annotated[str, Form()] = "",
 ) -> Response:
+    """Withdraw a client link with a reason; a refused reason is shown on the job's links page."""
     with database(request).session() as s:
         link = s.get(ShareLink, link_id)
     if link is None:
         raise HTTPException(404, "no such link")
-    links.revoke_link(database(request), user, link_id)
+    try:
+        links.revoke_link(database(request), user, link_id, reason)
+    except ServiceError as exc:
+        errors, problem = refusal_of(exc)
+        back_job = job_id if job_id is not None else link.job_id
+        if back_job is None:
+            raise HTTPException(http_status(exc), str(exc)) from exc
+        return _job_links(
+            request,
+            back_job,
+            http_status(exc),
+            errors=errors,
+            problem=problem,
+            link_id=link_id,
+            reason=reason,
+        )
     back = job_id if job_id is not None else link.job_id
     return RedirectResponse(f"/jobs/{back}/links" if back is not None else "/jobs", status_code=303)

@@ -76,10 +76,10 @@ def test_only_an_approved_test_is_amended_and_only_by_a_reviewer_or_admin(
     lab = Lab(db, people.admin, "AM-4")
     submitted = lab.submitted(people.tech)
     with pytest.raises(Conflict, match="submitted test cannot be amended"):
-        amendments.amend(db, people.review, submitted, "why not", version(db, submitted))
+        amendments.amend(db, people.review, submitted, "why not amend it now", version(db, submitted))
     approved = lab.approved(people.tech, people.review)
     with pytest.raises(Forbidden, match="technician may not amend"):
-        amendments.amend(db, people.tech, approved, "why not", version(db, approved))
+        amendments.amend(db, people.tech, approved, "why not amend it now", version(db, approved))
     assert load(db, approved).status == "approved"
 
 
@@ -89,9 +89,9 @@ def test_a_revision_is_amended_once_the_second_attempt_is_told_it_came_late(
     lab = Lab(db, people.admin, "AM-5")
     old_id = lab.approved(people.tech, people.review)
     seen = version(db, old_id)
-    amendments.amend(db, people.review, old_id, "first", seen)
+    amendments.amend(db, people.review, old_id, "first amendment of the tare", seen)
     with pytest.raises(Conflict, match="Review Person amended this test"):
-        amendments.amend(db, people.review2, old_id, "second", seen)
+        amendments.amend(db, people.review2, old_id, "second amendment of the tare", seen)
 
 
 # -- comparing revisions (pure) ------------------------------------------------------------------

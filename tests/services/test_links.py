@@ -55,7 +55,7 @@ def test_refuses_an_expired_or_withdrawn_or_unknown_link_and_logs_it(db: Databas
     expired = links.create_link(db, people.review, job.job_id, 1)
     _expire(db, expired.link.id or 0)
     withdrawn = links.create_link(db, people.review, job.job_id, 30)
-    links.revoke_link(db, people.review, withdrawn.link.id or 0)
+    links.revoke_link(db, people.review, withdrawn.link.id or 0, "Engagement ended by the client")
     for token, why in ((expired.token, "expired"), (withdrawn.token, "revoked")):
         view = links.open_link(db, token, path="/")
         assert (view.refused, view.jobs, view.report_ids) == (why, [], set())
@@ -93,7 +93,7 @@ def test_lists_every_link_that_opens_a_job_with_its_state_and_use(db: Database, 
     open_one = links.create_link(db, people.review, job.job_id, 7, "designer")
     whole = links.create_link(db, people.review, job.job_id, 7, "client office", whole_client=True)
     gone = links.create_link(db, people.review, job.job_id, 7, "old")
-    links.revoke_link(db, people.review, gone.link.id or 0)
+    links.revoke_link(db, people.review, gone.link.id or 0, "Engagement ended by the client")
     old = links.create_link(db, people.review, job.job_id, 7, "expired")
     _expire(db, old.link.id or 0)
     links.open_link(db, open_one.token, path="/share/…")
@@ -121,7 +121,7 @@ def test_a_technician_cannot_create_or_withdraw_a_link(db: Database, people: Peo
         links.create_link(db, people.tech, job.job_id, 7)
     made = links.create_link(db, people.review, job.job_id, 7)
     with pytest.raises(Forbidden):
-        links.revoke_link(db, people.tech, made.link.id or 0)
+        links.revoke_link(db, people.tech, made.link.id or 0, "Engagement ended by the client")
 
 
 @pytest.mark.parametrize("days", [0, -3, 367])

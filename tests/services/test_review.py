@@ -108,7 +108,7 @@ def test_a_late_second_reviewer_is_told_who_acted_first(db: Database, people: Pe
     test_id, version_seen = _submitted(db, people)
     review.approve(db, people.review, test_id, PASSWORDS["review"], version_seen)
     with pytest.raises(Conflict) as refused:
-        review.return_test(db, people.review2, test_id, "too late", version_seen)
+        review.return_test(db, people.review2, test_id, "too late to return it", version_seen)
     message = str(refused.value)
     assert message.startswith("Review Person approved this test at ")
     assert message.endswith(
@@ -153,7 +153,7 @@ def test_a_batch_holding_a_flagged_test_is_refused_whole(db: Database, people: P
 def test_a_batch_with_a_test_changed_meanwhile_is_refused_whole(db: Database, people: People) -> None:
     _lab, picked = _clean_batch(db, people, 2)
     (first, seen), (second, _) = picked
-    review.return_test(db, people.review2, second, "re-weigh", version(db, second))
+    review.return_test(db, people.review2, second, "re-weigh the tins", version(db, second))
     with pytest.raises(Conflict):
         review.approve_batch(db, people.review, [(first, seen), (second, seen)], PASSWORDS["review"])
     assert load(db, first).status == "submitted"
@@ -166,3 +166,19 @@ def test_an_empty_batch_or_a_wrong_password_approves_nothing(db: Database, peopl
     with pytest.raises(Invalid):
         review.approve_batch(db, people.review, picked, "wrong-password-1")
     assert load(db, picked[0][0]).status == "submitted"
+
+
+@pytest.mark.parametrize(
+    "reason",
+    ["x", "ok", "..........", "aaaaaaaaaaaa", "xyxyxyxyxyxy", "1234567890", "!!  ??  !!  ??"],
+)
+def test_a_reason_must_be_real_words(reason: str) -> None:
+    # S7 point 3: at least 10 characters, not only punctuation, digits or repeated letters
+    with pytest.raises(Invalid) as refused:
+        review.required_reason(reason, "return a test")
+    assert refused.value.errors[0].loc == ("reason",)
+
+
+@pytest.mark.parametrize("reason", ["Re-weigh tin L2", "blow count misread", "Tin N1 re-weighed"])
+def test_a_reason_of_a_few_real_words_is_kept_with_blanks_folded(reason: str) -> None:
+    assert review.required_reason(f"  {reason}  ", "return a test") == reason  # common practice

@@ -15,7 +15,7 @@ from fastapi.testclient import TestClient
 from sqlmodel import col, select
 
 from server.db.session import Database
-from server.db.tables import Job, LinkAccess, Report, ShareLink, utcnow
+from server.db.tables import AuditEvent, Job, LinkAccess, Report, ShareLink, utcnow
 from server.services import jobs, links, reports, samples
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, approve, two_approved_samples
@@ -69,7 +69,7 @@ def test_expired_withdrawn_and_unknown_links_get_a_clear_page_and_no_data(
         link.expires_at = utcnow() - timedelta(minutes=1)
         s.add(link)
     withdrawn = links.create_link(db, people.review, two.job_id, 7)
-    links.revoke_link(db, people.review, withdrawn.link.id or 0)
+    links.revoke_link(db, people.review, withdrawn.link.id or 0, "Engagement ended by the client")
     for token, status, headline in (
         (expired.token, 410, "This link has expired"),
         (withdrawn.token, 410, "This link has been withdrawn"),
@@ -197,3 +197,23 @@ def test_a_technician_may_not_issue_preview_or_make_links(
     assert post_form(app_client, job_path, f"{job_path}/links", {"days_valid": "7"}).status_code == 403
     with db.session() as s:
         assert s.exec(select(Report)).all() == [] and s.exec(select(ShareLink)).all() == []
+
+
+def test_withdrawing_a_link_needs_a_reason_of_real_words_which_the_audit_keeps(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    made = links.create_link(db, people.review, two.job_id, 7)
+    sign_in(app_client, "review", PASSWORDS["review"])
+    path = f"/jobs/{two.job_id}/links"
+    action = f"/links/{made.link.id}/revoke"
+    refused = post_form(app_client, path, action, {"job_id": str(two.job_id), "reason": "x"})
+    assert refused.status_code == 422 and f'id="err-reason-{made.link.id}"' in refused.text  # S7 point 3
+    with db.session() as s:
+        assert (s.get(ShareLink, made.link.id) or made.link).revoked_at is None
+    reason = "The client's engineer left the project"
+    done = post_form(app_client, path, action, {"job_id": str(two.job_id), "reason": reason})
+    assert done.status_code == 200
+    with db.session() as s:
+        event = s.exec(select(AuditEvent).where(AuditEvent.entity == "share_link")).all()[-1]
+    assert (event.action, event.reason) == ("revoke", reason)
