@@ -266,7 +266,8 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
     signers = [(users[name], pw) for name, _, _, pw in LOGINS if name in ("review", "review2")]
     add_report_tests(db, admin, job.id or 0, tech, signers, rng)  # grading, classification, strength
     _every_bench_page(db, job.id or 0, admin, tech)
-    report = reports.issue_report(db, reviewer, job.id or 0, settings.public_base_url)
+    signing = next(pw for name, *_, pw in LOGINS if name == reviewer.username)
+    report = reports.issue_report(db, reviewer, job.id or 0, settings.public_base_url, password=signing)
     link = links.create_link(db, reviewer, job.id or 0, 30, "Selwyn Moor design office")
     _scheduled_job(db, admin, tech, client.name)
     return DemoInfo(

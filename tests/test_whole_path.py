@@ -66,7 +66,8 @@ def test_atterberg_test_goes_from_bench_to_client_download(
     )
     assert approved.status_code == 303, approved.text
     job_path = f"/jobs/{job.job_id}"
-    issued = post_form(app_client, job_path, f"{job_path}/reports", {}, follow_redirects=False)
+    signed = {"password": PASSWORDS["review"]}  # issuing is a signature (S7 point 4)
+    issued = post_form(app_client, job_path, f"{job_path}/reports", signed, follow_redirects=False)
     assert issued.status_code == 303, issued.text
     made = post_form(app_client, job_path, f"{job_path}/links", {"days_valid": "14", "label": "designer"})
     link = re.search(r"http://testserver(/share/[\w-]+)", made.text).group(1)  # type: ignore[union-attr]

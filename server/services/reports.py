@@ -38,6 +38,7 @@ from server.reports.context import (
 )
 from server.services import audit
 from server.services.errors import Conflict, Forbidden, NotFound, invalid
+from server.services.review import Signature, check_signature, required_reason, signer_in
 from server.workflow.states import CHECKERS, Role
 
 REPORT_MEANING = (
@@ -182,13 +183,16 @@ class _Prepared:
     job_id: int
     rows: list[TestRow]
     data: ReportData
+    signature: Signature
     previous_id: int | None = None
+    overlap_decision: str = ""
 
 
 def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report:
     """Store the rendered report, if nothing it carries changed while it was rendered."""
     data, rows = prepared.data, prepared.rows
     with db.transaction() as s:
+        signer = signer_in(s, prepared.signature)
         found = {
             tid: (version, status)
             for tid, version, status in s.exec(
@@ -214,10 +218,12 @@ def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report
             revision=data.revision,
             status="issued",
             issued_at=datetime.fromisoformat(data.issued_at_iso),
-            issued_by_id=actor.id or 0,
+            issued_by_id=signer.id or 0,
             sha256=hashlib.sha256(pdf).hexdigest(),
             fingerprint=content_fingerprint(data),
             pdf=pdf,
+            signature_meaning=prepared.signature.meaning,
+            overlap_decision=prepared.overlap_decision,
         )
         s.add(report)
         s.flush()
@@ -229,7 +235,11 @@ def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report
             "sha256": report.sha256,
             "fingerprint": report.fingerprint,
             "tests": [r.test.id for r in rows],
+            "signed_by": signer.username,
+            "signature_meaning": prepared.signature.meaning,
         }
+        if prepared.overlap_decision:
+            after["overlap_decision"] = prepared.overlap_decision
         if previous is not None:
             previous.status = "superseded"
             previous.superseded_by_id = report.id
@@ -245,7 +255,9 @@ def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report
                 after={"status": "superseded", "superseded_by_id": report.id},
             )
         action = "issue" if previous is None else "reissue"
-        audit.record(s, actor, "report", report.id or 0, action, after=after)
+        audit.record(
+            s, actor, "report", report.id or 0, action, after=after, reason=prepared.overlap_decision or None
+        )
         return report
 
 
@@ -309,13 +321,68 @@ def issue_report(
     job_id: int,
     base_url: str,
     sample_ids: Collection[int] | None = None,
+    *,
+    password: str,
+    overlap_decision: str = "",
 ) -> Report:
     """Issue revision 1 of a new report carrying every approved test of the job, or of the
-    chosen samples only."""
+    chosen samples only. Issuing is a signature: the issuer's password is entered again and
+    the signature's meaning (``REPORT_MEANING``) is recorded with the report; without it
+    nothing is issued. A test revision that another current report carries already is
+    refused unless the issuer records why both reports should carry it (``overlap_decision``)."""
     _check_role(actor)
+    signature = check_signature(db, actor, password, REPORT_MEANING)
     with db.session() as s:
         data, rows = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
-    return _store(db, actor, _Prepared(job_id, rows, data), _render(data))
+        decision = _overlap_decision(s, rows, overlap_decision)
+    prepared = _Prepared(job_id, rows, data, signature, overlap_decision=decision)
+    return _store(db, actor, prepared, _render(data))
+
+
+def unreported_sample_ids(db: Database, job_id: int) -> list[int]:
+    """The samples of the job with approved tests that no current report carries yet: what
+    "only samples not yet reported" issues."""
+    with db.session() as s:
+        approved = _reportable(current_tests(s, job_id))
+        reported = already_reported(s, approved)
+    return sorted({r.sample.id or 0 for r in approved} - set(reported))
+
+
+def already_reported(session: Session, rows: Sequence[TestRow]) -> dict[int, str]:
+    """The samples (of these test rows) whose test revisions a current report carries, with
+    that report's number: what issuing them again would print twice."""
+    ids = [r.test.id for r in rows]
+    if not ids:
+        return {}
+    carried = session.exec(
+        select(ReportTest.test_id, Report.number)
+        .join(Report, col(Report.id) == ReportTest.report_id)
+        .where(col(ReportTest.test_id).in_(ids), Report.status == "issued")
+    ).all()
+    by_test = dict(carried)
+    return {r.sample.id or 0: by_test[r.test.id] for r in rows if r.test.id in by_test}
+
+
+def _overlap_decision(session: Session, rows: Sequence[TestRow], decision: str) -> str:
+    """The recorded decision to issue test revisions another current report carries, or ""
+    when there are none; refused (field "overlap_decision") when there are and no reason is
+    given, naming the samples and their report."""
+    overlap = already_reported(session, rows)
+    if not overlap:
+        return ""
+    if decision.strip():
+        return required_reason(decision, "issue these samples in a second current report")
+    codes = sorted(
+        {(r.sample.code, overlap[r.sample.id or 0]) for r in rows if (r.sample.id or 0) in overlap}
+    )
+    listed = ", ".join(f"{code} (in {number})" for code, number in codes[:6])
+    more = f" and {len(codes) - 6} more" if len(codes) > 6 else ""
+    raise invalid(
+        "overlap_decision",
+        f"{len(codes)} sample(s) are already in a current report: {listed}{more}. Issue only the samples "
+        "not yet reported, re-issue that report after an amendment, or record why a second report should "
+        "carry them",
+    )
 
 
 def preview_report_html(
@@ -344,7 +411,7 @@ def _latest(rows: Sequence[TestRow]) -> dict[tuple[int, str], TestRow]:
     return latest
 
 
-def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> Report:
+def reissue_report(db: Database, actor: User, report_id: int, base_url: str, *, password: str) -> Report:
     """Issue revision n + 1 of an issued report after an amendment.
 
     It carries the current approved revision of each sample and method of revision n; revision n
@@ -352,6 +419,7 @@ def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> 
     test's newest revision is not approved yet, or when nothing was amended since revision n.
     """
     _check_role(actor)
+    signature = check_signature(db, actor, password, REPORT_MEANING)
     issued_at = utcnow()
     with db.session() as s:
         old = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
@@ -408,7 +476,7 @@ def reissue_report(db: Database, actor: User, report_id: int, base_url: str) -> 
             scope=_scope(rows, approved),
             history=history,
         )
-    return _store(db, actor, _Prepared(old.job_id, rows, data, old.id), _render(data))
+    return _store(db, actor, _Prepared(old.job_id, rows, data, signature, old.id), _render(data))
 
 
 @dataclass

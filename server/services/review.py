@@ -68,7 +68,9 @@ def check_signature(db: Database, actor: User, password: str, meaning: str) -> S
     return Signature(signer.id or 0, signer.password_hash, meaning)
 
 
-def _signer(session: Session, signature: Signature) -> User:
+def signer_in(session: Session, signature: Signature) -> User:
+    """The signer, inside the write transaction, unless the account changed since the password
+    was checked (deactivated, or its password changed): then nothing is signed."""
     signer = session.get(User, signature.signer_id)
     if signer is None or not signer.active or signer.password_hash != signature.password_hash:
         raise invalid("password", "the account changed while signing: the signature was not applied")
@@ -159,7 +161,7 @@ def approve(
     """Sign a submitted test as approved."""
     signature = check_signature(db, actor, password, meaning)
     with db.transaction() as s:
-        signer = _signer(s, signature)
+        signer = signer_in(s, signature)
         test = locked_test(s, test_id, expected_version, "approval")
         _approve_one(s, signer, test, expected_version, signature, self_approval_forbidden)
         return test
@@ -188,7 +190,7 @@ def approve_batch(
         raise invalid("tests", f"a batch is limited to {MAX_BATCH} tests")
     signature = check_signature(db, actor, password, meaning)
     with db.transaction() as s:
-        signer = _signer(s, signature)
+        signer = signer_in(s, signature)
         tests = [locked_test(s, tid, wanted[tid], "approval") for tid in sorted(wanted)]  # fixed lock order
         flagged = [t.id for t in tests if t.flags]
         if flagged:

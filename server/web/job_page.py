@@ -13,6 +13,7 @@ from server.auth.sessions import csrf_protect, database, require_user
 from server.db.queries import job_sheet, test_rows, users_by_id
 from server.db.tables import Job, LabTest, LinkAccess, Location, Sample, User
 from server.engine import METHODS
+from server.services.reports import REPORT_MEANING
 from server.web.templating import render
 from server.workflow.vocabulary import (
     CONDITIONS,
@@ -98,6 +99,9 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
         new_link=extra.get("new_link"),
         error=extra.get("error"),
         message=extra.get("message"),
+        issue_form=extra.get("issue_form", {"choice": "all", "sample": [], "overlap_decision": ""}),
+        issue_errors=extra.get("issue_errors", {}),
+        report_meaning=REPORT_MEANING,
         location_form=extra.get("location_form", EMPTY_LOCATION),
         location_errors=extra.get("location_errors", {}),
         sample_form=extra.get("sample_form", EMPTY_SAMPLE),

@@ -12,7 +12,7 @@ from server.auth.sessions import csrf_protect, database, require_roles
 from server.db.tables import Report, ShareLink, User
 from server.services import links, reports
 from server.services.errors import ServiceError, http_status
-from server.web.forms import refusal_of
+from server.web.forms import record_id, refusal_of
 from server.web.job_page import job_page_response
 from server.web.templating import render
 
@@ -30,28 +30,56 @@ def issue_report(
     job_id: int,
     user: Checker,
     choice: Annotated[str, Form()] = "all",
-    sample: Annotated[list[int] | None, Form()] = None,
+    sample: Annotated[list[str] | None, Form()] = None,
+    password: Annotated[str, Form()] = "",
+    overlap_decision: Annotated[str, Form()] = "",
 ) -> Response:
-    """Issue a report of every approved test, or (choice "chosen") of the ticked samples only."""
-    chosen = (sample or []) if choice == "chosen" else None
+    """Issue a report, signed with the issuer's password: of every approved test, of the samples
+    not yet reported ("unreported"), or of the ticked samples only ("chosen")."""
+    chosen: list[int] | None = None
+    if choice == "chosen":
+        chosen = [i for i in (record_id(x) for x in sample or []) if i is not None]
+    elif choice == "unreported":
+        chosen = reports.unreported_sample_ids(database(request), job_id)
     try:
-        report = reports.issue_report(database(request), user, job_id, _base_url(request), chosen)
+        report = reports.issue_report(
+            database(request),
+            user,
+            job_id,
+            _base_url(request),
+            chosen,
+            password=password,
+            overlap_decision=overlap_decision,
+        )
     except ServiceError as exc:
-        return job_page_response(request, job_id, error=str(exc))
+        errors, problem = refusal_of(exc)
+        form = {"choice": choice, "sample": sample or [], "overlap_decision": overlap_decision}
+        return job_page_response(
+            request, job_id, http_status(exc), error=problem, issue_errors=errors, issue_form=form
+        )
     return RedirectResponse(f"/jobs/{job_id}#report-{report.id}", status_code=303)
 
 
 @router.post("/reports/{report_id}/reissue")
-def reissue_report(request: Request, report_id: int, user: Checker) -> Response:
-    """Revision n + 1 of an issued report after an amendment; revision n is marked superseded."""
+def reissue_report(
+    request: Request, report_id: int, user: Checker, password: Annotated[str, Form()] = ""
+) -> Response:
+    """Revision n + 1 of an issued report after an amendment, signed with the issuer's password;
+    revision n is marked superseded."""
     with database(request).session() as s:
         old = s.get(Report, report_id)
     if old is None:
         raise HTTPException(404, "no such report")
     try:
-        report = reports.reissue_report(database(request), user, report_id, _base_url(request))
+        report = reports.reissue_report(
+            database(request), user, report_id, _base_url(request), password=password
+        )
     except ServiceError as exc:
-        return job_page_response(request, old.job_id, error=str(exc))
+        errors, problem = refusal_of(exc)
+        message = errors.get("password") or problem or str(exc)
+        return job_page_response(
+            request, old.job_id, http_status(exc), error=f"Re-issue of {old.number}: {message}"
+        )
     return RedirectResponse(f"/jobs/{old.job_id}#report-{report.id}", status_code=303)
 
 

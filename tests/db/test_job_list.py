@@ -18,7 +18,7 @@ from server.db.job_list import JobFilter, JobListPage, job_page, like_pattern
 from server.db.session import Database
 from server.db.tables import Client, User
 from server.services import jobs, reports, samples
-from tests.conftest import People
+from tests.conftest import PASSWORDS, People
 from tests.workflow.flows import Lab
 
 TODAY = date(2026, 6, 15)  # a fixed day of the fictional scenario; due dates are set against it
@@ -117,7 +117,9 @@ def test_each_status_filter_follows_issued_reports_and_the_due_date(db: Database
     Lab(db, admin, "ST-NODATE")
     reported = Lab(db, admin, "ST-DONE", due=TODAY - timedelta(days=10))
     reported.approved(people.tech, people.review)
-    reports.issue_report(db, people.review, reported.job.id or 0, "http://lab.example")
+    reports.issue_report(
+        db, people.review, reported.job.id or 0, "http://lab.example", password=PASSWORDS["review"]
+    )
     # Open work first, soonest due first, undated after; reported last (server/db/job_list.py).
     listing = _find(db)
     assert [(r.job.code, r.status) for r in listing.rows] == [

@@ -152,7 +152,7 @@ def test_names_methods_deviation_approvers_and_the_signature_meaning(demo: Demo)
     assert " ".join(deviation.split()) in demo.flat
     with demo.db.session() as s:
         issuer = s.get(User, demo.report.issued_by_id)
-    assert issuer is not None and f"Approved by {issuer.full_name} Role Reviewer" in demo.flat
+    assert issuer is not None and f"Signed by {issuer.full_name} Role Reviewer" in demo.flat
     assert " ".join(REPORT_MEANING.split()) in demo.flat
     for username, full_name, *_ in LOGINS:
         if username in ("review", "review2"):

@@ -26,7 +26,7 @@ from server.db.tables import Client, Job, LabTest, Sample
 from server.services import bench, jobs, reports, samples
 from server.services.errors import Invalid
 from server.services.samples import LocationForm, SampleForm
-from tests.conftest import People
+from tests.conftest import PASSWORDS, People
 from tests.reports.issued import approve
 from tests.support.records import audit_events, refused_fields, row_count, row_counts
 from tests.support.scenario import NATURAL
@@ -301,7 +301,7 @@ def test_the_job_number_changes_freely_until_a_report_is_issued_then_is_locked(
     with db.session() as s:
         test = s.exec(select(LabTest).where(LabTest.sample_id == sample.id)).one()
     approve(db, people, test.id or 0)
-    reports.issue_report(db, people.review, site.job_id, BASE)
+    reports.issue_report(db, people.review, site.job_id, BASE, password=PASSWORDS["review"])
     events = len(audit_events(db, "job", site.job_id))
     renumbered = jobs.JobForm(site.client_id, "MV-2026-140", "Harrow Lane")
     with pytest.raises(Invalid) as refused:

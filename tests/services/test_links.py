@@ -28,7 +28,10 @@ def _issue(db: Database, people: People, test_id: int, job_id: int) -> int:
     saved = bench.save_readings(db, people.tech, test_id, ATTERBERG, 1)
     test = bench.submit(db, people.tech, test_id, saved.test.version)
     review.approve(db, people.review, test_id, PASSWORDS["review"], test.version)
-    return reports.issue_report(db, people.review, job_id, "http://lab.example").id or 0
+    return (
+        reports.issue_report(db, people.review, job_id, "http://lab.example", password=PASSWORDS["review"]).id
+        or 0
+    )
 
 
 def test_keeps_only_the_hash_of_a_long_random_token(db: Database, people: People) -> None:

@@ -33,9 +33,9 @@ def test_share_page_lists_current_reports_first_and_marks_superseded_ones(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    first = reports.issue_report(db, people.review, two.job_id, BASE)
+    first = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     amend_and_approve(db, people, two.tests[0])
-    second = reports.reissue_report(db, people.review, first.id or 0, BASE)
+    second = reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     made = links.create_link(db, people.review, two.job_id, 7)
     page = app_client.get(_share_path(made.token))
     assert page.status_code == 200 and page.headers["cache-control"] == "private, no-store"
@@ -49,7 +49,7 @@ def test_share_link_downloads_the_stored_pdf_even_after_the_lab_details_change(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    report = reports.issue_report(db, people.review, two.job_id, BASE)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     jobs.set_laboratory(db, people.admin, "Renamed Laboratory", "Elsewhere", "")  # a re-render would differ
     made = links.create_link(db, people.review, two.job_id, 7)
     pdf = app_client.get(f"{_share_path(made.token)}/reports/{report.id}.pdf")
@@ -61,7 +61,7 @@ def test_expired_withdrawn_and_unknown_links_get_a_clear_page_and_no_data(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    report = reports.issue_report(db, people.review, two.job_id, BASE)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     expired = links.create_link(db, people.review, two.job_id, 7)
     with db.transaction() as s:
         link = s.get(ShareLink, expired.link.id)
@@ -85,7 +85,7 @@ def test_a_link_limited_to_one_job_cannot_download_another_jobs_report(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    mine = reports.issue_report(db, people.review, two.job_id, BASE)
+    mine = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     with db.session() as s:
         client_id = s.get(Job, two.job_id).client_id  # type: ignore[union-attr]
     other = jobs.create_job(db, people.admin, client_id, "T-200", "Other job", "Other site")
@@ -93,7 +93,7 @@ def test_a_link_limited_to_one_job_cannot_download_another_jobs_report(
     sample = samples.add_sample(db, people.admin, location.id or 0, "BH9-S1", 1.0, 1.45, "U100", "Soft CLAY")
     (test,) = jobs.request_tests(db, people.admin, [sample.id or 0], ["atterberg"])
     approve(db, people, test.id or 0)
-    theirs = reports.issue_report(db, people.review, other.id or 0, BASE)
+    theirs = reports.issue_report(db, people.review, other.id or 0, BASE, password=PASSWORDS["review"])
     made = links.create_link(db, people.review, two.job_id, 7)
     page = app_client.get(_share_path(made.token))
     assert mine.number in page.text and theirs.number not in page.text and "T-200" not in page.text
@@ -105,7 +105,7 @@ def test_every_use_is_logged_for_the_lab_and_the_token_is_never_stored(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    report = reports.issue_report(db, people.review, two.job_id, BASE)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     made = links.create_link(db, people.review, two.job_id, 7, "design office")
     app_client.get(_share_path(made.token), headers={"user-agent": "client-browser/1.0"})
     app_client.get(f"{_share_path(made.token)}/reports/{report.id}.pdf")
@@ -117,7 +117,7 @@ def test_every_use_is_logged_for_the_lab_and_the_token_is_never_stored(
     sign_in(app_client, "review", PASSWORDS["review"])
     page = app_client.get(f"/jobs/{two.job_id}/links")
     assert page.status_code == 200
-    table = page.text[page.text.index('id="access-log"'):]
+    table = page.text[page.text.index('id="access-log"') :]
     assert table.count("design office") == 2 and "client-browser/1.0" in table
     assert made.token not in page.text
 
@@ -128,15 +128,23 @@ def test_reviewer_issues_a_report_of_ticked_samples_and_reissues_it_after_an_ame
     two = two_approved_samples(db, people)
     sign_in(app_client, "review", PASSWORDS["review"])
     job_path = f"/jobs/{two.job_id}"
-    issued = post_form(app_client, job_path, f"{job_path}/reports",
-                       [("choice", "chosen"), ("sample", str(two.samples[1]))], follow_redirects=False)
+    issued = post_form(
+        app_client,
+        job_path,
+        f"{job_path}/reports",
+        [("choice", "chosen"), ("sample", str(two.samples[1])), ("password", PASSWORDS["review"])],
+        follow_redirects=False,
+    )
     assert issued.status_code == 303, issued.text
     with db.session() as s:
         (report,) = s.exec(select(Report)).all()
-    nothing = post_form(app_client, job_path, f"/reports/{report.id}/reissue", {})
+    signed = {"password": PASSWORDS["review"]}  # a re-issue is signed (S7 point 4)
+    unsigned = post_form(app_client, job_path, f"/reports/{report.id}/reissue", {})
+    assert unsigned.status_code == 422 and "password does not match" in unsigned.text
+    nothing = post_form(app_client, job_path, f"/reports/{report.id}/reissue", signed)
     assert "nothing in revision 1 was amended" in nothing.text
     amend_and_approve(db, people, two.tests[1])
-    again = post_form(app_client, job_path, f"/reports/{report.id}/reissue", {}, follow_redirects=False)
+    again = post_form(app_client, job_path, f"/reports/{report.id}/reissue", signed, follow_redirects=False)
     assert again.status_code == 303, again.text
     page = app_client.get(job_path)
     rows = re.findall(r'<tr id="report-(\d+)">(.*?)</tr>', page.text, re.S)
@@ -149,8 +157,12 @@ def test_a_link_for_every_job_of_the_client_is_made_from_the_job_page(
     two = two_approved_samples(db, people)
     sign_in(app_client, "review", PASSWORDS["review"])
     job_path = f"/jobs/{two.job_id}"
-    made = post_form(app_client, job_path, f"{job_path}/links",
-                     {"days_valid": "14", "label": "client office", "scope": "client"})
+    made = post_form(
+        app_client,
+        job_path,
+        f"{job_path}/links",
+        {"days_valid": "14", "label": "client office", "scope": "client"},
+    )
     assert re.search(r"http://testserver/share/[\w-]{43}", made.text)
     with db.session() as s:
         link = s.exec(select(ShareLink)).one()

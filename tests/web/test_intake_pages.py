@@ -135,7 +135,7 @@ def test_the_job_number_is_locked_once_a_report_is_issued(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    reports.issue_report(db, people.review, two.job_id, BASE)
+    reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     with db.session() as s:
         job = s.get(Job, two.job_id)
         assert job is not None

@@ -253,7 +253,9 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
 ) -> None:
     lab = Lab(db, people.admin, "RV-6")
     first = lab.approved(people.tech, people.review)
-    report = reports.issue_report(db, people.review, lab.job.id or 0, "http://testserver")
+    report = reports.issue_report(
+        db, people.review, lab.job.id or 0, "http://testserver", password=PASSWORDS["review"]
+    )
     sign_in(app_client, "review", PASSWORDS["review"])
     job_page = app_client.get(f"/jobs/{lab.job.id}")
     assert f'hx-get="/jobs/{lab.job.id}/reissue"' in job_page.text
@@ -275,6 +277,7 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
     review.approve(db, people.review, second, PASSWORDS["review"], version(db, second))
     ready = app_client.get(fragment)
     assert "Ready to re-issue" in ready.text and f'action="/reports/{report.id}/reissue"' in ready.text
-    done = post_form(app_client, fragment, f"/reports/{report.id}/reissue", {}, follow_redirects=False)
+    signed = {"password": PASSWORDS["review"]}  # a re-issue is signed (S7 point 4)
+    done = post_form(app_client, fragment, f"/reports/{report.id}/reissue", signed, follow_redirects=False)
     assert done.status_code == 303
     assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]

@@ -26,7 +26,9 @@ def test_late_open_and_done_jobs_are_told_apart_by_due_date_and_issued_reports(
     soon.new_test()
     done = Lab(db, people.admin, "TA-DONE", due=today - timedelta(days=1))
     done.approved(people.tech, people.review)
-    reports.issue_report(db, people.review, done.job.id or 0, "http://testserver")
+    reports.issue_report(
+        db, people.review, done.job.id or 0, "http://testserver", password=PASSWORDS["review"]
+    )
     sign_in(app_client, "review", PASSWORDS["review"])
     reply = app_client.get("/turnaround")
     assert reply.status_code == 200 and reply.template.name == "pages/turnaround.html"  # type: ignore[attr-defined]
@@ -42,7 +44,9 @@ def test_a_jobs_page_gives_each_tests_received_submitted_approved_and_issued_tim
 ) -> None:
     lab = Lab(db, people.admin, "TA-1", due=utcnow().date() - timedelta(days=1))
     issued_test = lab.approved(people.tech, people.review)
-    report = reports.issue_report(db, people.review, lab.job.id or 0, "http://testserver")
+    report = reports.issue_report(
+        db, people.review, lab.job.id or 0, "http://testserver", password=PASSWORDS["review"]
+    )
     waiting = lab.submitted(people.tech)
     sign_in(app_client, "admin", PASSWORDS["admin"])
     reply = app_client.get(f"/jobs/{lab.job.id}/turnaround")

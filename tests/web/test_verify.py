@@ -14,7 +14,7 @@ from fastapi.testclient import TestClient
 from server.db.session import Database
 from server.db.tables import Report
 from server.services import reports
-from tests.conftest import People
+from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, two_approved_samples
 
 BASE = "http://testserver"
@@ -23,12 +23,12 @@ BASE = "http://testserver"
 def _verdict(page_text: str) -> str:
     marker = 'data-verdict="'
     at = page_text.index(marker) + len(marker)
-    return page_text[at:page_text.index('"', at)]
+    return page_text[at : page_text.index('"', at)]
 
 
 def _issued(db: Database, people: People) -> tuple[Report, bytes]:
     two = two_approved_samples(db, people)
-    report = reports.issue_report(db, people.review, two.job_id, BASE)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     with db.session() as s:
         stored = s.get(Report, report.id)
         assert stored is not None
@@ -58,9 +58,9 @@ def test_answers_superseded_with_the_current_revision_after_a_reissue(
     app_client: TestClient, db: Database, people: People
 ) -> None:
     two = two_approved_samples(db, people)
-    first = reports.issue_report(db, people.review, two.job_id, BASE)
+    first = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
     amend_and_approve(db, people, two.tests[0])
-    second = reports.reissue_report(db, people.review, first.id or 0, BASE)
+    second = reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     page = app_client.get("/verify", params={"number": first.number, "sha256": first.sha256})
     assert _verdict(page.text) == "superseded"
     assert "revision 2</b>" in page.text and second.sha256 in page.text

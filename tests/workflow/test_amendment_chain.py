@@ -61,7 +61,7 @@ def test_three_revisions_are_kept_and_the_report_is_marked_and_reissued_each_tim
     lab = Lab(db, people.admin, "AM-3")
     job_id = lab.job.id or 0
     rev1 = lab.approved(people.tech, people.review)
-    first = reports.issue_report(db, people.review, job_id, BASE)
+    first = reports.issue_report(db, people.review, job_id, BASE, password=PASSWORDS["review"])
     assert _reissue_state(db, job_id) == []
 
     # Revision 2: review2 amends; the report that carries revision 1 now needs re-issue.
@@ -75,13 +75,13 @@ def test_three_revisions_are_kept_and_the_report_is_marked_and_reissued_each_tim
     )
     assert _reissue_state(db, job_id) == [(first.number, 1, [1], False)]
     with pytest.raises(Invalid):  # not until the amended revision is approved
-        reports.reissue_report(db, people.review, first.id or 0, BASE)
+        reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     _correct_and_hand_in(db, people, rev2, 30.10)
     with pytest.raises(Forbidden):  # whoever amended may not sign the new revision
         review.approve(db, people.review2, rev2, PASSWORDS["review2"], version(db, rev2))
     review.approve(db, people.review, rev2, PASSWORDS["review"], version(db, rev2))
     assert _reissue_state(db, job_id) == [(first.number, 1, [1], True)]
-    second = reports.reissue_report(db, people.review, first.id or 0, BASE)
+    second = reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     assert (second.number, second.revision) == (first.number, 2)
     assert _reissue_state(db, job_id) == []
 
@@ -94,7 +94,7 @@ def test_three_revisions_are_kept_and_the_report_is_marked_and_reissued_each_tim
     with pytest.raises(Forbidden):
         review.approve(db, people.admin, rev3, PASSWORDS["admin"], version(db, rev3))
     review.approve(db, people.review2, rev3, PASSWORDS["review2"], version(db, rev3))
-    third = reports.reissue_report(db, people.review, second.id or 0, BASE)
+    third = reports.reissue_report(db, people.review, second.id or 0, BASE, password=PASSWORDS["review"])
     assert _reissue_state(db, job_id) == []
 
     # Every report revision is kept; each earlier one names the one that replaced it.
