@@ -15,20 +15,32 @@ import copy
 from dataclasses import dataclass
 from typing import Any
 
+from sqlmodel import select
+
 from server.db.session import Database
 from server.db.tables import LabTest, User
 from server.services import audit
 from server.services.bench import change_status
+from server.services.errors import Conflict
 from server.services.review import allowed, locked_test, required_reason
 from server.workflow.states import AMENDED_REVISION_STARTS, Action
 
 
 def amend(db: Database, actor: User, test_id: int, reason: str, expected_version: int) -> LabTest:
-    """Open the next revision of an approved test; returns the new revision (a draft)."""
+    """Open the next revision of an approved test; returns the new revision (a draft). The
+    approved revision stays the current one, on the job and in reports, until the amendment
+    is approved (``review.approve`` then supersedes it); one amendment of a revision is open
+    at a time."""
     reason = required_reason(reason, "amend an approved test")
     with db.transaction() as s:
         old = locked_test(s, test_id, expected_version, "amendment")
         allowed(old, Action.amend, actor.role)
+        open_amendment = s.exec(select(LabTest).where(LabTest.previous_revision_id == old.id)).first()
+        if open_amendment is not None:
+            raise Conflict(
+                f"revision {open_amendment.revision} of this test amends it already "
+                f"({open_amendment.status}): finish that amendment instead"
+            )
         before = change_status(s, actor, old, Action.amend, expected_version)
         new = LabTest(
             sample_id=old.sample_id,
@@ -50,9 +62,9 @@ def amend(db: Database, actor: User, test_id: int, reason: str, expected_version
             actor,
             "lab_test",
             old.id or 0,
-            "supersede",
+            "open_amendment",
             before={"status": before},
-            after={"status": old.status, "superseded_by": new.id},
+            after={"status": old.status, "amended_by": new.id},
             reason=reason,
         )
         audit.record(

@@ -39,6 +39,7 @@ _DONE = {
     "return": "returned",
     "amend": "amended",
     "supersede": "amended",
+    "open_amendment": "amended",
     "submit": "handed in",
     "readings": "changed the readings of",
     "request": "requested",
@@ -146,6 +147,28 @@ def _approve_one(
     if batch is not None:
         after["batch_of"] = batch
     audit.record(session, signer, "lab_test", test.id or 0, "approve", before={"status": before}, after=after)
+    if test.previous_revision_id is not None:
+        _supersede(session, signer, test)
+
+
+def _supersede(session: Session, signer: User, amendment: LabTest) -> None:
+    """The revision an approved amendment replaces is superseded now, not when the amendment
+    was opened: until this signature it was the current approved result (and what reports
+    carry); from now on the reports that carry it need re-issue."""
+    old = session.get(LabTest, amendment.previous_revision_id)
+    if old is None or old.status != Status.approved.value:
+        return
+    before = change_status(session, signer, old, Action.supersede, old.version)
+    audit.record(
+        session,
+        signer,
+        "lab_test",
+        old.id or 0,
+        "supersede",
+        before={"status": before},
+        after={"status": old.status, "superseded_by": amendment.id},
+        reason=amendment.amendment_reason,
+    )
 
 
 def approve(

@@ -221,6 +221,7 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
         "raw_readings": amendments.leaves(readings),
         "computed": amendments.leaves(test.results),
         "flags": test.flags or [],
+        "flag_reasons": test.flag_reasons or {},
         "charts": curves(ev, row.sample.code),
         "authors": sorted((people[a] for a in authors if a in people), key=lambda u: u.full_name),
         "approver": people.get(test.approved_by_id or 0),
@@ -228,7 +229,7 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
         "blocked_as_author": own and settings.self_approval_forbidden,
         "may_approve": can(test.status, Action.approve, user.role),
         "may_return": can(test.status, Action.return_, user.role),
-        "may_amend": can(test.status, Action.amend, user.role),
+        "may_amend": can(test.status, Action.amend, user.role) and later is None,  # one open amendment
         "previous": Revision(
             previous,
             amendments.changes(previous.readings, test.readings),

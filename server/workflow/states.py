@@ -1,8 +1,11 @@
 """Test statuses and the table of allowed moves, by role (DESIGN.md section 4).
 
 requested -> draft (readings being entered) -> submitted -> approved, or
-submitted -> returned -> draft. An approved revision is never edited: amending it marks it
-superseded and opens a new draft revision. The table below is the single source of truth;
+submitted -> returned -> draft. An approved revision is never edited: amending it opens a new
+draft revision and leaves it the current approved revision; only when that amendment is
+approved is it superseded (the "supersede" move, made by approving the amendment), so that a
+report never loses a result to an amendment still being typed. The table below is the single
+source of truth;
 services consult it and tests are generated from it, so a new status cannot go untested.
 """
 
@@ -27,6 +30,7 @@ class Action(StrEnum):
     approve = "approve"
     return_ = "return"
     amend = "amend"
+    supersede = "supersede"  # approving the amendment of a revision supersedes that revision
 
 
 class Role(StrEnum):
@@ -46,11 +50,13 @@ TRANSITIONS: dict[tuple[Status, Action], tuple[Status, frozenset[Role]]] = {
     (Status.draft, Action.submit): (Status.submitted, EVERYONE),
     (Status.submitted, Action.approve): (Status.approved, CHECKERS),
     (Status.submitted, Action.return_): (Status.returned, CHECKERS),
-    (Status.approved, Action.amend): (Status.superseded, CHECKERS),
+    (Status.approved, Action.amend): (Status.approved, CHECKERS),
+    (Status.approved, Action.supersede): (Status.superseded, CHECKERS),
 }
 
-# An amendment leaves the approved row superseded (above) and opens the next revision here:
-# its readings are copied and may be corrected before it is handed in and signed again.
+# An amendment leaves the approved row approved (above) and opens the next revision here: its
+# readings are copied and may be corrected before it is handed in and signed again; its
+# approval supersedes the row it amends.
 AMENDED_REVISION_STARTS = Status.draft
 
 # What a person at the bench or desk is asked to do next, shown beside each test.
@@ -109,4 +115,5 @@ def _past(action: Action) -> str:
         Action.approve: "approved",
         Action.return_: "returned",
         Action.amend: "amended",
+        Action.supersede: "superseded",
     }[action]

@@ -8,10 +8,11 @@ from sqlmodel import col, select
 
 from server.db.session import Database
 from server.db.tables import AuditEvent
-from server.services import amendments
+from server.services import amendments, bench, review
 from server.services.amendments import Change, changes, leaves
 from server.services.errors import Conflict, Forbidden, Invalid
-from tests.conftest import People
+from tests.conftest import PASSWORDS, People
+from tests.support.scenario import ATTERBERG
 from tests.workflow.flows import Lab, load, version
 
 
@@ -23,8 +24,9 @@ def test_amending_keeps_the_approved_revision_and_opens_a_draft_with_its_reading
     old = load(db, old_id)
     new = amendments.amend(db, people.review2, old_id, "  tare of tin P2 re-weighed  ", old.version)
     kept = load(db, old_id)
+    # S7 point 5: the approved revision stays current until its amendment is approved
     assert (kept.status, kept.readings, kept.results, kept.approved_by_id) == (
-        "superseded",
+        "approved",
         old.readings,
         old.results,
         people.review.id,
@@ -50,11 +52,13 @@ def test_an_amendment_writes_an_event_on_each_revision_with_the_reason(db: Datab
     old_id = lab.approved(people.tech, people.review)
     new = amendments.amend(db, people.admin, old_id, "wrong sample depth", version(db, old_id))
     with db.session() as s:
-        events = s.exec(select(AuditEvent).where(col(AuditEvent.action).in_(["amend", "supersede"]))).all()
+        events = s.exec(
+            select(AuditEvent).where(col(AuditEvent.action).in_(["amend", "open_amendment"]))
+        ).all()
     by_test = {e.entity_id: e for e in events}
     assert set(by_test) == {old_id, new.id}
-    assert by_test[old_id].action == "supersede" and by_test[new.id].action == "amend"
-    assert by_test[old_id].after == {"status": "superseded", "superseded_by": new.id}
+    assert by_test[old_id].action == "open_amendment" and by_test[new.id].action == "amend"
+    assert by_test[old_id].after == {"status": "approved", "amended_by": new.id}
     assert by_test[new.id].after is not None and by_test[new.id].after["readings"] == new.readings
     assert {e.reason for e in events} == {"wrong sample depth"}
     assert {e.actor_id for e in events} == {people.admin.id}
@@ -126,3 +130,21 @@ def test_leaves_lists_every_value_in_document_order_with_rows_counted_from_one()
         ("empty", "empty", []),
     ]
     assert Change(("a", 0), 1, 2).key == "a"
+
+
+def test_approving_the_amendment_supersedes_the_revision_it_amends(db: Database, people: People) -> None:
+    lab = Lab(db, people.admin, "AM-9")
+    old_id = lab.approved(people.tech, people.review)
+    new = amendments.amend(db, people.review2, old_id, "tare of tin P2 re-weighed", version(db, old_id))
+    saved = bench.save_readings(db, people.tech, new.id or 0, ATTERBERG, version(db, new.id or 0))
+    bench.submit(db, people.tech, new.id or 0, saved.test.version)
+    assert load(db, old_id).status == "approved"  # still current while the amendment is reviewed
+    review.approve(db, people.review, new.id or 0, PASSWORDS["review"], version(db, new.id or 0))
+    assert (load(db, old_id).status, load(db, new.id or 0).status) == ("superseded", "approved")
+    with db.session() as s:
+        event = s.exec(select(AuditEvent).where(AuditEvent.action == "supersede")).one()
+    assert (event.entity_id, event.actor_id, event.reason) == (
+        old_id,
+        people.review.id,
+        "tare of tin P2 re-weighed",
+    )

@@ -262,19 +262,21 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
     fragment = f"/jobs/{lab.job.id}/reissue"
     assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]
     amendments.amend(db, people.review2, first, "tare re-checked", version(db, first))
+    # S7 point 5: while the amendment is open, revision 1 stays current and the report needs nothing
+    assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]
+    review_page = app_client.get(f"/review/{first}")
+    second = review_page.context["later"].id  # type: ignore[attr-defined]
+    bench.submit(db, people.tech, second, version(db, second))
+    assert f'action="/reports/{report.id}/reissue"' not in app_client.get(fragment).text
+    # Once the amended revision is approved, the note offers the re-issue; after it, the note is gone.
+    review.approve(db, people.review, second, PASSWORDS["review"], version(db, second))
     reply = app_client.get(fragment, headers={"HX-Request": "true"})
     assert reply.template.name == "partials/reissue_list.html" and "<html" not in reply.text  # type: ignore[attr-defined]
     assert "Reports that need re-issue" in reply.text and report.number in reply.text
-    assert "Re-issue once the amended revision is approved" in reply.text
     full = app_client.get(fragment)
     assert full.template.name == "pages/reissue.html" and "<html" in full.text  # type: ignore[attr-defined]
     review_page = app_client.get(f"/review/{first}")
     assert [r.report.id for r in review_page.context["reissue"]] == [report.id]  # type: ignore[attr-defined]
-    # Once the amended revision is approved, the note offers the re-issue; after it, the note is gone.
-    second = review_page.context["later"].id  # type: ignore[attr-defined]
-    bench.submit(db, people.tech, second, version(db, second))
-    assert f'action="/reports/{report.id}/reissue"' not in app_client.get(fragment).text
-    review.approve(db, people.review, second, PASSWORDS["review"], version(db, second))
     ready = app_client.get(fragment)
     assert "Ready to re-issue" in ready.text and f'action="/reports/{report.id}/reissue"' in ready.text
     signed = {"password": PASSWORDS["review"]}  # a re-issue is signed (S7 point 4)

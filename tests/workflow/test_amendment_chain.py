@@ -17,7 +17,7 @@ from server.db.review_queries import needs_reissue, revisions
 from server.db.session import Database
 from server.db.tables import Report, ReportTest
 from server.services import amendments, bench, reports, review
-from server.services.errors import Forbidden, Invalid
+from server.services.errors import Conflict, Forbidden, Invalid
 from tests.conftest import PASSWORDS, People
 from tests.support.scenario import ATTERBERG
 from tests.workflow.flows import Lab, load, version
@@ -64,22 +64,26 @@ def test_three_revisions_are_kept_and_the_report_is_marked_and_reissued_each_tim
     first = reports.issue_report(db, people.review, job_id, BASE, password=PASSWORDS["review"])
     assert _reissue_state(db, job_id) == []
 
-    # Revision 2: review2 amends; the report that carries revision 1 now needs re-issue.
+    # Revision 2: review2 amends; revision 1 stays the current approved one, and the report that
+    # carries it needs no re-issue, until revision 2 is approved (S7 point 5).
     rev2 = (
         amendments.amend(db, people.review2, rev1, "dry mass of tin N1 mis-keyed", version(db, rev1)).id or 0
     )
     assert (load(db, rev1).status, load(db, rev2).status, load(db, rev2).revision) == (
-        "superseded",
+        "approved",
         "draft",
         2,
     )
-    assert _reissue_state(db, job_id) == [(first.number, 1, [1], False)]
+    assert _reissue_state(db, job_id) == []
+    with pytest.raises(Conflict):  # one amendment of a revision at a time
+        amendments.amend(db, people.admin, rev1, "a second correction at once", version(db, rev1))
     with pytest.raises(Invalid):  # not until the amended revision is approved
         reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     _correct_and_hand_in(db, people, rev2, 30.10)
     with pytest.raises(Forbidden):  # whoever amended may not sign the new revision
         review.approve(db, people.review2, rev2, PASSWORDS["review2"], version(db, rev2))
     review.approve(db, people.review, rev2, PASSWORDS["review"], version(db, rev2))
+    assert load(db, rev1).status == "superseded"  # only now (S7 point 5)
     assert _reissue_state(db, job_id) == [(first.number, 1, [1], True)]
     second = reports.reissue_report(db, people.review, first.id or 0, BASE, password=PASSWORDS["review"])
     assert (second.number, second.revision) == (first.number, 2)
@@ -89,7 +93,7 @@ def test_three_revisions_are_kept_and_the_report_is_marked_and_reissued_each_tim
     rev3 = (
         amendments.amend(db, people.admin, rev2, "oven temperature log re-checked", version(db, rev2)).id or 0
     )
-    assert _reissue_state(db, job_id) == [(first.number, 2, [2], False)]
+    assert _reissue_state(db, job_id) == []
     _correct_and_hand_in(db, people, rev3, 30.05)
     with pytest.raises(Forbidden):
         review.approve(db, people.admin, rev3, PASSWORDS["admin"], version(db, rev3))

@@ -90,8 +90,19 @@ class Desk:
             Action.amend: lambda: (
                 amendments.amend(self.db, person, test_id, "copying error on the sheet", seen).id or 0
             ),
+            Action.supersede: lambda: self._supersede(person, test_id, seen),
         }
         return do[action]()
+
+    def _supersede(self, person: User, test_id: int, seen: int) -> int:
+        """A revision is superseded by approving its amendment: ``review2`` opens it, the bench
+        hands it in, and ``person`` signs it (the move under test)."""
+        opener = self.people.review2 if person.id != self.people.review2.id else self.people.review
+        amended = amendments.amend(self.db, opener, test_id, "copying error on the sheet", seen).id or 0
+        self._enter(self.people.tech, amended, version(self.db, amended))
+        bench.submit(self.db, self.people.tech, amended, version(self.db, amended))
+        review.approve(self.db, person, amended, PASSWORDS[person.username], version(self.db, amended))
+        return test_id
 
     def _enter(self, person: User, test_id: int, seen: int) -> int:
         self.saves += 1
@@ -150,13 +161,19 @@ def test_every_move_by_every_role_goes_through_the_services_as_the_table_says(
             desk.act(action, desk.actor[role], test_id)
             status_after, version_after, events_after = _state(db, test_id)
             assert status_after == rule[0].value, (status, action, role)
-            assert version_after == before[1] + 1 and events_after > before[2], (status, action, role)
+            # superseding first opens the amendment it approves: one more version of the row
+            steps = 2 if action is Action.supersede else 1
+            assert version_after == before[1] + steps and events_after > before[2], (status, action, role)
         else:
             with pytest.raises((Conflict, Forbidden, Invalid)) as refused:
                 desk.act(action, desk.actor[role], test_id)
             assert str(refused.value), (status, action, role)
             if rule is not None:  # the move exists, only not for this role: 403, not 409
                 assert isinstance(refused.value, Forbidden), (status, action, role)
-            assert _state(db, test_id) == before, (status, action, role)
+            if action is Action.supersede and rule is not None:
+                # the amendment was opened (by another person) before the refused signature
+                assert _state(db, test_id)[0] == before[0], (status, action, role)
+            else:
+                assert _state(db, test_id) == before, (status, action, role)
         checked += 1
     assert checked == len(Status) * len(Action) * len(Role)

@@ -68,7 +68,7 @@ def test_only_reviewers_and_admins_approve_return_or_amend() -> None:
     # DESIGN.md section 4: the lab manager / reviewer approves, returns and amends; a technician enters
     # readings and hands the test in.
     for (_status, action), (_after, roles) in TRANSITIONS.items():
-        if action in (Action.approve, Action.return_, Action.amend):
+        if action in (Action.approve, Action.return_, Action.amend, Action.supersede):
             assert roles == {Role.reviewer, Role.admin}, action
         else:
             assert Role.technician in roles, action
@@ -84,7 +84,9 @@ def test_the_design_path_from_request_to_approval_is_walkable() -> None:
         (Status.returned, Action.enter, Role.technician, Status.draft),
         (Status.draft, Action.submit, Role.technician, Status.submitted),
         (Status.submitted, Action.approve, Role.reviewer, Status.approved),
-        (Status.approved, Action.amend, Role.admin, Status.superseded),
+        # S7 point 5: an amendment leaves the approved revision current until it is approved
+        (Status.approved, Action.amend, Role.admin, Status.approved),
+        (Status.approved, Action.supersede, Role.reviewer, Status.superseded),
     ]
     for before, action, role, after in steps:
         assert move(before.value, action, role.value).after is after
