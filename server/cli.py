@@ -1,4 +1,4 @@
-"""The ``claybench`` command: serve, demo, migrate, create-user, calc, import."""
+"""The ``claybench`` command: serve, demo, migrate, create-user, calc, import, audit verify."""
 
 from __future__ import annotations
 
@@ -26,7 +26,7 @@ def cmd_serve(args: argparse.Namespace) -> int:
 def cmd_migrate(args: argparse.Namespace) -> int:
     from server.db.migrate import upgrade
 
-    upgrade(get_settings().database_url)
+    upgrade(get_settings().migrate_database_url)
     print("database schema is up to date")
     return 0
 
@@ -128,6 +128,26 @@ def cmd_import(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_audit_verify(args: argparse.Namespace) -> int:
+    """Walk the audit trail's hash chain: exit 0 when it holds, 1 naming the first bad event,
+    so a scheduled job or a person can show the trail was not rewritten."""
+    from server.db.session import Database
+    from server.services.audit_chain import check
+
+    db = Database(get_settings().database_url)
+    try:
+        outcome = check(db)
+    finally:
+        db.dispose()
+    if outcome.bad is not None:
+        print(f"checked {outcome.checked} audit events")
+        print(f"event {outcome.bad.event_id}: {outcome.bad.kind}: {outcome.bad.message}")
+        return 1
+    print(f"checked {outcome.checked} audit events: trail intact")
+    print(f"newest sha256: {outcome.head_sha256 or '(no events yet)'}")
+    return 0
+
+
 def cmd_demo(args: argparse.Namespace) -> int:
     from server.demo import load_demo
 
@@ -180,6 +200,13 @@ def parser() -> argparse.ArgumentParser:
     i.add_argument("--dry-run", action="store_true", help="check and count only; store nothing")
     i.add_argument("--user", help="the username the audit trail records (default: system)")
     i.set_defaults(fn=cmd_import)
+
+    a = sub.add_parser("audit", help="check the audit trail")
+    audit_actions = a.add_subparsers(dest="action", required=True)
+    v = audit_actions.add_parser(
+        "verify", help="walk the hash chain; exit 1 naming the first event changed or after a removal"
+    )
+    v.set_defaults(fn=cmd_audit_verify)
     return p
 
 

@@ -27,6 +27,9 @@ class Settings(BaseSettings):
     environment: str = "development"
     data_dir: Path = Field(default=Path("data"))
     database_url: str = Field(default="", validation_alias="DATABASE_URL")
+    # The schema's owner, for `claybench migrate` only; the app itself connects with
+    # DATABASE_URL, on PostgreSQL a role that may not change the audit trail (README).
+    migrate_database_url: str = ""
     secret_key: str = ""
     public_base_url: str = "http://127.0.0.1:8000"
     https_only_cookies: bool = False
@@ -37,6 +40,8 @@ class Settings(BaseSettings):
     def _fill_defaults(self) -> Settings:
         if not self.database_url:
             self.database_url = f"sqlite:///{(self.data_dir / 'claybench.sqlite3').as_posix()}"
+        if not self.migrate_database_url:
+            self.migrate_database_url = self.database_url
         if self.environment != "development" and self.secret_key and len(self.secret_key) < 32:
             raise ValueError("CLAYBENCH_SECRET_KEY must be at least 32 characters outside development")
         return self

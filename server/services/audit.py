@@ -13,9 +13,14 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any
 
+from sqlalchemy.orm import SessionTransaction
 from sqlmodel import Session
 
 from server.db.tables import AuditEvent, User
+from server.services import audit_chain
+
+_CHAIN = "claybench_audit_chain"
+"""Where a session keeps the hash of the last event it added, with the transaction it belongs to."""
 
 
 def record(
@@ -32,20 +37,51 @@ def record(
 ) -> AuditEvent:
     """Add one event to the session; it commits (or not) with the change it describes.
     ``typed_at`` is when the person typed the change, given when it reached the server later
-    (an entry kept on an offline tablet); the event's own time is its arrival."""
+    (an entry kept on an offline tablet); the event's own time is its arrival.
+
+    The event is sealed into the hash chain here (``audit_chain`` says what the hash covers): it
+    links to the newest event, read once per transaction under the chain's lock, and later events
+    of the same transaction link to the one before them in this session. ``before`` and ``after``
+    are stored as copies, so a caller that changes its dict afterwards cannot make the stored
+    value differ from the hashed one.
+    """
     event = AuditEvent(
         actor_id=actor.id if actor else None,
         actor=actor.username if actor else "system",
         entity=entity,
         entity_id=entity_id,
         action=action,
-        before=before,
-        after=after,
+        before=_copy(before),
+        after=_copy(after),
         reason=reason,
         typed_at=typed_at,
     )
+    event.prev_sha256 = _previous_sha256(session)
+    event.sha256 = audit_chain.chain_hash(audit_chain.content_of(event), event.prev_sha256)
     session.add(event)
+    session.info[_CHAIN] = (_innermost(session), event.sha256)
     return event
+
+
+def _copy(value: dict[str, Any] | None) -> dict[str, Any] | None:
+    """The value as the JSON column will store it, detached from the caller's dict."""
+    return None if value is None else dict(json.loads(json.dumps(value)))
+
+
+def _innermost(session: Session) -> SessionTransaction | None:
+    """The transaction (or savepoint) events are being added in: a remembered hash is only good
+    inside the one it was remembered in, since a commit or a rolled-back savepoint ends it."""
+    return session.get_nested_transaction() or session.get_transaction()
+
+
+def _previous_sha256(session: Session) -> str:
+    """The hash the next event links to: the session's last event of this transaction, or else
+    the newest stored event (one SELECT, under the lock that keeps writers from forking)."""
+    remembered = session.info.get(_CHAIN)
+    current = _innermost(session)
+    if remembered is not None and current is not None and remembered[0] is current:
+        return str(remembered[1])
+    return audit_chain.head(session)
 
 
 # -- reading the trail back ---------------------------------------------------------------------
