@@ -128,6 +128,34 @@ def cmd_import(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_create_token(args: argparse.Namespace) -> int:
+    """A personal API token for USERNAME, printed once as the last word of the output (only its
+    SHA-256 is kept, so it cannot be shown again); exit 2 naming the refusal."""
+    from server.db.session import Database
+    from server.services.errors import Invalid, ServiceError
+    from server.services.tokens import create_token
+    from server.services.users import user_named
+
+    db = Database(get_settings().database_url)
+    try:
+        user = user_named(db, args.username)
+        made = create_token(db, None, user, args.name, args.scope, args.days)
+    except Invalid as exc:
+        print("refused: " + "; ".join(e.message for e in exc.errors), file=sys.stderr)
+        return 2
+    except ServiceError as exc:
+        print(f"refused: {exc}", file=sys.stderr)
+        return 2
+    finally:
+        db.dispose()
+    token = made.token
+    print(
+        f"created {token.scope} token {token.name!r} for {user.username}, "
+        f"expires {token.expires_at:%Y-%m-%d %H:%M} UTC; shown only now: {made.plaintext}"
+    )
+    return 0
+
+
 def cmd_audit_verify(args: argparse.Namespace) -> int:
     """Walk the audit trail's hash chain: exit 0 when it holds, 1 naming the first bad event,
     so a scheduled job or a person can show the trail was not rewritten."""
@@ -200,6 +228,15 @@ def parser() -> argparse.ArgumentParser:
     i.add_argument("--dry-run", action="store_true", help="check and count only; store nothing")
     i.add_argument("--user", help="the username the audit trail records (default: system)")
     i.set_defaults(fn=cmd_import)
+
+    t = sub.add_parser(
+        "create-token", help="make a personal API token for a user; the token is the last word printed"
+    )
+    t.add_argument("username")
+    t.add_argument("--name", required=True, help="what the token is for (shown in the log of its uses)")
+    t.add_argument("--scope", choices=["read", "write"], default="read")
+    t.add_argument("--days", type=int, default=90, help="days until it expires (1 to 366; default 90)")
+    t.set_defaults(fn=cmd_create_token)
 
     a = sub.add_parser("audit", help="check the audit trail")
     audit_actions = a.add_subparsers(dest="action", required=True)

@@ -35,6 +35,9 @@ class Settings(BaseSettings):
     https_only_cookies: bool = False
     self_approval_forbidden: bool = True
     session_max_age_s: int = 12 * 3600
+    # Requests each API token may make (the ``limits`` library's notation). Counted in the
+    # process's memory: one app process shares one count; several processes each count their own.
+    api_rate_limit: str = "600/minute"
 
     @model_validator(mode="after")
     def _fill_defaults(self) -> Settings:

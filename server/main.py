@@ -13,10 +13,12 @@ from starlette.responses import Response
 
 from server import __version__
 from server.api import calculations as api_calculations
+from server.api import v1 as api_v1
 from server.auth.sessions import CsrfRefused, RoleRequired, SignInRequired
 from server.config import ROOT, Settings, get_settings
 from server.db.session import Database
 from server.web import (
+    account,
     admin_users,
     audit,
     bench,
@@ -57,6 +59,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     )
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
+    api_v1.install(app)  # before the pages, so that no page route reads an /api/v1 path
     for module in (
         signin,
         intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}
@@ -74,6 +77,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         admin_users,
         registers,
         requests,
+        account,
     ):
         app.include_router(module.router)
 

@@ -27,14 +27,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime
 from typing import Any, Final, Literal
 
-from sqlalchemy import ColumnElement, Select, and_, case, func, literal, or_
+from sqlalchemy import ColumnElement, Select, and_, case, func, literal, or_, union
 from sqlalchemy import select as sa_select
 from sqlmodel import Session, col, select
 
-from server.db.tables import Client, Job, LabTest, Report, Sample
+from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Report, Sample
 from server.workflow.states import Status
 
 DerivedStatus = Literal["open", "overdue", "reported"]
@@ -123,31 +123,19 @@ def like_pattern(text: str) -> str:
     return f"%{escaped}%"
 
 
-def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = PER_PAGE) -> JobListPage:
-    """One page of the jobs matching ``wanted``, in two queries whatever the number of jobs."""
-    per_page = max(1, per_page)
-    issued = (
+def _issued() -> Any:
+    """Issued reports per job (a subquery); a job without one has no row (``n`` NULL when joined)."""
+    return (
         sa_select(col(Report.job_id).label("job_id"), func.count(col(Report.id)).label("n"))
         .where(col(Report.status) == "issued")
         .group_by(col(Report.job_id))
         .subquery("issued")
     )
-    reported = issued.c.n.is_not(None)
-    conditions = _conditions(wanted, today, reported)
 
-    def matching(*columns: Any) -> Select[Any]:
-        return (
-            sa_select(*columns)
-            .select_from(Job)
-            .join(Client, col(Client.id) == col(Job.client_id))
-            .outerjoin(issued, issued.c.job_id == col(Job.id))
-            .where(*conditions)
-        )
 
-    total = int(session.execute(matching(func.count(col(Job.id)))).scalar_one())
-    pages = max(1, math.ceil(total / per_page))
-    page = min(max(1, wanted.page), pages)
-
+def _row_counts() -> tuple[Any, Any]:
+    """The samples (not withdrawn) and the tests still to approve of each job, as correlated
+    subqueries of ``Job``: the counts a list row shows, in the list's own query."""
     samples = (
         select(func.count(col(Sample.id)))
         .where(col(Sample.job_id) == col(Job.id), col(Sample.withdrawn_at).is_(None))
@@ -165,6 +153,30 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
         .correlate(Job)
         .scalar_subquery()
     )
+    return samples, to_approve
+
+
+def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = PER_PAGE) -> JobListPage:
+    """One page of the jobs matching ``wanted``, in two queries whatever the number of jobs."""
+    per_page = max(1, per_page)
+    issued = _issued()
+    reported = issued.c.n.is_not(None)
+    conditions = _conditions(wanted, today, reported)
+
+    def matching(*columns: Any) -> Select[Any]:
+        return (
+            sa_select(*columns)
+            .select_from(Job)
+            .join(Client, col(Client.id) == col(Job.client_id))
+            .outerjoin(issued, issued.c.job_id == col(Job.id))
+            .where(*conditions)
+        )
+
+    total = int(session.execute(matching(func.count(col(Job.id)))).scalar_one())
+    pages = max(1, math.ceil(total / per_page))
+    page = min(max(1, wanted.page), pages)
+
+    samples, to_approve = _row_counts()
     open_due = case((reported, None), else_=col(Job.due_date))
     reported_due = case((reported, col(Job.due_date)), else_=None)
     stmt = (
@@ -214,3 +226,74 @@ def _conditions(wanted: JobFilter, today: date, reported: ColumnElement[bool]) -
     elif status == "overdue":
         conditions.append(and_(~reported, col(Job.due_date).is_not(None), col(Job.due_date) < today))
     return conditions
+
+
+# --- the API's list: keyset pages in id order -------------------------------------------------
+
+
+def changed_job_ids(since: datetime) -> Any:
+    """The ids of the jobs with any change at or after ``since`` (a subquery).
+
+    A job's changes are the audit events of the job, its locations, samples, tests and reports:
+    every change writes one (DESIGN.md section 4), so the trail is the one place that knows when
+    anything of a job last changed, with no timestamp column to keep in step.
+    """
+    at = col(AuditEvent.at) >= since
+
+    def event_of(entity: str, record_id: Any) -> Any:
+        return and_(col(AuditEvent.entity) == entity, col(AuditEvent.entity_id) == record_id, at)
+
+    return union(
+        sa_select(col(AuditEvent.entity_id)).where(col(AuditEvent.entity) == "job", at),
+        sa_select(col(Location.job_id)).join(AuditEvent, event_of("location", col(Location.id))),
+        sa_select(col(Sample.job_id)).join(AuditEvent, event_of("sample", col(Sample.id))),
+        sa_select(col(Sample.job_id))
+        .join(LabTest, col(LabTest.sample_id) == col(Sample.id))
+        .join(AuditEvent, event_of("lab_test", col(LabTest.id))),
+        sa_select(col(Report.job_id)).join(AuditEvent, event_of("report", col(Report.id))),
+    )
+
+
+def jobs_after(
+    session: Session,
+    wanted: JobFilter,
+    today: date,
+    *,
+    after_id: int | None,
+    limit: int,
+    client_id: int | None = None,
+    updated_since: datetime | None = None,
+) -> list[JobRow]:
+    """Up to ``limit`` jobs matching ``wanted`` (search and status as the list page reads them),
+    of one client, changed since a time, with ids above ``after_id``, in id order: a cursor
+    walk that never skips or repeats a job while jobs are added meanwhile (one query)."""
+    issued = _issued()
+    reported = issued.c.n.is_not(None)
+    conditions = _conditions(wanted, today, reported)
+    if after_id is not None:
+        conditions.append(col(Job.id) > after_id)
+    if client_id is not None:
+        conditions.append(col(Job.client_id) == client_id)
+    if updated_since is not None:
+        conditions.append(col(Job.id).in_(changed_job_ids(updated_since)))
+    samples, to_approve = _row_counts()
+    stmt = (
+        sa_select(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
+        .select_from(Job)
+        .join(Client, col(Client.id) == col(Job.client_id))
+        .outerjoin(issued, issued.c.job_id == col(Job.id))
+        .where(*conditions)
+        .order_by(col(Job.id))
+        .limit(max(1, limit))
+    )
+    return [
+        JobRow(
+            job,
+            client,
+            int(n_samples),
+            int(n_open),
+            int(n_issued),
+            derived_status(job.due_date, n_issued, today),
+        )
+        for job, client, n_samples, n_open, n_issued in session.execute(stmt).all()
+    ]

@@ -66,8 +66,10 @@ class TestRow:
     job: Job
 
 
-def test_rows(session: Session, *conditions: Any, order: Sequence[Any] = ()) -> list[TestRow]:
-    """Tests with their sample, location and job, in one query."""
+def test_rows(
+    session: Session, *conditions: Any, order: Sequence[Any] = (), limit: int | None = None
+) -> list[TestRow]:
+    """Tests with their sample, location and job, in one query (at most ``limit`` of them)."""
     stmt = (
         select(LabTest, Sample, Location, Job)
         .join(Sample, col(Sample.id) == LabTest.sample_id)
@@ -75,6 +77,7 @@ def test_rows(session: Session, *conditions: Any, order: Sequence[Any] = ()) -> 
         .join(Job, col(Job.id) == Location.job_id)
         .where(*conditions)
         .order_by(*order)
+        .limit(limit)
     )
     return [TestRow(t, s, loc, j) for t, s, loc, j in session.exec(stmt).all()]
 

@@ -301,6 +301,45 @@ class LinkAccess(SQLModel, table=True):
     user_agent: str = Field(default="", max_length=300)
 
 
+class ApiToken(SQLModel, table=True):
+    """A personal token for the JSON API: only the SHA-256 of the random token is kept.
+
+    It acts as its user, with the user's role read afresh on every use (a role change or a
+    deactivation takes effect at once); ``scope`` "read" may only read. Never deleted, so the
+    log of its uses keeps its name; revoking sets ``revoked_at``.
+    """
+
+    __tablename__ = "api_token"
+
+    id: int | None = Field(default=None, primary_key=True)
+    user_id: int = Field(foreign_key="user.id", index=True)
+    name: str = Field(max_length=100)
+    token_sha256: str = Field(max_length=64, unique=True, index=True)
+    prefix: str = Field(max_length=8)  # the token's first characters, to tell tokens apart on a page
+    scope: str = Field(max_length=8)  # "read" or "write"
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    expires_at: datetime = Field(sa_type=UTCDateTime)
+    revoked_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    last_used_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+
+
+class ApiTokenUse(SQLModel, table=True):
+    """One request made with a token (refused ones included), for its owner to see.
+
+    Not an audit event: a use changes nothing; what a write request changed is audited by the
+    service it called, under the token's user.
+    """
+
+    __tablename__ = "api_token_use"
+
+    id: int | None = Field(default=None, primary_key=True)
+    token_id: int = Field(foreign_key="api_token.id", index=True)
+    at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    method: str = Field(max_length=8)
+    path: str = Field(max_length=300)
+    status: int
+
+
 class AuditEvent(SQLModel, table=True):
     """An append-only record of one change: who, when, what, before, after, why."""
 
