@@ -140,6 +140,14 @@ EQUIPMENT: tuple[tuple[str, str, str, int], ...] = (
 )
 PAST_DUE_BALANCE = "BAL-02"
 WEIGHED_ON_PAST_DUE = "TP03-B3"  # a handed-in test the reviewer sees flagged
+CAPACITIES_G = {"BAL-01": 600.0, "BAL-02": 600.0}  # the balances' capacities: a heavier mass is refused
+# Why an error remark stands, as the demo's technician records it at hand-in (fictional).
+HAND_IN_REASONS = {
+    "equipment-calibration-expired": (
+        "BAL-02 was checked against the 200 g reference weight on the morning of the test and "
+        "read within 0.01 g; its recalibration is booked"
+    ),
+}
 
 
 def _determination(rng: random.Random, w: float, tin: str) -> dict[str, Any]:
@@ -321,7 +329,9 @@ def _fill_registers(db: Database, admin: User) -> dict[str, dict[str, Any]]:
     today = registers.today()
     entries = {}
     for code, kind, description, days in EQUIPMENT:
-        item = registers.add_equipment(db, admin, code, kind, description, today + timedelta(days=days))
+        item = registers.add_equipment(
+            db, admin, code, kind, description, today + timedelta(days=days), CAPACITIES_G.get(code)
+        )
         entries[code] = registers.equipment_view(item, today)["reading"]
     return entries
 
@@ -349,7 +359,10 @@ def _advance(
     saved = bench.save_readings(db, tech, test_id, readings, 1)
     if soil.state == "draft":
         return
-    test = bench.submit(db, tech, test_id, saved.test.version)
+    reasons = {
+        c: HAND_IN_REASONS[c] for c in bench.error_flag_codes(saved.evaluation) if c in HAND_IN_REASONS
+    }
+    test = bench.submit(db, tech, test_id, saved.test.version, reasons)
     password = next(pw for name, *_, pw in LOGINS if name == reviewer.username)
     if soil.state == "approved":
         review.approve(db, reviewer, test_id, password, test.version)

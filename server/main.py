@@ -23,6 +23,7 @@ from server.web import (
     audit,
     bench,
     client,
+    exports,
     home,
     imports,
     intake,
@@ -64,6 +65,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         signin,
         intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}
         job_page,
+        exports,
         receipt,
         imports,
         jobs,

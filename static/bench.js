@@ -7,6 +7,12 @@
  *   the screen until the technician keeps theirs or takes the other.
  * - Without a connection the banner says how many values are kept here; they are sent, in
  *   the order typed, when the connection returns, and put back into the inputs on reload.
+ * - What is kept belongs to the person who typed it: stored under their user id with the time it
+ *   was typed, sent only while they are signed in (the server refuses it from anyone else), and
+ *   stamped so that the audit event says when it was typed. Entries another person left here are
+ *   never put into the inputs: the page says they wait, and offers to discard them with a reason.
+ * - While the sign-out dialog (static/signout.js) asks what to do with unsent values, nothing is
+ *   sent behind it ("cb-hold"); its "Send now" asks this sheet to send ("cb-send-now").
  * Our own code, no dependencies.
  */
 (function () {
@@ -14,7 +20,11 @@
   var form = document.getElementById("sheet");
   if (!form || !form.dataset.test) return;
 
-  var storeKey = "claybench.bench." + form.dataset.test;
+  // The signed-in person; this tablet's entries of this test are kept under their id, apart from
+  // anybody else's (and from the key entries had before they carried their typist).
+  var me = { id: Number(form.dataset.userId), username: form.dataset.username || "", name: form.dataset.userName || "" };
+  var storePrefix = "claybench.bench." + form.dataset.test;
+  var storeKey = storePrefix + ".u" + me.id;
   var csrf = form.querySelector('input[name="csrf_token"]').value;
   var versionInput = form.querySelector('input[name="version"]');
   var banner = document.getElementById("net");
@@ -34,6 +44,7 @@
   var previewTimer = null;
   var retryTimer = null;
   var waiters = [];
+  var held = false; // the sign-out dialog is open: the person decides, nothing is sent meanwhile
   var NUMBER = /^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$/;
 
   // -- values of the sheet's fields ------------------------------------------------------------
@@ -83,7 +94,8 @@
         if (pending[p]) kept[p] = pending[p]; else delete kept[p];
       });
       touched = {};
-      if (Object.keys(kept).length) localStorage.setItem(storeKey, JSON.stringify({ fields: kept }));
+      var label = form.dataset.label || "";
+      if (Object.keys(kept).length) localStorage.setItem(storeKey, JSON.stringify({ typist: me, label: label, fields: kept }));
       else localStorage.removeItem(storeKey);
     } catch (e) { /* storage full or refused: the values stay on the screen */ }
   }
@@ -160,9 +172,10 @@
   function note(path) {
     var value = read(path);
     var e = pending[path];
-    if (e && e.state === "conflict") { e.value = value; keep(path, e); }
+    var now = new Date().toISOString(); // this tablet's clock; the server allows for its error
+    if (e && e.state === "conflict") { e.value = value; e.typed_at = now; keep(path, e); }
     else if (same(value, stored(path))) keep(path, null);
-    else keep(path, { value: value, base: e ? e.base : stored(path), seq: ++seq, state: "typed" });
+    else keep(path, { value: value, base: e ? e.base : stored(path), seq: ++seq, state: "typed", typed_at: now });
     persist();
   }
   function onEdit(ev) {
@@ -195,10 +208,10 @@
       var err = document.getElementById("err-" + dom(p));
       return !(err && err.dataset.kind === "invalid");
     }).sort(function (a, b) { return pending[a].seq - pending[b].seq; })
-      .map(function (p) { return { path: p, value: read(p), base: pending[p].base }; });
+      .map(function (p) { return { path: p, value: read(p), base: pending[p].base, typed_at: pending[p].typed_at }; });
   }
   function autosave() {
-    if (locked) return settle();
+    if (locked || held) return settle();
     if (sending) { again = true; return; }
     var list = sendable();
     var sig = JSON.stringify(list);
@@ -209,7 +222,7 @@
       method: "POST",
       credentials: "same-origin",
       headers: { "Content-Type": "application/json", "X-CSRF-Token": csrf, "HX-Request": "true" },
-      body: JSON.stringify({ changes: list })
+      body: JSON.stringify({ typed_by: me.id, sent_at: new Date().toISOString(), changes: list })
     }).then(function (res) {
       return res.json().catch(function () { return {}; }).then(function (body) {
         setOnline(true);
@@ -333,7 +346,7 @@
       keep(path, null);
       applyWhen();
     } else {
-      keep(path, { value: read(path), base: e.theirs, seq: e.seq, state: "typed" });
+      keep(path, { value: read(path), base: e.theirs, seq: e.seq, state: "typed", typed_at: e.typed_at });
     }
     lastRefused = "";
     persist();
@@ -415,7 +428,10 @@
       var post = document.createElement("form");
       post.method = "post";
       post.action = form.action;
-      [["csrf_token", csrf], ["version", versionInput.value], ["then", "submit"], ["autosaved", "1"]].forEach(function (f) {
+      var sent = [["csrf_token", csrf], ["version", versionInput.value], ["then", "submit"], ["autosaved", "1"]];
+      // the reasons typed for error remarks go with the hand-in ("reason.<flag code>")
+      form.querySelectorAll('[name^="reason."]').forEach(function (el) { sent.push([el.name, el.value]); });
+      sent.forEach(function (f) {
         var i = document.createElement("input");
         i.type = "hidden"; i.name = f[0]; i.value = f[1];
         post.appendChild(i);
@@ -453,6 +469,15 @@
   });
   window.addEventListener("online", function () { schedulePreview(0); });
   window.addEventListener("offline", function () { setOnline(false); });
+  document.addEventListener("cb-hold", function (ev) {
+    held = !!(ev.detail && ev.detail.hold);
+    if (!held) { lastRefused = ""; schedulePreview(0); }
+  });
+  document.addEventListener("cb-send-now", function (ev) {
+    ev.detail.handled = true;
+    held = false;
+    flush(ev.detail.done);
+  });
 
   // Put back what this tablet kept for this test: typed values not saved yet, and conflicts.
   var kept = loadStore();
@@ -471,6 +496,115 @@
   applyWhen();
   paint();
   if (Object.keys(pending).length) schedulePreview(0);
+  showOthers();
+
+  // -- entries other people left on this tablet -----------------------------------------------------
+  // Never sent from here and never put into the inputs: only their typist can send them, signed in
+  // as themselves. The person here may discard them with a reason, which the server records (with
+  // the values and the typist) before they are removed from this tablet.
+  function othersKept() {
+    var groups = [];
+    try {
+      for (var i = 0; i < localStorage.length; i++) {
+        var key = localStorage.key(i);
+        if (!key || key === storeKey || key.indexOf(storePrefix) !== 0) continue;
+        var rest = key.slice(storePrefix.length); // ".u<id>", or "" for the key of entries kept
+        var legacy = rest === "";                 // before they carried their typist
+        if (!legacy && !/^\.u\d+$/.test(rest)) continue;
+        var data = JSON.parse(localStorage.getItem(key) || "{}");
+        var fields = data.fields || {};
+        if (!Object.keys(fields).length) continue;
+        var typist = legacy ? null : data.typist || { id: Number(key.slice(storePrefix.length + 2)) };
+        groups.push({ key: key, typist: typist, fields: fields });
+      }
+    } catch (e) { /* storage refused: nothing to show */ }
+    return groups;
+  }
+  function whoTyped(typist) {
+    if (!typist) return "a person this tablet did not record";
+    return typist.name || typist.username || "user " + typist.id;
+  }
+  function showOthers() {
+    var box = document.getElementById("kept-others");
+    if (!box) return;
+    var groups = othersKept();
+    box.textContent = "";
+    box.hidden = !groups.length;
+    groups.forEach(function (g) { box.appendChild(otherGroup(g)); });
+  }
+  function otherGroup(g) {
+    var n = Object.keys(g.fields).length;
+    var who = whoTyped(g.typist);
+    var part = document.createElement("div");
+    part.className = "problem kept-other";
+    var p = document.createElement("p");
+    p.textContent = "⚠ " + n + " entr" + (n === 1 ? "y" : "ies") + " typed by " + who +
+      " wait on this tablet; only they can send them, signed in as themselves.";
+    part.appendChild(p);
+    var open = document.createElement("button");
+    open.type = "button";
+    open.className = "quiet";
+    open.textContent = "Discard them…";
+    part.appendChild(open);
+    var ask = document.createElement("form");
+    ask.hidden = true;
+    ask.noValidate = true;
+    var id = "discard-reason-" + g.key.replace(/[^A-Za-z0-9]/g, "-");
+    var label = document.createElement("label");
+    label.htmlFor = id;
+    label.textContent = "Why discard the entries typed by " + who + "? (recorded in the audit trail with the values)";
+    var reason = document.createElement("input");
+    reason.id = id;
+    reason.type = "text";
+    reason.maxLength = 1000;
+    var say = document.createElement("p");
+    say.setAttribute("role", "status");
+    var row = document.createElement("div");
+    row.className = "actions";
+    var go = document.createElement("button");
+    go.type = "submit";
+    go.textContent = "Discard the entries";
+    var back = document.createElement("button");
+    back.type = "button";
+    back.className = "quiet";
+    back.textContent = "Keep them";
+    row.appendChild(go);
+    row.appendChild(back);
+    [label, reason, row, say].forEach(function (el) { ask.appendChild(el); });
+    part.appendChild(ask);
+    open.addEventListener("click", function () { ask.hidden = false; open.hidden = true; reason.focus(); });
+    back.addEventListener("click", function () { ask.hidden = true; open.hidden = false; say.textContent = ""; });
+    ask.addEventListener("submit", function (ev) {
+      ev.preventDefault();
+      if (!reason.value.trim()) { say.textContent = "✖ Say why: the reason is recorded with the discarded values."; reason.focus(); return; }
+      var entries = Object.keys(g.fields).map(function (path) {
+        return { path: path, value: String(g.fields[path].value == null ? "" : g.fields[path].value), typed_at: g.fields[path].typed_at };
+      });
+      go.disabled = true;
+      fetch(form.dataset.discard, {
+        method: "POST",
+        credentials: "same-origin",
+        headers: { "Content-Type": "application/json", "X-CSRF-Token": csrf },
+        body: JSON.stringify({ typed_by: g.typist ? g.typist.id : null, reason: reason.value, entries: entries })
+      }).then(function (res) {
+        return res.json().catch(function () { return {}; }).then(function (body) {
+          go.disabled = false;
+          if (!res.ok) { say.textContent = "✖ Not discarded: " + (body.detail || "error " + res.status) + "."; return; }
+          try { localStorage.removeItem(g.key); } catch (e) { /* the record is written; the page says so */ }
+          part.textContent = "";
+          part.className = "notice kept-other";
+          var done = document.createElement("p");
+          done.textContent = "✔ The " + n + " entr" + (n === 1 ? "y" : "ies") + " typed by " + who +
+            " were discarded; the reason is recorded in this test's audit trail.";
+          part.appendChild(done);
+        });
+      }, function () {
+        go.disabled = false;
+        say.textContent = "✖ No connection: the entries stay on this tablet until the discard can be recorded.";
+      });
+    });
+    return part;
+  }
 })();
 
 // Registers at the bench: a tin number fills its empty mass, an instrument number its calibration
@@ -518,6 +652,8 @@
     } else if (/^r\.(.+\.)?equipment\.\d+\.id$/.test(name)) {
       lookUp("/registers/equipment/" + encodeURIComponent(code), el, function (item) {
         fill(field(base + ".calibration_due"), item.calibration_due || "");
+        var capacity = item.reading && item.reading.capacity_g;
+        if (capacity) fill(field(base + ".capacity_g"), capacity);
         var mark = item.state === "past due" ? "✖ " : item.state === "in calibration" ? "✔ " : "⚠ ";
         say(el, mark + item.state + (item.calibration_due ? " (due " + item.calibration_due + ")" : ""));
       });

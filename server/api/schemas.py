@@ -11,7 +11,12 @@ class CalculationRequest(BaseModel):
     """A method id and its readings, exactly as DESIGN.md section 3 defines them."""
 
     method: str = Field(description="method id, for example water-content, ll-cup-multipoint, atterberg")
-    readings: dict[str, Any] = Field(description="raw readings: masses g, lengths mm, depths m")
+    readings: dict[str, Any] = Field(
+        description=(
+            "raw readings: masses g, lengths mm, depths m; each number a JSON number or a decimal "
+            'string ("44.20": a string keeps its trailing zeros in the record)'
+        )
+    )
 
 
 class FlagOut(BaseModel):

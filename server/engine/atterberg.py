@@ -31,7 +31,7 @@ _D4318 = "ASTM D4318-17"
 
 def _relabel(r: Readings, label: str) -> Readings:
     """The same readings with a human prefix for messages ("liquid limit, trial 2: ...")."""
-    return Readings(r.data, r.loc, label, r.errors)
+    return Readings(r.data, r.loc, label, r.errors, r.capacity)
 
 
 def _not_determinable(r: Readings) -> bool:

@@ -12,6 +12,7 @@ content, say) are still computed while another part is incomplete.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from datetime import date
@@ -127,6 +128,13 @@ def evaluate(method_id: str, readings: Mapping[str, Any] | Any) -> Evaluation:
     out = Outcome()
     out.tested_on = check_equipment(r, out)
     found.fn(r, out)
+    if drop_non_finite(out.results):
+        r.refuse(
+            None,
+            "these readings give a result too large to compute: check the masses, their units "
+            "and the decimal points",
+        )
+    flag_implausible(out)
     ev.results = out.results
     ev.flags = out.flags
     ev.errors = r.errors
@@ -139,3 +147,64 @@ def calculate(method_id: str, readings: Mapping[str, Any] | Any) -> Evaluation:
     if ev.errors:
         raise InputError(ev.errors)
     return ev
+
+
+# -- what no result may be -----------------------------------------------------------------------
+
+IMPLAUSIBLE_PERCENT = 1000.0
+"""A water content or a limit above 1000 % is beyond what soils hold (common practice: even
+peats and bentonites seldom pass it); such a result is flagged as an error for the reviewer."""
+
+_IMPLAUSIBLE: tuple[tuple[str, str, str], ...] = (
+    ("implausible-water-content", "water content", "water_content"),
+    ("implausible-liquid-limit", "liquid limit", "liquid_limit"),
+    ("implausible-plastic-limit", "plastic limit", "plastic_limit"),
+)
+
+
+def drop_non_finite(node: Any) -> bool:
+    """Replace every non-finite number in results by None, in place; True when one was found.
+
+    Readings are bounded (``readings.MAX_MAGNITUDE``, balance capacities) and divisions guarded,
+    so this should never find one; it is the last guard that no result is ever Infinity or NaN
+    (which JSON cannot carry and no report can print)."""
+    found = False
+    items: Any = node.items() if isinstance(node, dict) else enumerate(node) if isinstance(node, list) else ()
+    for key, value in list(items):
+        if isinstance(value, float) and not math.isfinite(value):
+            node[key] = None
+            found = True
+        elif isinstance(value, dict | list):
+            found = drop_non_finite(value) or found
+    return found
+
+
+def _percent(value: Any) -> float | None:
+    return float(value) if isinstance(value, int | float) and not isinstance(value, bool) else None
+
+
+def _row_values(results: Mapping[str, Any], key: str) -> list[float]:
+    """A result and the same quantity of every row it came from (each determination, each trial)."""
+    values = [_percent(results.get(key))]
+    rows = results.get(f"{key}_determinations")
+    if isinstance(rows, list):
+        values += [_percent(v) for v in rows]
+    trials = results.get("liquid_limit_trials")
+    if key != "plastic_limit" and isinstance(trials, list):
+        values += [_percent(t.get(key)) for t in trials if isinstance(t, Mapping)]
+    return [v for v in values if v is not None]
+
+
+def flag_implausible(out: Outcome) -> None:
+    """Flag (severity error) a water content or limit above ``IMPLAUSIBLE_PERCENT``, of the test or
+    of any of its rows: the reviewer must see it, and it is handed in only with a recorded reason."""
+    for code, what, key in _IMPLAUSIBLE:
+        values = _row_values(out.results, key)
+        worst = max(values, default=0.0)
+        if worst > IMPLAUSIBLE_PERCENT:
+            out.flag(
+                code,
+                "error",
+                f"a {what} of {worst:.0f} % is above {IMPLAUSIBLE_PERCENT:.0f} %, more than soils hold: "
+                "check the masses and the tin, or say at hand-in why the result stands",
+            )

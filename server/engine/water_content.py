@@ -7,11 +7,10 @@ determinations, so the same reader refuses the same bad masses wherever they app
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 from server.engine.contract import Outcome
-from server.engine.readings import Readings, fmt
+from server.engine.readings import MIN_MAGNITUDE, Readings, fmt
 from server.engine.uncertainty import Balance, Measured, expanded, u_mean, u_water_content
 
 
@@ -40,11 +39,12 @@ def water_content(tare_g: float, wet_tare_g: float, dry_tare_g: float) -> float:
 
 
 def _mass(r: Readings, key: str, name: str) -> float | None:
-    """A mass in grams, zero or more. Plain finite JSON numbers take a short path (the engine
-    runs on every keystroke at the bench); anything else goes through the full reader, which
-    gives the same answer and words the refusal."""
+    """A mass in grams, from zero up to the capacity of the balance. Plain JSON numbers within
+    it take a short path (the engine runs on every keystroke at the bench); anything else (the
+    decimal text the bench stores, a refusal) goes through the full reader, which gives the same
+    answer and words the refusal."""
     raw = r.data.get(key)
-    if (type(raw) is float or type(raw) is int) and 0.0 <= raw < math.inf:
+    if (type(raw) is float or type(raw) is int) and (MIN_MAGNITUDE <= raw <= r.capacity.grams or raw == 0):
         return float(raw)
     return r.number(key, name=name, unit="g", minimum=0.0)
 

@@ -26,6 +26,7 @@ from typing import Any
 
 from server.engine.indices import activity as activity_of
 from server.engine.plasticity_chart import chart_symbol
+from server.engine.readings import as_entered
 from server.engine.rounding import reported, round_half_up
 from server.reports.charts import (
     ProfileRow,
@@ -400,16 +401,15 @@ def show(key: str, value: Any) -> str:
 
 
 def typed(value: Any) -> str:
-    """A reading shown as typed: the shortest text that gives back the number."""
+    """A reading as entered ("44.20" as typed at the bench; a JSON number by the shortest text
+    that gives it back, see ``server.engine.readings.as_entered``); '—' when absent."""
     if value is None or value == "":
         return DASH
     if isinstance(value, bool):
         return "yes" if value else "no"
-    if isinstance(value, float):
-        return repr(value) if math.isfinite(value) else DASH
     if isinstance(value, list | tuple):
         return ", ".join(typed(v) for v in value) if value else DASH
-    return str(value)
+    return as_entered(value) or DASH
 
 
 def humanise(key: str) -> str:
@@ -544,6 +544,18 @@ def summary_row(tests: Sequence[TestEntry]) -> SummaryRow:
         uscs_name=show("uscs_name", r.get("uscs_name")),
         aashto=_aashto(r),
     )
+
+
+def sample_results(tests: Sequence[TestEntry]) -> dict[str, Any]:
+    """One sample's results at full precision, taken from its tests as its summary row takes
+    them: what an export prints beside the summary's rounded text, so the two never disagree."""
+    return _merge(tests)
+
+
+def shown_result(key: str, results: Mapping[str, Any]) -> str:
+    """A result of one test as the report prints it: "NP" for a limit of a non-plastic soil
+    (ASTM D4318), else rounded by the key's rule; for exports that print it beside the value."""
+    return _limit(key, results) if key in _NP_KEYS else show(key, results.get(key))
 
 
 def _by_sample(tests: Sequence[TestEntry]) -> list[list[TestEntry]]:

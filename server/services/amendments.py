@@ -22,6 +22,7 @@ from server.db.tables import LabTest, User
 from server.services import audit
 from server.services.bench import change_status
 from server.services.errors import Conflict
+from server.services.readings_paths import same
 from server.services.review import allowed, locked_test, required_reason
 from server.workflow.states import AMENDED_REVISION_STARTS, Action
 
@@ -182,13 +183,17 @@ def changes(before: dict[str, Any] | None, after: dict[str, Any] | None) -> list
     """Every leaf that differs between two JSON documents (readings or results), in the order of
     the newer document, then what the newer one no longer has.
 
-    A number is compared exactly as stored (full precision): a re-typed 38.10 for 38.1 is the same
-    value, a corrected 38.01 is a change.
+    A number is compared exactly as stored (full precision), a reading typed as text as typed:
+    "38.10" for "38.1" is a change of the record (a digit more was read), a corrected 38.01 is a
+    change; a reading stored as a JSON number (before readings kept their text) and the same
+    reading re-typed are not (38.1 and "38.1", see ``readings_paths.same``).
     """
     old, new = _leaves(before or {}), _leaves(after or {})
     found = []
     for path in [*new, *(p for p in old if p not in new)]:
         a, b = old.get(path, _ABSENT), new.get(path, _ABSENT)
+        if isinstance(a, str) != isinstance(b, str) and a is not _ABSENT and b is not _ABSENT and same(a, b):
+            continue
         if a != b or isinstance(a, bool) != isinstance(b, bool):
             found.append(Change(path, a, b))
     return [c for c in found if c.path]

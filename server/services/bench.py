@@ -19,8 +19,9 @@ bumps the version and writes one audit event whose ``after.readings`` are the st
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from datetime import datetime
 from typing import Any
 
 from sqlmodel import Session
@@ -29,7 +30,7 @@ from server.db.queries import bump_test
 from server.db.session import Database
 from server.db.tables import LabTest, User, utcnow
 from server.engine import Evaluation, FieldError, evaluate
-from server.services import audit
+from server.services import audit, offline
 from server.services.errors import Conflict, Invalid, NotFound
 from server.services.readings_paths import PathError, same, value_at, with_changes
 from server.workflow.states import Action, Move, TransitionRefused, move
@@ -48,12 +49,14 @@ class Change:
     """Set the field at ``path`` to ``value`` (None clears it); ``""`` is the whole readings.
 
     ``base`` is the value its author last saw there; leave it UNCHECKED when the save is
-    guarded by the test's version instead.
+    guarded by the test's version instead. ``typed_at`` is the typing stamp of a tablet that
+    kept the change while offline (its own clock; see ``offline.typing_times``).
     """
 
     path: str
     value: Any
     base: Any = UNCHECKED
+    typed_at: datetime | None = None
 
 
 @dataclass(frozen=True)
@@ -119,6 +122,9 @@ def save_changes(
     test_id: int,
     changes: Sequence[Change],
     expected_version: int | None = None,
+    *,
+    typed_by: int | None = None,
+    sent_at: datetime | None = None,
 ) -> Saved:
     """Store changes to a test's draft readings in one transaction (see the module docstring).
 
@@ -126,8 +132,14 @@ def save_changes(
     version is stale or the test may not be edited, ``Invalid`` when the readings that would
     result hold a wrong value (anywhere: a change may make another field wrong, such as a wet
     mass below the dry mass already stored). Nothing is stored on any refusal.
+
+    Entries a tablet kept offline name their typist (``typed_by``, a user id) and carry typing
+    stamps (``Change.typed_at``, and the batch's ``sent_at``): they are refused with
+    ``offline.OtherTypist`` unless the typist is ``actor``, and the event says when they were
+    typed when that was noticeably before they arrived (``offline`` module docstring).
     """
     with db.transaction() as s:
+        offline.check_typist(s, actor, typed_by)
         test = load_test(s, test_id, for_update=True)
         _allowed(test, Action.enter, actor)
         if expected_version is not None and test.version != expected_version:
@@ -154,6 +166,12 @@ def save_changes(
         if readings == stored:
             return Saved(test, ev, changed=False)
         before = {"status": test.status, "readings": test.readings}
+        typing = offline.typing_times(
+            {c.path: c.typed_at for c in changes if c.typed_at is not None and c.path in paths},
+            sent_at=sent_at,
+            arrival=utcnow(),
+            not_before=test.created_at,
+        )
         change_status(
             s,
             actor,
@@ -171,7 +189,8 @@ def save_changes(
             test_id,
             "readings",
             before=before,
-            after={"status": test.status, "readings": readings, "fields": paths},
+            after={"status": test.status, "readings": readings, "fields": paths, **typing.after()},
+            typed_at=typing.at,
         )
     return Saved(test, ev, changed=True, paths=paths)
 
@@ -183,19 +202,74 @@ def save_readings(
     return save_changes(db, actor, test_id, [Change("", readings)], expected_version)
 
 
-def submit(db: Database, actor: User, test_id: int, expected_version: int) -> LabTest:
-    """Hand the stored draft in for review: only when the engine accepts every reading."""
+def error_flag_codes(ev: Evaluation) -> list[str]:
+    """The codes of an evaluation's error-severity flags, each once, in the engine's order: the
+    remarks a technician must explain to hand the test in (one reason covers every flag of a code)."""
+    return list(dict.fromkeys(f.code for f in ev.flags if f.severity == "error"))
+
+
+def flag_reasons(ev: Evaluation, reasons: Mapping[str, str] | None) -> dict[str, str]:
+    """The reason given for each error flag that stands, checked; every missing or empty one is
+    refused at its field (``("reasons", code)``). Reasons for flags that do not stand are dropped.
+
+    The words must say something (``review.required_reason``: at least 10 characters of real
+    words): the reviewer reads them beside the flag, and the record keeps them (ISO/IEC
+    17025:2017 cl. 7.5.1, the record of a result includes what was noticed about it).
+    """
+    from server.services.review import required_reason  # review imports this module
+
+    given = reasons or {}
+    kept: dict[str, str] = {}
+    errors: list[FieldError] = []
+    for code in error_flag_codes(ev):
+        try:
+            kept[code] = required_reason(
+                given.get(code) or "", "hand the test in with this error remark standing"
+            )
+        except Invalid as exc:
+            errors += [FieldError(("reasons", code), f"error remark {code}: {e.message}") for e in exc.errors]
+    if errors:
+        raise Invalid(errors)
+    return kept
+
+
+def submit(
+    db: Database,
+    actor: User,
+    test_id: int,
+    expected_version: int,
+    reasons: Mapping[str, str] | None = None,
+) -> LabTest:
+    """Hand the stored draft in for review: only when the engine accepts every reading, and with
+    a reason (``reasons``: flag code -> words) for every error-severity flag that stands.
+
+    An error flag (equipment past its calibration date, a water content above 1000 %) does not
+    refuse a reading, since the readings may be right (a peat, a balance checked the same day);
+    but a test is not handed in with one until the technician records why the result stands.
+    The reasons are given with each hand-in (a test returned and handed in again states them
+    again: the bench page offers the earlier words), stored in ``flag_reasons`` and in the
+    hand-in's audit event, and shown to the reviewer beside the flag.
+    """
     with db.transaction() as s:
         test = load_test(s, test_id, for_update=True)
         ev = evaluate(test.method, test.readings or {})
         if ev.errors:
             raise Invalid(ev.errors)
+        kept = flag_reasons(ev, reasons)
         before = change_status(
-            s, actor, test, Action.submit, expected_version, submitted_at=utcnow(), return_reason=None
+            s,
+            actor,
+            test,
+            Action.submit,
+            expected_version,
+            submitted_at=utcnow(),
+            return_reason=None,
+            flag_reasons=kept or None,
         )
-        audit.record(
-            s, actor, "lab_test", test_id, "submit", before={"status": before}, after={"status": test.status}
-        )
+        after: dict[str, Any] = {"status": test.status}
+        if kept:
+            after["flag_reasons"] = kept
+        audit.record(s, actor, "lab_test", test_id, "submit", before={"status": before}, after=after)
         return test
 
 

@@ -17,6 +17,8 @@ import math
 from collections.abc import Iterable, Mapping
 from typing import Any
 
+from server.engine.readings import as_entered
+
 Part = str | int
 MAX_INDEX = 500  # no sheet has this many rows; a larger index is a wrong request, not a reading
 MAX_DEPTH = 8
@@ -75,7 +77,10 @@ def _is_number(value: Any) -> bool:
 
 
 def same(a: Any, b: Any) -> bool:
-    """Whether two field values are the same reading: blanks alike, numbers by value."""
+    """Whether two field values are the same reading: blanks alike, numbers by value, text as
+    typed ("44.20" is not "44.2": a digit more was read), and a number stored as a JSON number
+    (before readings kept their text) the same as the text it shows as (44.2 and "44.2"), so
+    that re-saving what a page showed is no change and no conflict."""
     if is_blank(a) and is_blank(b):
         return True
     if isinstance(a, bool) or isinstance(b, bool):
@@ -83,6 +88,8 @@ def same(a: Any, b: Any) -> bool:
     if _is_number(a) and _is_number(b):
         fa, fb = float(a), float(b)
         return fa == fb or (math.isnan(fa) and math.isnan(fb))
+    if (_is_number(a) and isinstance(b, str)) or (isinstance(a, str) and _is_number(b)):
+        return as_entered(a) == as_entered(b)
     return bool(a == b)
 
 

@@ -12,6 +12,7 @@ A bench warning 30 days ahead gives time to book the recalibration (common pract
 
 from __future__ import annotations
 
+import enum
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -45,6 +46,7 @@ IN_CALIBRATION, DUE_SOON, PAST_DUE = "in calibration", "due within 30 days", "pa
 STATE_MARK = {IN_CALIBRATION: "✔", DUE_SOON: "⚠", PAST_DUE: "✖"}
 
 MAX_TARE_G = 5000.0  # a dish heavier than 5 kg is a typing or unit slip (common practice)
+MAX_CAPACITY_G = 1_000_000.0  # 1 t: more than any laboratory balance weighs (common practice)
 _CODE = re.compile(r"^[A-Z0-9][A-Z0-9._/-]{0,31}$")
 
 
@@ -72,6 +74,27 @@ def _kind(kind: str) -> str:
     if kind not in EQUIPMENT_KINDS:
         raise invalid("kind", f"kind must be one of {', '.join(EQUIPMENT_KINDS)}")
     return kind
+
+
+class Keep(enum.Enum):
+    """A value an update leaves as it is (where None means "none recorded")."""
+
+    AS_IS = "as is"
+
+
+def _capacity(kind: str, capacity_g: float | None) -> float | None:
+    """A balance's capacity in grams (optional); only a balance has one. The bench copies it into
+    the readings, where the engine refuses any mass above it (server/engine/equipment.py)."""
+    if capacity_g is None:
+        return None
+    if kind != "balance":
+        raise invalid("capacity_g", "only a balance has a capacity; leave it blank for this kind")
+    if not 0 < capacity_g <= MAX_CAPACITY_G:  # also refuses NaN
+        raise invalid(
+            "capacity_g",
+            f"capacity must be more than 0 g and at most {MAX_CAPACITY_G:g} g, not {capacity_g:g} g",
+        )
+    return float(capacity_g)
 
 
 def _due(due: date | None) -> date:
@@ -156,10 +179,17 @@ def set_container_active(
 
 
 def add_equipment(
-    db: Database, actor: User, code: str, kind: str, description: str, calibration_due: date | None
+    db: Database,
+    actor: User,
+    code: str,
+    kind: str,
+    description: str,
+    calibration_due: date | None,
+    capacity_g: float | None = None,
 ) -> Equipment:
-    """Add an instrument with the date its calibration (or periodic check) falls due."""
-    errors = equipment_problems(code, kind, calibration_due)
+    """Add an instrument with the date its calibration (or periodic check) falls due, and for a
+    balance its capacity (the heaviest mass it weighs)."""
+    errors = equipment_problems(code, kind, calibration_due, capacity_g=capacity_g)
     if errors:
         raise Invalid(errors)
     code = _code(code, "equipment")
@@ -167,7 +197,11 @@ def add_equipment(
         if equipment_by_code(s, code):
             raise Conflict(f"equipment {code} is already in the register")
         item = Equipment(
-            code=code, kind=kind, description=description.strip()[:200], calibration_due=calibration_due
+            code=code,
+            kind=kind,
+            description=description.strip()[:200],
+            calibration_due=calibration_due,
+            capacity_g=_capacity(kind, capacity_g),
         )
         s.add(item)
         s.flush()
@@ -182,13 +216,16 @@ def update_equipment(
     description: str,
     calibration_due: date | None,
     reason: str = "",
+    capacity_g: float | None | Keep = Keep.AS_IS,
 ) -> Equipment:
-    """Change an instrument's description or due date (after a recalibration, say)."""
+    """Change an instrument's description, due date (after a recalibration, say) or, for a
+    balance, its capacity (None: none recorded; left as it is unless given)."""
     due = _due(calibration_due)
     with db.transaction() as s:
         item = _get(s, Equipment, equipment_id, "equipment")
+        capacity = item.capacity_g if isinstance(capacity_g, Keep) else _capacity(item.kind, capacity_g)
         before = item.model_dump(mode="json")
-        item.description, item.calibration_due = description.strip()[:200], due
+        item.description, item.calibration_due, item.capacity_g = description.strip()[:200], due, capacity
         s.add(item)
         s.flush()
         audit.record(
@@ -281,18 +318,23 @@ def container_lookup(db: Database, code: str) -> dict[str, Any]:
 
 
 def equipment_view(item: Equipment, on: date) -> dict[str, Any]:
-    """An instrument as the bench shows it, with the entry its readings carry (``reading``)."""
+    """An instrument as the bench shows it, with the entry its readings carry (``reading``): its
+    id and due date, and a balance's capacity, which bounds the masses (server/engine/equipment.py)."""
     state = calibration_state(item.calibration_due, on)
     due = item.calibration_due.isoformat() if item.calibration_due else None
+    reading: dict[str, Any] = {"id": item.code, "calibration_due": due}
+    if item.capacity_g is not None:
+        reading["capacity_g"] = item.capacity_g
     return {
         "code": item.code,
         "kind": item.kind,
         "description": item.description,
         "calibration_due": due,
+        "capacity_g": item.capacity_g,
         "state": state.state,
         "days_left": state.days_left,
         "active": item.active,
-        "reading": {"id": item.code, "calibration_due": due},
+        "reading": reading,
     }
 
 
@@ -323,12 +365,19 @@ def container_problems(code: str, tare_g: float | None) -> list[FieldError]:
 
 
 def equipment_problems(
-    code: str, kind: str, calibration_due: date | None, due_unreadable: bool = False
+    code: str,
+    kind: str,
+    calibration_due: date | None,
+    due_unreadable: bool = False,
+    *,
+    capacity_g: float | None = None,
 ) -> list[FieldError]:
     """Every refusal of a new instrument at once; with ``due_unreadable`` the date is the caller's."""
     checks: list[Callable[[], object]] = [lambda: _code(code, "equipment"), lambda: _kind(kind)]
     if not due_unreadable:
         checks.append(lambda: _due(calibration_due))
+    if kind in EQUIPMENT_KINDS:
+        checks.append(lambda: _capacity(kind, capacity_g))
     return _collect(*checks)
 
 

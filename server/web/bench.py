@@ -6,17 +6,24 @@ form still posts whole):
 - ``POST /tests/{id}/preview`` (htmx): the results of what is on the screen, storing nothing;
 - ``POST /tests/{id}/fields`` (JSON): the fields the engine accepts, saved one by one against
   the value the page last saw there; a field changed meanwhile elsewhere answers 409 with both;
-- ``POST /tests/{id}/readings``: the whole sheet (no script), or the hand-in of the saved draft.
+- ``POST /tests/{id}/readings``: the whole sheet (no script), or the hand-in of the saved draft,
+  with the technician's reason for each error remark that stands (fields ``reason.<flag code>``).
+
+Entries a tablet kept offline are bound to their typist: ``/fields`` refuses a batch typed by
+another user than the one signed in, and ``POST /tests/{id}/offline-discard`` records that the
+person now at the tablet discarded another person's unsent entries, and why
+(``server.services.offline``).
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, HTTPException, Request
 from fastapi.responses import JSONResponse, RedirectResponse
-from pydantic import BaseModel, Field
+from pydantic import AwareDatetime, BaseModel, Field
 from sqlmodel import col
 from starlette.responses import Response
 
@@ -25,8 +32,9 @@ from server.db.queries import TestRow, test_rows
 from server.db.tables import LabTest, User
 from server.engine import METHODS
 from server.engine.contract import Evaluation, Flag
+from server.engine.readings import as_number
 from server.engine.rounding import DECIMALS, reported, round_half_up
-from server.services import bench
+from server.services import bench, offline
 from server.services.errors import Conflict, Invalid, ServiceError, http_status
 from server.services.readings_paths import same, value_at
 from server.web.bench_charts import charts_for
@@ -123,9 +131,11 @@ def _output(ev: Evaluation, readings: dict[str, Any], section: Rows, i: int, out
     if out.align is None:
         entry = entries[i] if i < len(entries) else None
     else:
-        typed = value_at(readings, f"{section.path}.{i}.{out.align}")
-        if _number(typed):
-            entry = next((e for e in entries if isinstance(e, dict) and same(e.get(out.align), typed)), None)
+        typed = as_number(value_at(readings, f"{section.path}.{i}.{out.align}"))  # stored as typed text
+        if typed is not None:
+            entry = next(
+                (e for e in entries if isinstance(e, dict) and as_number(e.get(out.align)) == typed), None
+            )
     value = entry.get(out.field) if out.field and isinstance(entry, dict) else entry
     if not _number(value):
         return None
@@ -257,6 +267,44 @@ def _results_context(row: TestRow, readings: dict[str, Any], ev: Evaluation) -> 
     }
 
 
+REASON_PREFIX = "reason."  # a hand-in form's reason for an error remark: "reason." + the flag's code
+
+
+@dataclass
+class ReasonField:
+    """The field in which the technician says why an error remark stands, at hand-in."""
+
+    code: str
+    messages: list[str]  # the engine's words of every flag of this code
+    text: str  # what the field holds: typed, or the reason given at the last hand-in
+    error: str | None = None
+
+
+def reasons_of(items: list[tuple[str, Any]]) -> dict[str, str]:
+    """The reasons a posted hand-in gives, by flag code (``reason.<code>`` fields)."""
+    return {
+        name[len(REASON_PREFIX) :]: raw
+        for name, raw in items
+        if isinstance(raw, str) and name.startswith(REASON_PREFIX)
+    }
+
+
+def reason_fields(
+    ev: Evaluation, texts: Mapping[str, Any] | None, errors: Mapping[str, str] | None = None
+) -> list[ReasonField]:
+    """One field per error remark of the sheet (``bench.error_flag_codes``), holding ``texts``."""
+    shown = texts or {}
+    return [
+        ReasonField(
+            code,
+            [f.message for f in ev.flags if f.code == code],
+            str(shown.get(code) or ""),
+            (errors or {}).get(code),
+        )
+        for code in bench.error_flag_codes(ev)
+    ]
+
+
 def _page(
     request: Request,
     row: TestRow,
@@ -266,7 +314,10 @@ def _page(
     status_code: int = 200,
     message: str | None = None,
     problem: str | None = None,
+    reasons: Mapping[str, str] | None = None,
+    reason_errors: Mapping[str, str] | None = None,
 ) -> Response:
+    """The bench page; ``reasons`` are the hand-in's typed reasons (the stored ones by default)."""
     method = METHODS.get(row.test.method)
     return render(
         request,
@@ -280,6 +331,7 @@ def _page(
         stored=sheet_texts(row.test.method, row.test.readings or {}),
         message=message,
         problem=problem,
+        flag_reasons=reason_fields(ev, row.test.flag_reasons if reasons is None else reasons, reason_errors),
         **_results_context(row, readings, ev),
     )
 
@@ -318,10 +370,18 @@ class FieldIn(BaseModel):
     path: str = Field(max_length=200)
     value: str = Field(max_length=200)
     base: str = Field(default="", max_length=200)
+    typed_at: AwareDatetime | None = None  # the tablet's clock when this value was typed
 
 
 class FieldsIn(BaseModel):
+    """A batch of typed fields; ``typed_by`` and the stamps come from a tablet's kept entries.
+
+    Without ``typed_by`` the fields are taken as typed by the signed-in person just now.
+    """
+
     changes: list[FieldIn] = Field(max_length=400)
+    typed_by: int | None = None  # the user id of the person who typed them
+    sent_at: AwareDatetime | None = None  # the tablet's clock when it sent the batch
 
 
 @router.post("/tests/{test_id}/fields")
@@ -345,9 +405,13 @@ def save_fields(request: Request, test_id: int, user: Staff, body: FieldsIn) -> 
                 },
                 status_code=422,
             )
-        changes.append(bench.Change(item.path, inp.value(item.value), inp.value(item.base)))
+        changes.append(bench.Change(item.path, inp.value(item.value), inp.value(item.base), item.typed_at))
     try:
-        saved = bench.save_changes(database(request), user, test_id, changes)
+        saved = bench.save_changes(
+            database(request), user, test_id, changes, typed_by=body.typed_by, sent_at=body.sent_at
+        )
+    except offline.OtherTypist as exc:
+        return JSONResponse({"detail": str(exc), "other_typist": exc.typed_by}, status_code=409)
     except bench.FieldConflicts as exc:
         conflicts = [
             {"path": c.path, "theirs": text_of(c.theirs), "yours": text_of(c.yours)} for c in exc.conflicts
@@ -368,6 +432,45 @@ def save_fields(request: Request, test_id: int, user: Staff, body: FieldsIn) -> 
             "values": sheet_texts(method, test.readings or {}),
         }
     )
+
+
+class KeptIn(BaseModel):
+    path: str = Field(max_length=200)
+    value: str = Field(max_length=200)
+    typed_at: AwareDatetime | None = None
+
+
+class DiscardIn(BaseModel):
+    """Another person's entries a tablet kept unsent, to be discarded with a reason."""
+
+    typed_by: int | None  # None: the tablet did not record who typed them
+    entries: list[KeptIn] = Field(max_length=400)
+    reason: str = Field(default="", max_length=offline.REASON_MAX)
+
+
+@router.post("/tests/{test_id}/offline-discard")
+def discard_offline(request: Request, test_id: int, user: Staff, body: DiscardIn) -> Response:
+    """Record that the signed-in person discards entries another person left unsent here (JSON).
+
+    200 once the audit event is written (the tablet then removes the entries); 422 without a
+    reason, or with a field the sheet does not have; 404 for no such test. The test itself does
+    not change: the entries were never saved.
+    """
+    row = load_row(request, test_id)
+    for item in body.entries:
+        if input_at(row.test.method, item.path) is None:
+            errors = [{"path": item.path, "message": "not a field of this sheet"}]
+            detail = f"{item.path!r} is not a field of this sheet"
+            return JSONResponse({"detail": detail, "errors": errors}, status_code=422)
+    entries = [offline.KeptEntry(e.path, e.value, e.typed_at) for e in body.entries]
+    try:
+        event = offline.discard(database(request), user, test_id, body.typed_by, entries, body.reason)
+    except Invalid as exc:
+        errors = [{"path": dotted(e.loc), "message": e.message} for e in exc.errors]
+        return JSONResponse({"detail": str(exc), "errors": errors}, status_code=422)
+    except ServiceError as exc:
+        return JSONResponse({"detail": str(exc)}, status_code=http_status(exc))
+    return JSONResponse({"event": event.id, "discarded": len(entries)})
 
 
 @router.post("/tests/{test_id}/readings")
@@ -393,24 +496,36 @@ async def save_readings(request: Request, test_id: int, user: Staff) -> Response
     else:
         changes = []
     if form.get("then") == "submit":
+        reasons = reasons_of(form.multi_items())
         try:
-            bench.submit(db, user, test_id, version)
+            bench.submit(db, user, test_id, version, reasons)
         except ServiceError as exc:
             what = "Not handed in" if form.get("autosaved") == "1" else "Draft saved, but not handed in"
-            return _refused(request, test_id, changes, exc, what)
+            return _refused(request, test_id, changes, exc, what, reasons)
         return RedirectResponse(f"/tests/{test_id}?handed_in=1", status_code=303)
     return RedirectResponse(f"/tests/{test_id}?saved=1", status_code=303)
 
 
 def _refused(
-    request: Request, test_id: int, changes: list[bench.Change], exc: ServiceError, what: str
+    request: Request,
+    test_id: int,
+    changes: list[bench.Change],
+    exc: ServiceError,
+    what: str,
+    reasons: Mapping[str, str] | None = None,
 ) -> Response:
-    """The sheet again, as typed, with the refusal and every field's message."""
+    """The sheet again, as typed, with the refusal and every field's message (a hand-in's
+    reasons for error remarks too)."""
     row = load_row(request, test_id)
     readings = bench.draft_with(row.test, changes)
-    detail = (
-        f"{len(exc.errors)} value(s) need attention, listed below" if isinstance(exc, Invalid) else str(exc)
-    )
+    errors = exc.errors if isinstance(exc, Invalid) else []
+    why = {str(e.loc[1]): e.message for e in errors if len(e.loc) == 2 and e.loc[0] == "reasons"}
+    if len(why) < len(errors):
+        detail = f"{len(errors) - len(why)} value(s) need attention, listed below"
+    elif why:
+        detail = f"say why each error remark stands ({len(why)} to explain, above the hand-in button)"
+    else:
+        detail = str(exc)
     return _page(
         request,
         row,
@@ -418,4 +533,6 @@ def _refused(
         bench.preview(row.test.method, readings),
         status_code=http_status(exc),
         problem=f"{what}: {detail}.",
+        reasons=reasons,
+        reason_errors=why,
     )

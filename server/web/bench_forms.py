@@ -330,8 +330,9 @@ def _cone_drops(specimen: str, title: str) -> Values:
 
 
 # Every sheet ends with the test date and the instruments used. The bench fills each tin's empty
-# mass and each instrument's calibration due date from the registers (static/bench.js); the engine
-# flags an instrument used after its due date (server/engine/equipment.py).
+# mass, each instrument's calibration due date and a balance's capacity from the registers
+# (static/bench.js); the engine flags an instrument used after its due date and refuses a mass
+# above the capacity of the balance named (server/engine/equipment.py).
 CONDITIONS: tuple[Section, ...] = (
     Values("Test date", (Input("tested_on", "Date tested", kind="text", hint="YYYY-MM-DD"),)),
     Rows(
@@ -341,6 +342,7 @@ CONDITIONS: tuple[Section, ...] = (
         (
             Input("id", "Instrument no.", kind="text"),
             Input("calibration_due", "Calibration due", kind="text", hint="from the register"),
+            Input("capacity_g", "Capacity", "g", hint="a balance's, from the register"),
         ),
         2,
         8,

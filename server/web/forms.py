@@ -4,49 +4,42 @@ Inputs are named by their JSON path in the readings (``r.liquid_limit.trials.2.b
 rule turns any method's form into changes of its readings and an engine refusal's ``loc`` names
 the input it belongs to. Nothing here knows a method: the sheets (``bench_forms``) say which
 paths a method's page has and what kind of value each one takes.
+
+A typed number is stored as its decimal text, digits kept ("44.20" stays "44.20"; see
+``server.engine.readings``): an original observation is recorded as it was read.
 """
 
 from __future__ import annotations
 
-import re
 from collections.abc import Iterable
 from typing import Any
 
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
-_INTEGER = re.compile(r"^[+-]?\d+$")
+from server.engine.readings import as_entered, decimal_text
+
 VALUE_PREFIX = "r."  # an input's name: "r." + its readings path
 FLAG_PREFIX = "f."  # a hidden marker that a tick box is on the form (an unticked box sends nothing)
 MAX_TEXT = 200
 
 
-def typed_value(text: str) -> Any:
-    """A typed number (a decimal comma too), or the text as typed for the engine to refuse
-    with a field-level message; blank text is None."""
+def typed_value(text: str) -> str | None:
+    """What a number field stores for the text typed: the number as decimal text with every digit
+    typed (a decimal comma becomes a point: "44,20" -> "44.20"), or the text as typed for the
+    engine to refuse with a field-level message; blank text is None.
+
+    The text is kept rather than turned into a float, which would drop the trailing zeros the
+    technician read ("44.20" -> 44.2); the engine computes with the number the text names."""
     typed = text.strip()
     if not typed:
         return None
-    number = typed.replace(",", ".")
-    if not _NUMBER.match(number):
-        return typed[:MAX_TEXT]
-    if _INTEGER.match(number):
-        return int(number)
-    value = float(number)
-    return value if value not in (float("inf"), float("-inf")) else typed[:MAX_TEXT]
+    return decimal_text(typed) or typed[:MAX_TEXT]
 
 
 def text_of(value: Any) -> str:
-    """What an input shows for a stored value (and what the page compares when it autosaves)."""
-    if value is None:
+    """What an input shows for a stored value (and what the page compares when it autosaves):
+    the reading as entered (``as_entered``); a tick box's false and a list or object show blank."""
+    if value is False or isinstance(value, list | dict):
         return ""
-    if value is True:
-        return "true"
-    if value is False:
-        return ""
-    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
-        return f"{value:.1f}"
-    if isinstance(value, list | dict):
-        return ""
-    return str(value)
+    return as_entered(value)
 
 
 def form_fields(items: Iterable[tuple[str, Any]]) -> dict[str, str]:

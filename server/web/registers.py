@@ -5,8 +5,9 @@ Look-ups (any signed-in person; JSON, or an HTML fragment for an htmx request):
 - ``GET /registers/containers/{code}`` -> ``{"code", "tare_g", "active"}``, 404 ``{"detail"}``
 - ``GET /registers/containers`` -> the active containers, for a picker
 - ``GET /registers/equipment/{code}`` -> ``{"code", "kind", "description", "calibration_due",
-  "state", "days_left", "active", "reading"}``; ``reading`` is the entry the readings carry
-  (``{"id", "calibration_due"}``), from which the engine flags equipment past its due date
+  "capacity_g", "state", "days_left", "active", "reading"}``; ``reading`` is the entry the
+  readings carry (``{"id", "calibration_due"}``, and a balance's ``"capacity_g"``), from which the
+  engine flags equipment past its due date and refuses a mass above the balance's capacity
 - ``GET /registers/equipment?kind=balance`` -> the active instruments of a kind, for a picker
 """
 
@@ -286,7 +287,9 @@ def _equipment_page(request: Request, *, status_code: int = 200, **extra: Any) -
         rows=rows,
         kinds=registers.EQUIPMENT_KINDS,
         calibration_look=CALIBRATION_LOOK,
-        form=extra.get("form", {"code": "", "kind": "", "description": "", "calibration_due": ""}),
+        form=extra.get(
+            "form", {"code": "", "kind": "", "description": "", "calibration_due": "", "capacity_g": ""}
+        ),
         errors=extra.get("errors", {}),
         row_errors=extra.get("row_errors", {}),
         problem=extra.get("problem"),
@@ -308,6 +311,20 @@ def _bad_date(raw: str) -> str:
     return f"due date must be written YYYY-MM-DD, not {raw.strip()!r}"
 
 
+_NOT_CAPACITY = "capacity must be a number of grams, such as 6200"
+
+
+def _capacity_or_refuse(raw: str) -> float | None:
+    """A balance's capacity typed (a decimal comma too), None when blank; text that is not a
+    number is refused at its field."""
+    if not raw.strip():
+        return None
+    capacity = _number(raw)
+    if capacity is None:
+        raise invalid("capacity_g", _NOT_CAPACITY)
+    return capacity
+
+
 @router.get("/registers/admin/equipment")
 def equipment_page(request: Request, user: Admin, done: str = "", id: int = 0) -> Response:
     return _equipment_page(request, done=(done, id))
@@ -321,15 +338,31 @@ def add_equipment(
     kind: Annotated[str, Form()] = "",
     description: Annotated[str, Form()] = "",
     calibration_due: Annotated[str, Form()] = "",
+    capacity_g: Annotated[str, Form()] = "",
 ) -> Response:
-    form = {"code": code, "kind": kind, "description": description, "calibration_due": calibration_due}
+    form = {
+        "code": code,
+        "kind": kind,
+        "description": description,
+        "calibration_due": calibration_due,
+        "capacity_g": capacity_g,
+    }
     due = _date(calibration_due) if calibration_due.strip() else None
-    if calibration_due.strip() and due is None:
-        found = registers.equipment_problems(code, kind, None, due_unreadable=True)
-        errors = {**errors_by_path(found), "calibration_due": _bad_date(calibration_due)}
+    capacity = _number(capacity_g) if capacity_g.strip() else None
+    unreadable = {
+        **(
+            {"calibration_due": _bad_date(calibration_due)} if calibration_due.strip() and due is None else {}
+        ),
+        **({"capacity_g": _NOT_CAPACITY} if capacity_g.strip() and capacity is None else {}),
+    }
+    if unreadable:
+        found = registers.equipment_problems(
+            code, kind, due, due_unreadable="calibration_due" in unreadable, capacity_g=capacity
+        )
+        errors = {**errors_by_path(found), **unreadable}
         return _equipment_page(request, status_code=422, form=form, errors=errors, problem=_NOTHING)
     try:
-        made = registers.add_equipment(database(request), user, code, kind, description, due)
+        made = registers.add_equipment(database(request), user, code, kind, description, due, capacity)
     except ServiceError as exc:
         errors, problem = refusal_of(exc)
         return _equipment_page(
@@ -345,10 +378,19 @@ def update_equipment(
     user: Admin,
     description: Annotated[str, Form()] = "",
     calibration_due: Annotated[str, Form()] = "",
+    capacity_g: Annotated[str, Form()] = "",
+    capacity_on_form: Annotated[str, Form()] = "",
 ) -> Response:
+    """Save a row of the register; a row without the capacity field (only a balance's row has
+    it, marked by ``capacity_on_form``) leaves the capacity as is, a blank one clears it."""
     try:
         made = registers.update_equipment(
-            database(request), user, equipment_id, description, _due_or_refuse(calibration_due)
+            database(request),
+            user,
+            equipment_id,
+            description,
+            _due_or_refuse(calibration_due),
+            capacity_g=_capacity_or_refuse(capacity_g) if capacity_on_form == "1" else registers.Keep.AS_IS,
         )
     except ServiceError as exc:
         _, problem = refusal_of(exc)

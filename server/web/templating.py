@@ -15,6 +15,7 @@ from starlette.responses import Response
 
 from server.auth.sessions import csrf_token, signed_in_user
 from server.config import ROOT
+from server.engine.readings import as_entered
 from server.engine.rounding import reported
 from server.workflow.states import NEXT_STEP, Status
 
@@ -45,7 +46,16 @@ def _shown(value: Any, key: str) -> str:
     return reported(key, value)
 
 
+def _entered(value: Any) -> str:
+    """A stored reading as it was entered ("44.20" as typed); a placeholder (an absent value of
+    a comparison) as its own text."""
+    if value is None or isinstance(value, str | int | float | list | tuple):
+        return as_entered(value)
+    return str(value)
+
+
 templates.env.filters["shown"] = _shown
+templates.env.filters["entered"] = _entered
 templates.env.filters["when"] = _when
 templates.env.globals["STATUS_MARK"] = STATUS_MARK
 templates.env.globals["next_step"] = lambda status: NEXT_STEP[Status(status)]

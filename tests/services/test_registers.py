@@ -15,6 +15,7 @@ from server.services import bench, registers
 from server.services.errors import Conflict, Invalid, NotFound
 from tests.conftest import People
 from tests.support.scenario import small_job
+from tests.workflow.flows import STANDS
 
 
 def _events(db: Database, entity: str) -> list[AuditEvent]:
@@ -157,7 +158,7 @@ def test_a_test_saved_with_past_due_equipment_carries_the_error_flag_for_the_rev
         "determinations": [{"container": "T-01", "tare_g": 10.00, "wet_tare_g": 36.00, "dry_tare_g": 30.00}],
     }
     saved = bench.save_readings(db, people.tech, job.test_id, readings, 1)
-    bench.submit(db, people.tech, job.test_id, saved.test.version)
+    bench.submit(db, people.tech, job.test_id, saved.test.version, STANDS)  # an error remark needs a reason
     with db.session() as s:
         test = s.get(LabTest, job.test_id)
     assert test is not None and test.status == "submitted"

@@ -91,8 +91,10 @@ def test_a_field_is_saved_as_typed_and_the_page_learns_the_new_version(
     reply = _save_fields(app_client, job.test_id, [{"path": W1, "value": "36,00", "base": ""}])
     assert reply.status_code == 200, reply.text
     body = reply.json()
-    assert body["version"] == 2 and body["stored"] == [W1] and body["values"][W1] == "36.0"
-    assert _stored(db, job.test_id).readings == {"water_content": {"determinations": [{"wet_tare_g": 36.0}]}}
+    # kept as typed, the decimal comma as a point: "36,00" is "36.00" (ISO/IEC 17025:2017 cl. 7.5.1)
+    assert body["version"] == 2 and body["stored"] == [W1] and body["values"][W1] == "36.00"
+    typed = {"water_content": {"determinations": [{"wet_tare_g": "36.00"}]}}
+    assert _stored(db, job.test_id).readings == typed
 
 
 def test_a_field_changed_on_another_device_answers_409_with_both_values(
@@ -212,7 +214,7 @@ def test_the_whole_sheet_save_keeps_readings_the_sheet_does_not_show(
     fields = [*form_fields({"fines": 86}), ("version", str(saved.test.version))]
     reply = post_form(app_client, path, f"{path}/readings", fields)
     assert reply.status_code == 200
-    assert _stored(db, job.test_id).readings == {**extra, "fines": 86}
+    assert _stored(db, job.test_id).readings == {**extra, "fines": "86"}  # typed: kept as its text
 
 
 def test_the_returned_reason_is_shown_on_the_bench(

@@ -5,39 +5,55 @@ from __future__ import annotations
 import pytest
 
 from server.engine import FieldError
+from server.services.readings_paths import same
 from server.web.forms import dotted, errors_by_path, form_fields, text_of, typed_value
 
 
 @pytest.mark.parametrize(
     ("typed", "value"),
     [
-        ("38.11", 38.11),
-        (" 38,11 ", 38.11),  # a decimal comma, as many tablets' keypads give it (common practice)
-        ("25", 25),
-        ("-0.5", -0.5),
-        ("1e3", 1000.0),
+        ("38.11", "38.11"),
+        ("44.20", "44.20"),  # the trailing zero read off the balance stays (ISO/IEC 17025:2017 cl. 7.5.1)
+        (" 38,11 ", "38.11"),  # a decimal comma, as many tablets' keypads give it (common practice)
+        ("25", "25"),
+        ("-0.5", "-0.5"),
+        ("1e3", "1e3"),
         ("", None),
         ("   ", None),
         ("forty", "forty"),  # kept as typed, for the engine to refuse with its own words
-        ("1e999", "1e999"),
+        ("1e999", "1e999"),  # the engine refuses it as not finite
     ],
 )
-def test_a_typed_number_becomes_a_number_and_anything_else_stays_text(typed: str, value: object) -> None:
+def test_a_typed_number_is_kept_as_its_decimal_text_and_anything_else_as_typed(
+    typed: str, value: object
+) -> None:
     got = typed_value(typed)
     assert got == value and type(got) is type(value)
 
 
 @pytest.mark.parametrize(
     ("value", "text"),
-    [(None, ""), (15.0, "15.0"), (38.11, "38.11"), (25, "25"), (True, "true"), (False, ""), ("T-17", "T-17")],
+    [
+        (None, ""),
+        (15.0, "15.0"),
+        (38.11, "38.11"),
+        (25, "25"),
+        (True, "true"),
+        (False, ""),
+        ("T-17", "T-17"),
+        ("44.20", "44.20"),  # stored as typed, shown as typed
+    ],
 )
 def test_a_stored_value_shows_as_the_text_an_input_holds(value: object, text: str) -> None:
     assert text_of(value) == text
 
 
-def test_a_stored_value_read_back_from_its_text_is_the_same_number() -> None:
+def test_a_stored_number_read_back_from_its_text_names_the_same_number() -> None:
+    """A reading stored as a JSON number (before readings kept their text) re-typed as shown is
+    the same reading: the text names the number exactly (computed)."""
     for value in (15.0, 38.11, 0.075, 1e-05, 123456.789):
-        assert typed_value(text_of(value)) == value
+        again = typed_value(text_of(value))
+        assert isinstance(again, str) and float(again) == value and same(again, value)
 
 
 def test_form_fields_keep_the_last_of_a_name_and_blank_an_unticked_box() -> None:

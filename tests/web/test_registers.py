@@ -13,6 +13,7 @@ from server.services import bench, registers
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
 from tests.support.scenario import small_job
+from tests.workflow.flows import STANDS
 
 TODAY = registers.today()
 
@@ -171,7 +172,7 @@ def test_the_reviewer_sees_the_error_flag_of_a_test_run_on_past_due_equipment(
         "determinations": [{"tare_g": 10.00, "wet_tare_g": 36.00, "dry_tare_g": 30.00}],
     }
     saved = bench.save_readings(db, people.tech, job.test_id, readings, 1)
-    bench.submit(db, people.tech, job.test_id, saved.test.version)
+    bench.submit(db, people.tech, job.test_id, saved.test.version, STANDS)  # an error remark needs a reason
     sign_in(app_client, "review", PASSWORDS["review"])
     page = app_client.get(f"/review/{job.test_id}")
     assert page.status_code == 200
