@@ -156,6 +156,76 @@ def cmd_create_token(args: argparse.Namespace) -> int:
     return 0
 
 
+def _export_refused(errors: list[dict[str, Any]]) -> int:
+    json.dump({"errors": errors}, sys.stdout, indent=2)
+    print()
+    return 2
+
+
+def cmd_export(args: argparse.Namespace) -> int:
+    """A job's approved results (DESIGN.md section 7) to FILE, or to standard output; exit 2
+    with the refusals as JSON, as ``import`` prints them, and nothing written.
+
+    AGS4's TRAN_DATE is today (UTC): the file is a transmission issued now. XLSX is binary:
+    without -o it goes to standard output only when that is a pipe or a file (``> out.xlsx``),
+    never to a terminal, where it would be noise. With -o the command prints what it wrote as
+    JSON, so a script can log it."""
+    from datetime import UTC, datetime
+    from pathlib import Path
+
+    from server.db.session import Database
+    from server.exchange import results_sheet
+    from server.exchange.ags4_write import ags4_text
+    from server.exchange.job_export import job_export
+    from server.services.errors import Invalid, ServiceError
+
+    if args.format == "xlsx" and args.output is None and sys.stdout.isatty():
+        return _export_refused(
+            [{"field": "output", "message": "an XLSX file is binary: name it with -o FILE, or redirect"}]
+        )
+    db = Database(get_settings().database_url)
+    try:
+        with db.session() as s:
+            job = results_sheet.job_numbered(s, args.job)
+            if args.format == "ags4":
+                records = job_export(s, job.id or 0)
+                data = ags4_text(records, issued_on=datetime.now(UTC).date()).encode("ascii")
+                counts = (len(records.samples), len(records.tests))
+            else:
+                export = results_sheet.load_results(s, job.id or 0)
+                writer = results_sheet.results_csv if args.format == "csv" else results_sheet.results_xlsx
+                data = writer(export)
+                counts = (len(export.samples), sum(1 for _ in export.tests))
+    except Invalid as exc:
+        return _export_refused(
+            [{"field": ".".join(map(str, e.loc)), "message": e.message} for e in exc.errors]
+        )
+    except ServiceError as exc:
+        return _export_refused([{"field": "job", "message": str(exc)}])
+    finally:
+        db.dispose()
+    if args.output is None:
+        sys.stdout.buffer.write(data)
+        sys.stdout.buffer.flush()
+        return 0
+    path = Path(args.output)
+    try:
+        path.write_bytes(data)
+    except OSError as exc:
+        return _export_refused([{"field": "output", "message": f"cannot write {path}: {exc.strerror}"}])
+    written = {
+        "job": job.code,
+        "format": args.format,
+        "file": str(path),
+        "bytes": len(data),
+        "samples": counts[0],
+        "tests": counts[1],
+    }
+    json.dump(written, sys.stdout, indent=2)
+    print()
+    return 0
+
+
 def cmd_audit_verify(args: argparse.Namespace) -> int:
     """Walk the audit trail's hash chain: exit 0 when it holds, 1 naming the first bad event,
     so a scheduled job or a person can show the trail was not rewritten."""
@@ -237,6 +307,14 @@ def parser() -> argparse.ArgumentParser:
     t.add_argument("--scope", choices=["read", "write"], default="read")
     t.add_argument("--days", type=int, default=90, help="days until it expires (1 to 366; default 90)")
     t.set_defaults(fn=cmd_create_token)
+
+    x = sub.add_parser("export", help="write a job's approved results as AGS4, CSV or XLSX")
+    x.add_argument("job", help="the job number")
+    x.add_argument("--format", required=True, choices=["ags4", "csv", "xlsx"])
+    x.add_argument(
+        "-o", "--output", help="the file to write (default: standard output, but XLSX never to a terminal)"
+    )
+    x.set_defaults(fn=cmd_export)
 
     a = sub.add_parser("audit", help="check the audit trail")
     audit_actions = a.add_subparsers(dest="action", required=True)

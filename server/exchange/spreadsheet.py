@@ -20,7 +20,6 @@ import io
 import math
 import re
 import warnings
-import zipfile
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, replace
 from datetime import date, datetime, time
@@ -29,7 +28,6 @@ from pathlib import PurePath
 from typing import Any, NamedTuple
 
 import openpyxl
-from openpyxl.writer.excel import ExcelWriter
 
 from server.engine import METHODS
 from server.exchange.schedule import (
@@ -45,6 +43,7 @@ from server.exchange.schedule import (
     Schedule,
     method_id,
 )
+from server.exchange.workbook import workbook_bytes
 from server.workflow import vocabulary
 
 
@@ -85,8 +84,6 @@ _LOCATION_ATTRIBUTES = {
 
 COORDINATE_MAX = 1e7  # metres: a national grid or UTM coordinate is below ten million (common practice)
 GROUND_LEVEL_M = (-500.0, 9000.0)  # below the Dead Sea shore or above Everest: a slip (common practice)
-
-_FIXED_TIME = datetime(2026, 1, 1)  # stamped in the template workbook so its bytes never change
 
 _UNIT = re.compile(r"\([^)]*\)|\[[^\]]*\]")
 _IGNORED = re.compile(r"[\s_]+")
@@ -641,7 +638,7 @@ def template_xlsx() -> bytes:
     allowed = book.create_sheet("Allowed values")
     for line in _allowed_values():
         allowed.append(line)
-    return _workbook_bytes(book)
+    return workbook_bytes(book)  # the same template is the same bytes
 
 
 def _allowed_values() -> list[list[str | None]]:
@@ -657,16 +654,3 @@ def _allowed_values() -> list[list[str | None]]:
         for line in zip_longest(*blocks, fillvalue=(None, None))
     ]
 
-
-def _workbook_bytes(book: Any) -> bytes:
-    """The workbook with one fixed time in its properties and in its zip entries, so the same
-    template is the same bytes (``Workbook.save`` stamps the present time in both)."""
-    book.properties.created = book.properties.modified = _FIXED_TIME
-    written = io.BytesIO()
-    ExcelWriter(book, zipfile.ZipFile(written, "w", zipfile.ZIP_DEFLATED)).save()
-    out = io.BytesIO()
-    with zipfile.ZipFile(written) as source, zipfile.ZipFile(out, "w") as target:
-        for entry in source.infolist():
-            fixed = zipfile.ZipInfo(entry.filename, date_time=_FIXED_TIME.timetuple()[:6])
-            target.writestr(fixed, source.read(entry), compress_type=zipfile.ZIP_DEFLATED)
-    return out.getvalue()
