@@ -22,7 +22,8 @@ TYPED = {
     f"{DET}.wet_tare_g": "36.0",
     f"{DET}.dry_tare_g": "30.0",
 }
-MASSES = {"container": "N1", "tare_g": 10, "wet_tare_g": 36, "dry_tare_g": 30}
+# kept as typed, digits and all (S7 point 1: readings as entered)
+MASSES = {"container": "N1", "tare_g": "10.0", "wet_tare_g": "36.0", "dry_tare_g": "30.0"}
 STORED = {"water_content": {"determinations": [MASSES]}}
 
 
@@ -89,16 +90,16 @@ def test_two_tablets_on_one_field_get_the_conflict_message_with_both_values(
     type_in(second, {wet: "36.50"})  # the second tablet still shows the field empty
     conflict = second.locator(f'.field[data-path="{wet}"] .conflict')
     expect(conflict).to_contain_text("Another device changed this field")
-    expect(conflict.locator(".theirs")).to_have_text("36.0")
+    expect(conflict.locator(".theirs")).to_have_text("36.00")  # as the first tablet typed it
     expect(conflict.locator(".yours")).to_have_text("36.50")
     expect(second.locator("#save-state")).to_contain_text("changed on another device")
     found = serious_violations(second)
     assert not found, describe(found)
-    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"wet_tare_g": 36}]}}
+    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"wet_tare_g": "36.00"}]}}
 
     conflict.get_by_role("button", name="Keep mine").click()
     wait_until_saved(second)
-    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"wet_tare_g": 36.5}]}}
+    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"wet_tare_g": "36.50"}]}}
 
 
 def test_taking_the_other_tablets_value_puts_it_into_the_field(
@@ -115,6 +116,6 @@ def test_taking_the_other_tablets_value_puts_it_into_the_field(
     type_in(second, {tare: "11.00"})
     conflict = second.locator(f'.field[data-path="{tare}"] .conflict')
     conflict.get_by_role("button", name="Take theirs").click()
-    expect(second.locator(f'[name="r.{tare}"]')).to_have_value("10.0")
+    expect(second.locator(f'[name="r.{tare}"]')).to_have_value("10.00")
     wait_until_saved(second)
-    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"tare_g": 10}]}}
+    assert _readings(live_db, job.test_id) == {"water_content": {"determinations": [{"tare_g": "10.00"}]}}
