@@ -1,4 +1,5 @@
-"""The ``claybench`` command: serve, demo, migrate, create-user, calc, import, audit verify."""
+"""The ``claybench`` command: serve, demo, migrate, create-user, create-token, calc, import, export,
+audit verify."""
 
 from __future__ import annotations
 
