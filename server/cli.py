@@ -176,8 +176,7 @@ def cmd_export(args: argparse.Namespace) -> int:
 
     from server.db.session import Database
     from server.exchange import results_sheet
-    from server.exchange.ags4_write import ags4_text
-    from server.exchange.job_export import job_export
+    from server.exchange.downloads import job_download
     from server.services.errors import Invalid, ServiceError
 
     if args.format == "xlsx" and args.output is None and sys.stdout.isatty():
@@ -188,15 +187,7 @@ def cmd_export(args: argparse.Namespace) -> int:
     try:
         with db.session() as s:
             job = results_sheet.job_numbered(s, args.job)
-            if args.format == "ags4":
-                records = job_export(s, job.id or 0)
-                data = ags4_text(records, issued_on=datetime.now(UTC).date()).encode("ascii")
-                counts = (len(records.samples), len(records.tests))
-            else:
-                export = results_sheet.load_results(s, job.id or 0)
-                writer = results_sheet.results_csv if args.format == "csv" else results_sheet.results_xlsx
-                data = writer(export)
-                counts = (len(export.samples), sum(1 for _ in export.tests))
+            found = job_download(s, job.id or 0, args.format, today=datetime.now(UTC).date())
     except Invalid as exc:
         return _export_refused(
             [{"field": ".".join(map(str, e.loc)), "message": e.message} for e in exc.errors]
@@ -205,6 +196,7 @@ def cmd_export(args: argparse.Namespace) -> int:
         return _export_refused([{"field": "job", "message": str(exc)}])
     finally:
         db.dispose()
+    data = found.data
     if args.output is None:
         sys.stdout.buffer.write(data)
         sys.stdout.buffer.flush()
@@ -219,8 +211,8 @@ def cmd_export(args: argparse.Namespace) -> int:
         "format": args.format,
         "file": str(path),
         "bytes": len(data),
-        "samples": counts[0],
-        "tests": counts[1],
+        "samples": found.samples,
+        "tests": found.tests,
     }
     json.dump(written, sys.stdout, indent=2)
     print()

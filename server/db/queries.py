@@ -18,6 +18,7 @@ from server.db.tables import (
     LabTest,
     Location,
     Report,
+    ReportAgs4,
     Sample,
     ShareLink,
     User,
@@ -110,6 +111,18 @@ def job_reports(session: Session, job_id: int) -> list[Report]:
     return list(session.exec(stmt).all())
 
 
+def frozen_ags4_digests(session: Session, report_ids: Iterable[int]) -> dict[int, str]:
+    """The SHA-256 of the AGS4 file frozen with each of these reports, by report id; a report
+    issued before files were frozen has none (the bytes are not loaded)."""
+    wanted = set(report_ids)
+    if not wanted:
+        return {}
+    rows = session.exec(
+        select(ReportAgs4.report_id, ReportAgs4.sha256).where(col(ReportAgs4.report_id).in_(wanted))
+    ).all()
+    return dict(rows)
+
+
 @dataclass
 class JobSheet:
     """Everything the job page shows, loaded in a fixed number of queries."""
@@ -121,6 +134,7 @@ class JobSheet:
     tests: dict[int, list[LabTest]]  # by sample id, current revisions only
     reports: list[Report]
     links: list[ShareLink]
+    ags4: dict[int, str]  # the SHA-256 of each report's frozen AGS4 file, by report id
 
 
 def job_sheet(session: Session, job_id: int) -> JobSheet | None:
@@ -148,4 +162,6 @@ def job_sheet(session: Session, job_id: int) -> JobSheet | None:
             select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
         )
     )
-    return JobSheet(job, client, locations, samples, tests, job_reports(session, job_id), links)
+    reports = job_reports(session, job_id)
+    ags4 = frozen_ags4_digests(session, [r.id or 0 for r in reports])
+    return JobSheet(job, client, locations, samples, tests, reports, links, ags4)

@@ -240,6 +240,20 @@ class Report(SQLModel, table=True):
     overlap_decision: str = Field(default="", max_length=1000)
 
 
+class ReportAgs4(SQLModel, table=True):
+    """The AGS4 file frozen with a report revision at its issue: exactly the test revisions the
+    report carries, dated the issue date, kept byte for byte with its SHA-256 (never re-made).
+
+    A table of its own rather than a column of ``report``: report lists never load the bytes,
+    and reports issued before files were frozen simply have no row."""
+
+    __tablename__ = "report_ags4"
+
+    report_id: int = Field(foreign_key="report.id", primary_key=True)
+    sha256: str = Field(max_length=64, index=True)
+    data: bytes = Field(sa_type=sa.LargeBinary)
+
+
 class ReportTest(SQLModel, table=True):
     """Which test revisions a report carries."""
 

@@ -803,14 +803,20 @@ def _project(export: JobExport) -> _Group:
 
 
 def _transmission(
-    export: JobExport, issued_on: date, produced_by: str, issue: str, status: str, recipient: str | None
+    export: JobExport,
+    issued_on: date,
+    produced_by: str,
+    issue: str,
+    status: str,
+    recipient: str | None,
+    description: str | None,
 ) -> _Group:
     row = {
         "TRAN_ISNO": _ascii(issue),
         "TRAN_DATE": issued_on.isoformat(),
         "TRAN_PROD": _ascii(produced_by),
         "TRAN_STAT": _ascii(status),
-        "TRAN_DESC": _ascii(f"Approved laboratory test results of job {export.number}"),
+        "TRAN_DESC": _ascii(description or f"Approved laboratory test results of job {export.number}"),
         "TRAN_AGS": TRAN_AGS,
         "TRAN_RECV": _ascii(recipient if recipient is not None else export.client) or "Not stated",
         "TRAN_DLIM": DELIMITER,
@@ -938,11 +944,13 @@ def ags4_text(
     issue: int | str = 1,
     status: str = "Final",
     recipient: str | None = None,
+    description: str | None = None,
 ) -> str:
     """The AGS4 file (dictionary 4.1.1) of ``export``: ASCII text with CRLF line ends.
 
     ``issued_on`` is TRAN_DATE, ``issue`` TRAN_ISNO, ``produced_by`` TRAN_PROD, ``status``
-    TRAN_STAT; TRAN_RECV is ``recipient``, by default the client. Locations and samples are
+    TRAN_STAT; TRAN_RECV is ``recipient``, by default the client; TRAN_DESC is ``description``,
+    by default the job's approved results. Locations and samples are
     written in code and depth order, each test's rows in the order of its sample and method;
     tests of methods outside ``EXPORTED_METHODS`` are left out. Raises ValueError when a sample
     names a location, or a test a sample, that the export does not hold.
@@ -967,7 +975,10 @@ def ags4_text(
         for build in METHOD_GROUPS.get(test.method, ()):
             build(ctx, rows, test, samples[test.sample])
 
-    body = [_project(export), _transmission(export, issued_on, produced_by, str(issue), status, recipient)]
+    body = [
+        _project(export),
+        _transmission(export, issued_on, produced_by, str(issue), status, recipient, description),
+    ]
     data: list[_Group] = []
     if export.locations:
         data.append(_locations(export))

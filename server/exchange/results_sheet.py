@@ -574,8 +574,13 @@ def results_xlsx(export: ResultsExport) -> bytes:
 _UNSAFE_IN_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
 
+def safe_file_name(code: str, what: str, extension: str) -> str:
+    """A download's file name from a job or report number, with only characters every system
+    and a Content-Disposition header take as they are."""
+    stem = _UNSAFE_IN_NAME.sub("_", code).strip("._") or "job"
+    return f"{stem}-{what}.{extension}"
+
+
 def file_name(export: ResultsExport, extension: str) -> str:
-    """A download's file name from the job number, with only characters every system and a
-    Content-Disposition header take as they are."""
-    stem = _UNSAFE_IN_NAME.sub("_", export.job_code).strip("._") or "job"
-    return f"{stem}-results.{extension}"
+    """The file name of the job's results in a spreadsheet format."""
+    return safe_file_name(export.job_code, "results", extension)

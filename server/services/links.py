@@ -16,6 +16,7 @@ from datetime import datetime, timedelta
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, func, or_, select
 
+from server.db.queries import frozen_ags4_digests
 from server.db.session import Database
 from server.db.tables import Client, Job, LinkAccess, Report, ShareLink, User, utcnow
 from server.services import audit
@@ -131,6 +132,7 @@ class ClientView:
     client_name: str = ""
     jobs: list[JobReports] = field(default_factory=list)
     whole_client: bool = False
+    ags4: dict[int, str] = field(default_factory=dict)  # frozen AGS4 file's SHA-256, by report id
 
     @property
     def report_ids(self) -> set[int]:
@@ -179,11 +181,13 @@ def open_link(
         else:
             jobs = list(s.exec(select(Job).where(Job.client_id == link.client_id).order_by(col(Job.code))))
         reports = _issued_reports(s, [j.id for j in jobs if j.id is not None])
+        carried = [r.id or 0 for rs in reports.values() for r in rs]
         return ClientView(
             None,
             client.name if client else "",
             [JobReports(j, reports[j.id or 0]) for j in jobs],
             whole_client=link.job_id is None,
+            ags4=frozen_ags4_digests(s, carried),
         )
 
 

@@ -3,8 +3,9 @@
 The PDF is rendered outside the write transaction (it takes seconds for a big job and the
 SQLite write lock must not be held that long); the transaction then checks that every test is
 still the approved revision that was rendered, and stores the bytes, SHA-256, content
-fingerprint and audit event together. A stored report is never rendered again: downloads
-serve the stored bytes.
+fingerprint and audit event together, with the AGS4 file of the same test revisions (made
+in the same read as the PDF's data) and its SHA-256. A stored report is never rendered again:
+downloads serve the stored bytes.
 
 A re-issue after an amendment is revision n + 1 of the same report number, carrying the
 current approved revisions of the same samples and methods; the earlier revision is marked
@@ -25,8 +26,10 @@ from sqlmodel import Session, col, func, select
 
 from server.db.queries import TestRow, current_tests, users_by_id
 from server.db.session import Database
-from server.db.tables import Client, Job, Laboratory, LabTest, Report, ReportTest, User, utcnow
+from server.db.tables import Client, Job, Laboratory, LabTest, Report, ReportAgs4, ReportTest, User, utcnow
 from server.engine import METHODS
+from server.exchange.ags4_write import ags4_text
+from server.exchange.job_export import job_export
 from server.reports.context import (
     LabInfo,
     MethodNote,
@@ -178,12 +181,27 @@ def report_data(
     )
 
 
+def frozen_ags4(session: Session, job_id: int, rows: Sequence[TestRow], data: ReportData) -> bytes:
+    """The AGS4 file issued with a report: exactly the test revisions it carries, dated its
+    issue date, TRAN_ISNO its revision. Made from the same records as the PDF and in the same
+    read, so that the two never disagree; the same records give the same bytes."""
+    records = job_export(session, job_id, [r.test.id or 0 for r in rows])
+    text = ags4_text(
+        records,
+        issued_on=data.issue_date,
+        issue=data.revision,
+        description=f"Results of report {data.report_number} revision {data.revision}",
+    )
+    return text.encode("ascii")
+
+
 @dataclass
 class _Prepared:
     job_id: int
     rows: list[TestRow]
     data: ReportData
     signature: Signature
+    ags4: bytes
     previous_id: int | None = None
     overlap_decision: str = ""
 
@@ -229,11 +247,16 @@ def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report
         s.flush()
         for r in rows:
             s.add(ReportTest(report_id=report.id or 0, test_id=r.test.id or 0))
+        ags4 = ReportAgs4(
+            report_id=report.id or 0, sha256=hashlib.sha256(prepared.ags4).hexdigest(), data=prepared.ags4
+        )
+        s.add(ags4)
         after: dict[str, Any] = {
             "number": data.report_number,
             "revision": data.revision,
             "sha256": report.sha256,
             "fingerprint": report.fingerprint,
+            "ags4_sha256": ags4.sha256,
             "tests": [r.test.id for r in rows],
             "signed_by": signer.username,
             "signature_meaning": prepared.signature.meaning,
@@ -335,7 +358,8 @@ def issue_report(
     with db.session() as s:
         data, rows = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
         decision = _overlap_decision(s, rows, overlap_decision)
-    prepared = _Prepared(job_id, rows, data, signature, overlap_decision=decision)
+        ags4 = frozen_ags4(s, job_id, rows, data)
+    prepared = _Prepared(job_id, rows, data, signature, ags4, overlap_decision=decision)
     return _store(db, actor, prepared, _render(data))
 
 
@@ -476,15 +500,17 @@ def reissue_report(db: Database, actor: User, report_id: int, base_url: str, *, 
             scope=_scope(rows, approved),
             history=history,
         )
-    return _store(db, actor, _Prepared(old.job_id, rows, data, signature, old.id), _render(data))
+        ags4 = frozen_ags4(s, old.job_id, rows, data)
+    return _store(db, actor, _Prepared(old.job_id, rows, data, signature, ags4, old.id), _render(data))
 
 
 @dataclass
 class Verdict:
     """The answer of the verification page: genuine and current, superseded, or unknown.
 
-    ``matched`` says what matched: "file" (the SHA-256 of the PDF's bytes) or "content" (the
-    content fingerprint printed on its pages)."""
+    ``matched`` says what matched: "file" (the SHA-256 of the PDF's bytes), "content" (the
+    content fingerprint printed on its pages) or "ags4" (the SHA-256 of the AGS4 file issued
+    with it)."""
 
     state: str  # "current" | "superseded" | "unknown"
     report: Report | None = None
@@ -500,28 +526,36 @@ def verify(
     db: Database,
     *,
     sha256: str | None = None,
-    pdf: bytes | None = None,
+    upload: bytes | None = None,
     number: str | None = None,
 ) -> Verdict:
-    """Find the issued report whose PDF (or its SHA-256, or its printed content fingerprint)
-    this is; with ``number``, only a report of that number counts. Reads only."""
-    digest = hashlib.sha256(pdf).hexdigest() if pdf is not None else _clean(sha256)
+    """Find the issued report whose PDF or AGS4 file this is (an ``upload`` of it, or its SHA-256),
+    or whose printed content fingerprint this is; with ``number``, only a report of that number
+    counts. Reads only."""
+    digest = hashlib.sha256(upload).hexdigest() if upload is not None else _clean(sha256)
     if len(digest) != 64 or any(c not in "0123456789abcdef" for c in digest):
         return Verdict("unknown")
+    unloaded = defer(Report.pdf)  # type: ignore[arg-type]
     with db.session() as s:
         found = s.exec(
-            select(Report)
-            .options(defer(Report.pdf))  # type: ignore[arg-type]
-            .where((Report.sha256 == digest) | (Report.fingerprint == digest))
+            select(Report).options(unloaded).where((Report.sha256 == digest) | (Report.fingerprint == digest))
         ).first()
+        matched = "" if found is None else "file" if found.sha256 == digest else "content"
+        if found is None:
+            found = s.exec(
+                select(Report)
+                .options(unloaded)
+                .join(ReportAgs4, col(ReportAgs4.report_id) == Report.id)
+                .where(ReportAgs4.sha256 == digest)
+            ).first()
+            matched = "ags4"
         if found is None or (number and found.number != number.strip()):
             return Verdict("unknown")
-        matched = "file" if found.sha256 == digest else "content"
         if found.status != "superseded":
             return Verdict("current", found, matched=matched)
         newest = s.exec(
             select(Report)
-            .options(defer(Report.pdf))  # type: ignore[arg-type]
+            .options(unloaded)
             .where(Report.number == found.number, Report.status == "issued")
             .order_by(col(Report.revision).desc())
         ).first()

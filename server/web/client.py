@@ -1,7 +1,7 @@
-"""What a client engineer sees through a share link (no account), the staff PDF download, and
-the public verification page.
+"""What a client engineer sees through a share link (no account), the staff downloads of a
+report's files, and the public verification page.
 
-A report's PDF is served from the bytes stored at issue: never rendered again.
+A report's PDF and AGS4 file are served from the bytes stored at issue: never made again.
 """
 
 from __future__ import annotations
@@ -10,10 +10,12 @@ import hashlib
 from typing import Annotated
 
 from fastapi import APIRouter, Depends, File, Form, HTTPException, Request, UploadFile
+from sqlalchemy.orm import defer
 from starlette.responses import Response
 
 from server.auth.sessions import database, require_user
-from server.db.tables import Report, User
+from server.db.tables import Report, ReportAgs4, User
+from server.exchange.downloads import AGS4_MEDIA_TYPE
 from server.services import reports
 from server.services.links import ClientView, open_link
 from server.web.templating import render
@@ -46,6 +48,26 @@ def pdf_response(report: Report) -> Response:
         headers={
             "Content-Disposition": f'attachment; filename="{name}"',
             "X-Content-SHA256": report.sha256,
+            **PRIVATE,
+        },
+    )
+
+
+def ags4_response(request: Request, report_id: int) -> Response:
+    """The AGS4 file frozen with the report, byte for byte; 404 when the report has none (it
+    was issued before files were frozen with reports)."""
+    with database(request).session() as s:
+        report = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
+        frozen = s.get(ReportAgs4, report_id)
+    if report is None or frozen is None:
+        raise HTTPException(404, "no AGS4 file was issued with this report")
+    name = f"{report.number}-rev{report.revision}.ags"
+    return Response(
+        frozen.data,
+        media_type=AGS4_MEDIA_TYPE,
+        headers={
+            "Content-Disposition": f'attachment; filename="{name}"',
+            "X-Content-SHA256": frozen.sha256,
             **PRIVATE,
         },
     )
@@ -100,6 +122,21 @@ def share_pdf(request: Request, token: str, report_id: int) -> Response:
     return pdf_response(report)
 
 
+@router.get("/share/{token}/reports/{report_id}.ags")
+def share_ags4(request: Request, token: str, report_id: int) -> Response:
+    view = _open(request, token, f"/reports/{report_id}.ags")
+    if view.refused:
+        return _refused(request, view.refused)
+    if report_id not in view.report_ids:
+        raise HTTPException(404, "no such report for this link")
+    return ags4_response(request, report_id)
+
+
+@router.get("/reports/{report_id}.ags")
+def staff_ags4(request: Request, report_id: int, user: Annotated[User, Depends(require_user)]) -> Response:
+    return ags4_response(request, report_id)
+
+
 @router.get("/reports/{report_id}.pdf")
 def staff_pdf(request: Request, report_id: int, user: Annotated[User, Depends(require_user)]) -> Response:
     with database(request).session() as s:
@@ -144,7 +181,7 @@ def verify_upload(
     if not data:
         return _verify_page(request, 422, problem="Choose the PDF file of the report to check it.")
     number = number.strip()[:40]
-    verdict = reports.verify(database(request), pdf=data, number=number or None)
+    verdict = reports.verify(database(request), upload=data, number=number or None)
     return _verify_page(
         request,
         verdict=verdict,

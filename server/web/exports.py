@@ -1,4 +1,4 @@
-"""Downloads of a job's approved results as CSV and XLSX, from the job page (DESIGN.md section 7).
+"""Downloads of a job's approved results as CSV, XLSX and AGS4, from the job page (DESIGN.md section 7).
 
 Any signed-in member of staff may download them: they hold what the job page already shows
 every role. A job with nothing approved answers with its own page (422) saying so, rather than
@@ -13,8 +13,8 @@ from fastapi import APIRouter, Depends, HTTPException, Request
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_user
-from server.db.tables import User
-from server.exchange import results_sheet
+from server.db.tables import User, utcnow
+from server.exchange import downloads
 from server.services.errors import Invalid, NotFound
 from server.web.job_page import job_page_response
 
@@ -25,23 +25,18 @@ Staff = Annotated[User, Depends(require_user)]
 PRIVATE = {"Cache-Control": "private, no-store"}
 
 
-def _download(request: Request, job_id: int, extension: str) -> Response:
+def _download(request: Request, job_id: int, fmt: downloads.Format) -> Response:
     try:
         with database(request).session() as s:
-            export = results_sheet.load_results(s, job_id)
+            found = downloads.job_download(s, job_id, fmt, today=utcnow().date())
     except NotFound as exc:
         raise HTTPException(404, "no such job") from exc
     except Invalid as exc:
         return job_page_response(request, job_id, 422, error=f"Nothing to download: {exc}.")
-    if extension == "csv":
-        data, media_type = results_sheet.results_csv(export), results_sheet.CSV_MEDIA_TYPE
-    else:
-        data, media_type = results_sheet.results_xlsx(export), results_sheet.XLSX_MEDIA_TYPE
-    name = results_sheet.file_name(export, extension)
     return Response(
-        data,
-        media_type=media_type,
-        headers={"Content-Disposition": f'attachment; filename="{name}"', **PRIVATE},
+        found.data,
+        media_type=found.media_type,
+        headers={"Content-Disposition": f'attachment; filename="{found.file_name}"', **PRIVATE},
     )
 
 
@@ -55,3 +50,9 @@ def export_csv(request: Request, job_id: int, user: Staff) -> Response:
 def export_xlsx(request: Request, job_id: int, user: Staff) -> Response:
     """The summary, and one sheet per method with each test's readings and results."""
     return _download(request, job_id, "xlsx")
+
+
+@router.get("/jobs/{job_id}/export.ags")
+def export_ags4(request: Request, job_id: int, user: Staff) -> Response:
+    """The approved results as an AGS4 file dated today, for the client's ground model."""
+    return _download(request, job_id, "ags4")

@@ -22,7 +22,8 @@ from sqlmodel import select
 
 from server.config import Settings
 from server.db.session import Database
-from server.db.tables import Job, LabTest, Sample, utcnow
+from server.db.tables import Job, LabTest, ReportAgs4, Sample, utcnow
+from server.exchange import downloads, results_sheet
 from server.main import create_app
 from server.services import jobs, reports, samples, tokens
 from tests.conftest import PASSWORDS, People
@@ -537,14 +538,58 @@ def test_a_jobs_issued_report_is_listed_and_its_pdf_is_the_issued_bytes(api: Api
     assert [j["code"] for j in reported] == ["T-100"]  # server/db/job_list.py: an issued report
 
 
-@pytest.mark.parametrize("kind", ["ags4", "csv", "xlsx"])
-def test_an_export_answers_501_until_the_export_service_exists(api: Api, kind: str) -> None:
-    # RFC 9110 section 15.6.2: 501, the server does not support the functionality. Replace this
-    # test with the real exports when server.exchange's job export lands (see api/v1/reports.py).
-    body = problem_of(
-        api.call("tech", "GET", f"/api/v1/jobs/{api.job_id}/export", params={"format": kind}), 501
+def _approve(api: Api) -> None:
+    version = _submitted(api)
+    reply = api.call(
+        "review",
+        "POST",
+        f"/api/v1/tests/{api.test_id}/approve",
+        json={"version": version, "password": PASSWORDS["review"]},
     )
-    assert kind in body["detail"]
+    assert reply.status_code == 200, reply.text
+
+
+def test_a_reports_frozen_ags4_file_is_listed_and_served_byte_for_byte(api: Api) -> None:
+    _approve(api)
+    issued = reports.issue_report(
+        api.db, api.people.review, api.job_id, "http://testserver", password=PASSWORDS["review"]
+    )
+    with api.db.session() as s:
+        frozen = s.get(ReportAgs4, issued.id)
+    assert frozen is not None
+    (report,) = api.call("tech", "GET", f"/api/v1/jobs/{api.job_id}/reports").json()["items"]
+    assert (report["ags4"], report["ags4_sha256"]) == (f"/api/v1/reports/{issued.id}.ags", frozen.sha256)
+    reply = api.call("reader", "GET", report["ags4"])
+    assert reply.status_code == 200 and reply.headers["content-type"].startswith("text/plain")
+    assert reply.content == frozen.data  # DESIGN.md section 7: frozen with the report, never made again
+    digest = base64.b64encode(hashlib.sha256(reply.content).digest()).decode()
+    assert reply.headers["repr-digest"] == f"sha-256=:{digest}:"  # RFC 9530 section 3
+    problem_of(api.call("tech", "GET", "/api/v1/reports/999999.ags"), 404)
+
+
+@pytest.mark.parametrize("kind", ["ags4", "csv", "xlsx"])
+def test_an_export_is_the_same_file_as_the_job_pages_download(api: Api, kind: str) -> None:
+    _approve(api)
+    with api.db.session() as s:
+        expected = downloads.job_download(s, api.job_id, kind, today=utcnow().date())  # type: ignore[arg-type]
+    for who in ("tech", "review", "admin", "reader"):  # reading results is for anyone signed in
+        reply = api.call(who, "GET", f"/api/v1/jobs/{api.job_id}/export", params={"format": kind})
+        assert reply.status_code == 200, reply.text
+        assert reply.content == expected.data
+        assert reply.headers["content-type"] == expected.media_type
+        assert expected.file_name in reply.headers["content-disposition"]
+    if kind == "csv":
+        header = reply.content.decode("utf-8-sig").splitlines()[0]
+        assert header.split(",") == results_sheet.summary_headers()  # the documented example's columns
+
+
+def test_an_export_of_a_job_with_nothing_approved_is_refused_as_a_read(api: Api) -> None:
+    body = problem_of(
+        api.call("tech", "GET", f"/api/v1/jobs/{api.job_id}/export", params={"format": "csv"}), 422
+    )
+    assert body["errors"][0]["loc"] == ["tests"] and "no approved test" in body["detail"]
+    assert not body["detail"].startswith("nothing was stored")  # a read stores nothing anyway
+    problem_of(api.call("tech", "GET", "/api/v1/jobs/999999/export", params={"format": "csv"}), 404)
 
 
 def test_an_export_of_an_unknown_format_is_refused(api: Api) -> None:

@@ -47,12 +47,12 @@ def test_verification_knows_an_issued_report_by_file_hash_or_printed_fingerprint
     report = reports.issue_report(db, people.review, job_id, BASE, password=PASSWORDS["review"])
     with db.session() as s:
         pdf = s.get(Report, report.id).pdf  # type: ignore[union-attr]
-    assert reports.verify(db, pdf=pdf).state == "current"
+    assert reports.verify(db, upload=pdf).state == "current"
     assert reports.verify(db, sha256=report.fingerprint).matched == "content"
     assert reports.verify(db, sha256=report.sha256.upper(), number="T-100-R01").matched == "file"
     changed = bytearray(pdf)
     changed[len(changed) // 2] ^= 0x01
-    assert reports.verify(db, pdf=bytes(changed)).state == "unknown"
+    assert reports.verify(db, upload=bytes(changed)).state == "unknown"
     assert reports.verify(db, sha256="00" * 32).state == "unknown"
 
 

@@ -15,7 +15,7 @@ from fastapi.testclient import TestClient
 from sqlmodel import col, select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, Job, LinkAccess, Report, ShareLink, utcnow
+from server.db.tables import AuditEvent, Job, LinkAccess, Report, ReportAgs4, ShareLink, utcnow
 from server.services import jobs, links, reports, samples
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, approve, two_approved_samples
@@ -55,6 +55,46 @@ def test_share_link_downloads_the_stored_pdf_even_after_the_lab_details_change(
     pdf = app_client.get(f"{_share_path(made.token)}/reports/{report.id}.pdf")
     assert pdf.status_code == 200 and pdf.headers["content-type"] == "application/pdf"
     assert hashlib.sha256(pdf.content).hexdigest() == report.sha256 == pdf.headers["x-content-sha256"]
+
+
+def test_the_link_and_the_job_page_serve_the_reports_frozen_ags4_file_byte_for_byte(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
+    with db.session() as s:
+        frozen = s.get(ReportAgs4, report.id)
+    assert frozen is not None
+    # a file made now would differ
+    jobs.set_laboratory(db, people.admin, "Renamed Laboratory", "Elsewhere", "")
+    made = links.create_link(db, people.review, two.job_id, 7)
+    page = app_client.get(_share_path(made.token))
+    assert f'href="/share/{made.token}/reports/{report.id}.ags"' in page.text
+    shared = app_client.get(f"{_share_path(made.token)}/reports/{report.id}.ags")
+    assert shared.status_code == 200 and shared.headers["content-type"] == "text/plain; charset=us-ascii"
+    assert shared.content == frozen.data and shared.headers["x-content-sha256"] == frozen.sha256
+    assert hashlib.sha256(shared.content).hexdigest() == frozen.sha256
+    assert f"{report.number}-rev1.ags" in shared.headers["content-disposition"]
+    with db.session() as s:
+        logged = s.exec(select(LinkAccess.path).order_by(col(LinkAccess.id).desc())).first()
+    assert logged == f"/share/…/reports/{report.id}.ags"  # every access logged, the token left out
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+    assert f'href="/reports/{report.id}.ags"' in app_client.get(f"/jobs/{two.job_id}").text
+    staff = app_client.get(f"/reports/{report.id}.ags")
+    assert staff.status_code == 200 and staff.content == frozen.data
+    assert app_client.get("/reports/999999.ags").status_code == 404
+
+
+def test_a_link_serves_no_ags4_file_of_another_jobs_report(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    report = reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
+    client = jobs.create_client(db, people.admin, "Other Client")
+    other = jobs.create_job(db, people.admin, client.id or 0, "T-200", "Other job", "Elsewhere")
+    made = links.create_link(db, people.review, other.id or 0, 7)
+    assert app_client.get(f"{_share_path(made.token)}/reports/{report.id}.ags").status_code == 404
+    assert app_client.get(f"/reports/{report.id}.ags", follow_redirects=False).status_code == 303  # sign in
 
 
 def test_expired_withdrawn_and_unknown_links_get_a_clear_page_and_no_data(

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import csv
 import io
+from pathlib import Path
 
 import openpyxl
 from fastapi.testclient import TestClient
@@ -15,6 +16,7 @@ from server.services import jobs, samples
 from tests.conftest import PASSWORDS, People
 from tests.exchange.test_results_sheet import build_job
 from tests.reports.issued import approve
+from tests.support.ags4_files import checker_errors
 from tests.support.http import sign_in
 from tests.support.scenario import small_job
 
@@ -51,6 +53,22 @@ def test_the_job_page_links_both_downloads(app_client: TestClient, db: Database,
 
     assert f'href="/jobs/{job.job_id}/export.xlsx"' in page.text and "⇩ Results (.xlsx)" in page.text
     assert f'href="/jobs/{job.job_id}/export.csv"' in page.text and "⇩ (.csv)" in page.text
+    assert f'href="/jobs/{job.job_id}/export.ags"' in page.text and "⇩ (AGS4)" in page.text
+
+
+def test_the_ags4_download_passes_the_checker_and_names_the_job(
+    app_client: TestClient, db: Database, people: People, tmp_path: Path
+) -> None:
+    built = build_job(db, people)
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+
+    reply = app_client.get(f"/jobs/{built.job_id}/export.ags")
+
+    assert reply.status_code == 200 and reply.headers["content-type"] == "text/plain; charset=us-ascii"
+    assert reply.headers["content-disposition"] == 'attachment; filename="T-100-results.ags"'
+    text = reply.content.decode("ascii")
+    assert checker_errors(text, tmp_path) == {}  # python-ags4's checker: zero errors
+    assert '"DATA","T-100"' in text  # PROJ_ID: the job number (DESIGN.md section 7)
 
 
 def test_nothing_approved_is_a_clear_refusal_on_the_job_page(
@@ -59,7 +77,7 @@ def test_nothing_approved_is_a_clear_refusal_on_the_job_page(
     job = small_job(db, people.admin)  # one requested test, nothing approved
     sign_in(app_client, "review", PASSWORDS["review"])
 
-    for suffix in ("xlsx", "csv"):
+    for suffix in ("xlsx", "csv", "ags"):
         reply = app_client.get(f"/jobs/{job.job_id}/export.{suffix}")
         assert reply.status_code == 422
         assert reply.template.name == "pages/job.html"  # type: ignore[attr-defined]
@@ -70,7 +88,7 @@ def test_nothing_approved_is_a_clear_refusal_on_the_job_page(
 def test_an_unknown_job_is_404(app_client: TestClient, db: Database, people: People) -> None:
     sign_in(app_client, "tech", PASSWORDS["tech"])
 
-    for suffix in ("xlsx", "csv"):
+    for suffix in ("xlsx", "csv", "ags"):
         assert app_client.get(f"/jobs/999999/export.{suffix}").status_code == 404
 
 

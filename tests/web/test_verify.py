@@ -12,7 +12,7 @@ import hashlib
 from fastapi.testclient import TestClient
 
 from server.db.session import Database
-from server.db.tables import Report
+from server.db.tables import Report, ReportAgs4
 from server.services import reports
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, two_approved_samples
@@ -79,6 +79,19 @@ def test_an_uploaded_genuine_pdf_is_current_and_one_changed_byte_makes_it_unknow
     changed[len(changed) // 3] ^= 0x20  # one byte, one bit of it
     altered = app_client.post("/verify", files={"pdf": ("report.pdf", bytes(changed), "application/pdf")})
     assert _verdict(altered.text) == "unknown" and hashlib.sha256(bytes(changed)).hexdigest() in altered.text
+
+
+def test_an_uploaded_ags4_file_issued_with_a_report_is_known_by_its_own_sha256(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    report, _ = _issued(db, people)
+    with db.session() as s:
+        frozen = s.get(ReportAgs4, report.id)
+    assert frozen is not None
+    upload = app_client.post("/verify", files={"pdf": ("results.ags", frozen.data, "text/plain")})
+    assert _verdict(upload.text) == "current" and "the AGS4 data file issued with it" in upload.text
+    by_code = app_client.get("/verify", params={"number": report.number, "sha256": frozen.sha256})
+    assert _verdict(by_code.text) == "current" and frozen.sha256 in by_code.text
 
 
 def test_answers_unknown_for_an_unknown_code_or_a_genuine_code_under_another_number(

@@ -145,8 +145,9 @@ def _cell(error: Any) -> dict[str, Any]:
     return {**field_error(loc, error.message), **error.to_dict()}
 
 
-def problem_of(exc: Exception) -> ApiProblem | None:
-    """The problem that answers this exception, or None for one that is a bug (a 500)."""
+def problem_of(exc: Exception, *, writing: bool = True) -> ApiProblem | None:
+    """The problem that answers this exception, or None for one that is a bug (a 500). A
+    refusal of fields says that nothing was stored when the request was ``writing``."""
     if isinstance(exc, ApiProblem):
         return exc
     if isinstance(exc, RequestValidationError):
@@ -158,9 +159,8 @@ def problem_of(exc: Exception) -> ApiProblem | None:
         return ApiProblem(409, str(exc), conflicts=conflicts)
     if isinstance(exc, Invalid):
         errors = [e.to_dict() for e in exc.errors]
-        return ApiProblem(
-            422, "nothing was stored: " + "; ".join(e.message for e in exc.errors), errors=errors
-        )
+        lead = "nothing was stored: " if writing else "refused: "
+        return ApiProblem(422, lead + "; ".join(e.message for e in exc.errors), errors=errors)
     if isinstance(exc, ServiceError):
         return ApiProblem(http_status(exc), str(exc))
     if isinstance(exc, StarletteHTTPException):
@@ -179,7 +179,7 @@ class ProblemRoute(APIRoute):
             try:
                 response = await handler(request)
             except Exception as exc:
-                problem = problem_of(exc)
+                problem = problem_of(exc, writing=request.method not in ("GET", "HEAD"))
                 if problem is None:
                     raise
                 response = problem.response(request)

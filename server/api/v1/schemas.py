@@ -420,6 +420,8 @@ REPORT = {
     "superseded_by_id": None,
     "signature_meaning": "Issued: results checked and authorised for release",
     "pdf": "/api/v1/reports/5.pdf",
+    "ags4": "/api/v1/reports/5.ags",
+    "ags4_sha256": "3b7e1d9a5c2f8e4b0a6d1c7f3e9b5a2d8c4f0e6b1a7d3c9f5e2b8a4d0c6f1e7b",
 }
 
 
@@ -436,6 +438,11 @@ class ReportOut(BaseModel):
     superseded_by_id: int | None
     signature_meaning: str
     pdf: str = Field(description="where to download the frozen PDF")
+    ags4: str | None = Field(
+        description="where to download the AGS4 file frozen with the report (none for a report "
+        "issued before files were frozen with reports)"
+    )
+    ags4_sha256: str | None = Field(description="of the frozen AGS4 file's bytes")
 
 
 class ReportPage(BaseModel):
