@@ -9,6 +9,7 @@ from fastapi.responses import JSONResponse
 
 from server.api.examples import EXAMPLES
 from server.api.schemas import CalculationRequest, CalculationResponse, ErrorResponse, MethodOut
+from server.api.v1.problems import problems
 from server.services import calculations
 from server.services.errors import Invalid
 
@@ -18,7 +19,10 @@ router = APIRouter(prefix="/api/v1", tags=["calculations"])
 @router.post(
     "/calculations",
     response_model=CalculationResponse,
-    responses={422: {"model": ErrorResponse, "description": "readings refused, field by field"}},
+    responses={
+        **problems(400),
+        422: {"model": ErrorResponse, "description": "readings refused, field by field"},
+    },
 )
 def calculate(
     body: Annotated[

@@ -7,7 +7,7 @@ from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import update
+from sqlalchemy import func, or_, update
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
@@ -165,3 +165,10 @@ def job_sheet(session: Session, job_id: int) -> JobSheet | None:
     reports = job_reports(session, job_id)
     ags4 = frozen_ags4_digests(session, [r.id or 0 for r in reports])
     return JobSheet(job, client, locations, samples, tests, reports, links, ags4)
+
+
+def same_name(column: Any, name: str) -> Any:
+    """A condition: ``column`` holds ``name`` whatever its case. SQLite's lower() folds only the
+    ASCII letters (and PostgreSQL's follows the collation), so the exact name is asked for too:
+    a name with "Ô" in it is still found, never inserted twice against the unique index."""
+    return or_(column == name, func.lower(column) == name.lower())

@@ -30,7 +30,7 @@ from server.db.queries import bump_test
 from server.db.session import Database
 from server.db.tables import LabTest, User, utcnow
 from server.engine import Evaluation, FieldError, evaluate
-from server.services import audit, offline
+from server.services import audit, offline, readings_shape
 from server.services.errors import Conflict, Invalid, NotFound
 from server.services.readings_paths import PathError, same, value_at, with_changes
 from server.workflow.states import Action, Move, TransitionRefused, move
@@ -159,7 +159,10 @@ def save_changes(
         if conflicts:
             raise FieldConflicts(conflicts)
         ev = evaluate(test.method, readings)
-        wrong = [e for e in ev.errors if e.kind != "missing"]
+        # Readings sent whole (the API, an import) must be of the method's shape as sent (before
+        # blanks are tidied away); a field saved from the bench is one of its sheet's, which are.
+        shape = [e for c in changes if c.path == "" for e in readings_shape.refusals(test.method, c.value)]
+        wrong = readings_shape.together([e for e in ev.errors if e.kind != "missing"], shape)
         if wrong:
             raise Invalid(wrong)
         paths = [c.path for c in changes if not same(value_at(stored, c.path), value_at(readings, c.path))]

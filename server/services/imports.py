@@ -18,9 +18,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import func
 from sqlmodel import Session, col, select
 
+from server.db.queries import same_name
 from server.db.session import Database
 from server.db.tables import Client, Job, LabTest, Location, Sample, User
 from server.exchange import ags4_read, spreadsheet
@@ -381,7 +381,7 @@ def import_schedule(
 def _create_job(s: Session, actor: User | None, plan: ImportPlan) -> Job:
     """The job the import names, created in the import's own transaction (with its client)."""
     assert plan.new_job is not None
-    client = s.exec(select(Client).where(func.lower(Client.name) == plan.client.lower())).first()
+    client = s.exec(select(Client).where(same_name(Client.name, plan.client))).first()
     if client is None:
         client = client_in(s, actor, client_values(plan.client))
     return job_in(s, actor, client.id or 0, plan.new_job)

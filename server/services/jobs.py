@@ -8,9 +8,9 @@ from dataclasses import dataclass
 from datetime import UTC, datetime, time
 from typing import Any
 
-from sqlalchemy import func
 from sqlmodel import Session, col, select
 
+from server.db.queries import same_name
 from server.db.session import Database
 from server.db.tables import Client, Job, Laboratory, LabTest, Report, Sample, User
 from server.engine import METHODS
@@ -50,7 +50,7 @@ def client_values(name: str, contact: str = "", email: str = "", postal_address:
 
 
 def _unique_client_name(s: Session, name: str, client_id: int | None = None) -> None:
-    found = s.exec(select(Client).where(func.lower(Client.name) == name.lower())).first()
+    found = s.exec(select(Client).where(same_name(Client.name, name))).first()
     if found and found.id != client_id:
         refuse("name", f"a client named {found.name!r} is already registered")
 

@@ -1,7 +1,7 @@
 """The JSON API v1 (DESIGN.md section 7): personal tokens, work in, results out.
 
 ``install(app)`` adds its routers, answers unmatched paths under /api/v1 as problems, and adds
-the problem schemas to the OpenAPI document (FastAPI lists a response model under the route's
+the problem and readings schemas to the OpenAPI document (FastAPI lists a response model under the route's
 own media type, application/json; a problem is application/problem+json, RFC 9457).
 """
 
@@ -12,6 +12,7 @@ from typing import Any
 from fastapi import APIRouter, FastAPI
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
+from server.api.schemas import readings_components
 from server.api.v1 import jobs, lab_tests, reports
 from server.api.v1.auth import RateLimit, Reader
 from server.api.v1.problems import Problem, ProblemRoute, problems, unmatched
@@ -51,6 +52,7 @@ def install(app: FastAPI) -> None:
         components = schema.setdefault("components", {}).setdefault("schemas", {})
         components.update(found.pop("$defs", {}))
         components["Problem"] = found
+        components.update(readings_components())
         return schema
 
     app.openapi = openapi  # type: ignore[method-assign]

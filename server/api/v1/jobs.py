@@ -15,6 +15,7 @@ from sqlmodel import Session, col, select
 
 from server.api.v1 import pages
 from server.api.v1.auth import ClientReader, Importer, Reader, Registrar
+from server.api.v1.params import MAX_ID, IsoDateTime, PathId
 from server.api.v1.problems import ProblemRoute, problems
 from server.api.v1.schemas import (
     CLIENT_IN,
@@ -48,7 +49,7 @@ from server.services.imports import FILE_MAX_BYTES, Target
 router = APIRouter(prefix="/api/v1", route_class=ProblemRoute, tags=["jobs"])
 
 READ = problems(401, 404, 422, 429)
-WRITE = problems(401, 403, 404, 422, 429)
+WRITE = problems(400, 401, 403, 404, 422, 429)
 
 
 def _found(s: Session, job_id: int) -> Job:
@@ -142,9 +143,11 @@ def list_jobs(
         JobStatus | None,
         Query(description="reported: an issued report; open: none yet; overdue: open, past due"),
     ] = None,
-    client_id: Annotated[int | None, Query(description="only this client's jobs", examples=[3])] = None,
+    client_id: Annotated[
+        int | None, Query(ge=1, le=MAX_ID, description="only this client's jobs", examples=[3])
+    ] = None,
     updated_since: Annotated[
-        datetime | None,
+        IsoDateTime | None,
         Query(
             description="only jobs with a change at or after this time (ISO 8601; no zone is UTC): "
             "any audited change of the job, its locations, samples, tests or reports",
@@ -187,7 +190,7 @@ def create_job(
 
 
 @router.get("/jobs/{job_id}", response_model=JobOut, responses=READ)
-def get_job(request: Request, job_id: int, who: Reader) -> JobOut:
+def get_job(request: Request, job_id: PathId, who: Reader) -> JobOut:
     with database(request).session() as s:
         return _job(_job_row(s, job_id))
 
@@ -198,7 +201,7 @@ def get_job(request: Request, job_id: int, who: Reader) -> JobOut:
 @router.get("/jobs/{job_id}/locations", response_model=LocationPage, responses=READ)
 def list_locations(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Reader,
     cursor: pages.Cursor = None,
     limit: pages.Limit = pages.DEFAULT_LIMIT,
@@ -219,7 +222,7 @@ def list_locations(
 @router.post("/jobs/{job_id}/locations", status_code=201, response_model=LocationOut, responses=WRITE)
 def create_location(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Registrar,
     body: Annotated[
         LocationIn,
@@ -265,7 +268,7 @@ def _samples(s: Session, rows: list[Sample]) -> list[SampleOut]:
 @router.get("/jobs/{job_id}/samples", response_model=SamplePage, responses=READ)
 def list_samples(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Reader,
     cursor: pages.Cursor = None,
     limit: pages.Limit = pages.DEFAULT_LIMIT,
@@ -285,7 +288,7 @@ def list_samples(
 @router.post("/jobs/{job_id}/samples", status_code=201, response_model=SampleOut, responses=WRITE)
 def create_sample(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Registrar,
     body: Annotated[
         SampleIn,
@@ -315,7 +318,7 @@ _SCHEDULE = (
 @router.post(
     "/jobs/{job_id}/imports",
     response_model=ImportOut,
-    responses=problems(401, 403, 404, 422, 429),
+    responses=problems(400, 401, 403, 404, 422, 429),
     openapi_extra={
         "requestBody": {
             "content": {
@@ -333,7 +336,7 @@ _SCHEDULE = (
 )
 def import_schedule(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Importer,
     file: Annotated[UploadFile, File(description="a .csv, .xlsx or .ags schedule (the name gives the kind)")],
     dry_run: Annotated[bool, Query(description="check and count only; store nothing")] = False,

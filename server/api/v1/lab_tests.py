@@ -17,6 +17,7 @@ from sqlmodel import Session, col
 
 from server.api.v1 import pages
 from server.api.v1.auth import Reader, Reviewer, Writer
+from server.api.v1.params import MAX_ID, PathId
 from server.api.v1.problems import ApiProblem, ProblemRoute, field_error, problems
 from server.api.v1.schemas import (
     READINGS_EXAMPLE,
@@ -38,7 +39,7 @@ from server.workflow.states import Status
 
 router = APIRouter(prefix="/api/v1", route_class=ProblemRoute, tags=["tests"])
 
-CHANGE = problems(401, 403, 404, 409, 422, 429)
+CHANGE = problems(400, 401, 403, 404, 409, 422, 429)
 
 
 def _out(row: TestRow) -> dict[str, Any]:
@@ -108,7 +109,9 @@ def _list(
 def list_tests(
     request: Request,
     who: Reader,
-    job_id: Annotated[int | None, Query(description="only this job's tests", examples=[7])] = None,
+    job_id: Annotated[
+        int | None, Query(ge=1, le=MAX_ID, description="only this job's tests", examples=[7])
+    ] = None,
     status: StatusFilter = None,
     method: MethodFilter = None,
     cursor: pages.Cursor = None,
@@ -121,7 +124,7 @@ def list_tests(
 @router.get("/jobs/{job_id}/tests", response_model=LabTestPage, responses=problems(401, 404, 422, 429))
 def list_job_tests(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Reader,
     status: StatusFilter = None,
     method: MethodFilter = None,
@@ -133,14 +136,14 @@ def list_job_tests(
 
 
 @router.get("/tests/{test_id}", response_model=LabTestOut, responses=problems(401, 404, 422, 429))
-def get_test(request: Request, test_id: int, who: Reader) -> LabTestOut:
+def get_test(request: Request, test_id: PathId, who: Reader) -> LabTestOut:
     return _test(request, test_id)
 
 
 @router.put("/tests/{test_id}/readings", response_model=ReadingsSaved, responses=CHANGE)
 def put_readings(
     request: Request,
-    test_id: int,
+    test_id: PathId,
     who: Writer,
     body: Annotated[
         ReadingsIn,
@@ -168,7 +171,7 @@ def put_readings(
 @router.post("/tests/{test_id}/submit", response_model=LabTestOut, responses=CHANGE)
 def submit(
     request: Request,
-    test_id: int,
+    test_id: PathId,
     who: Writer,
     body: Annotated[
         SubmitIn,
@@ -197,7 +200,7 @@ def submit(
 @router.post("/tests/{test_id}/approve", response_model=LabTestOut, responses=CHANGE)
 def approve(
     request: Request,
-    test_id: int,
+    test_id: PathId,
     who: Reviewer,
     body: Annotated[
         ApproveIn,
@@ -232,7 +235,7 @@ def approve(
 @router.post("/tests/{test_id}/return", response_model=LabTestOut, responses=CHANGE)
 def return_test(
     request: Request,
-    test_id: int,
+    test_id: PathId,
     who: Reviewer,
     body: Annotated[
         ReturnIn,

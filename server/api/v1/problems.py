@@ -27,6 +27,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from starlette.concurrency import run_in_threadpool
 from starlette.exceptions import HTTPException as StarletteHTTPException
 from starlette.responses import JSONResponse, Response
+from starlette.routing import Match
 
 from server.auth.sessions import database
 from server.services import tokens
@@ -198,6 +199,20 @@ class ProblemRoute(APIRoute):
         return answer
 
 
+def _methods_at(request: Request) -> list[str]:
+    """Every method some route serves at this path (RFC 9110 section 15.5.6): Starlette names
+    only the methods of the first route that matched the path, and GET and POST of a list are
+    two routes, so each method is tried against the whole route table."""
+    return [
+        method
+        for method in ("GET", "POST", "PUT", "PATCH", "DELETE")
+        if any(
+            route.matches({**request.scope, "method": method})[0] == Match.FULL
+            for route in request.app.router.routes
+        )
+    ]
+
+
 async def unmatched(request: Request, exc: Exception) -> Response:
     """A path or method under /api/v1 that no route serves (404, 405) as a problem too; any
     other path keeps FastAPI's own answer."""
@@ -205,11 +220,14 @@ async def unmatched(request: Request, exc: Exception) -> Response:
     if request.url.path.startswith("/api/v1/"):
         problem = problem_of(exc)
         assert problem is not None
+        if exc.status_code == 405:
+            problem.headers["Allow"] = ", ".join(_methods_at(request))
         return problem.response(request)
     return await http_exception_handler(request, exc)
 
 
 _EXAMPLES: dict[int, dict[str, Any]] = {
+    400: {"detail": "There was an error parsing the body", "instance": "/api/v1/jobs"},
     401: {
         "detail": "send a personal API token: Authorization: Bearer <token>",
         "instance": "/api/v1/jobs",
@@ -232,19 +250,15 @@ _EXAMPLES: dict[int, dict[str, Any]] = {
         "detail": "this token made more than 600 requests per 1 minute; retry after 12 s",
         "instance": "/api/v1/jobs",
     },
-    501: {
-        "detail": "exports in ags4 are not available in this installation yet",
-        "instance": "/api/v1/jobs/3/export",
-    },
 }
 _WHY = {
+    400: "the body is not JSON (or, for an upload, not multipart form data) at all",
     401: "no token, or a token unknown, expired or revoked (RFC 6750: WWW-Authenticate says which)",
     403: "a read-only token on a write, or the role (or the service's own rule) refuses it",
     404: "no such record",
     409: "the record changed meanwhile (version guard), or its status does not allow this",
     422: "refused fields, each in errors; nothing was stored",
     429: "too many requests for this token; Retry-After says when to try again",
-    501: "not available in this installation",
 }
 _HEADERS: dict[int, dict[str, Any]] = {
     401: {"WWW-Authenticate": {"schema": {"type": "string"}, "description": "RFC 6750 section 3"}},

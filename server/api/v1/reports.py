@@ -16,6 +16,7 @@ from starlette.responses import Response
 
 from server.api.v1 import pages
 from server.api.v1.auth import Reader
+from server.api.v1.params import PathId
 from server.api.v1.problems import ProblemRoute, problems
 from server.api.v1.schemas import ReportOut, ReportPage
 from server.auth.sessions import database
@@ -48,7 +49,7 @@ def _report(report: Report, ags4: dict[int, str]) -> ReportOut:
 @router.get("/jobs/{job_id}/reports", response_model=ReportPage, responses=problems(401, 404, 422, 429))
 def list_reports(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Reader,
     cursor: pages.Cursor = None,
     limit: pages.Limit = pages.DEFAULT_LIMIT,
@@ -81,7 +82,7 @@ _PDF_EXAMPLE = "%PDF-1.7 ... (the issued report's bytes)"
         **problems(401, 404, 422, 429),
     },
 )
-def report_pdf(request: Request, report_id: int, who: Reader) -> Response:
+def report_pdf(request: Request, report_id: PathId, who: Reader) -> Response:
     with database(request).session() as s:
         report = s.get(Report, report_id)
     if report is None:
@@ -117,7 +118,7 @@ _AGS4_EXAMPLE = '"GROUP","PROJ"\r\n"HEADING","PROJ_ID","PROJ_NAME","PROJ_LOC","P
         **problems(401, 404, 422, 429),
     },
 )
-def report_ags4(request: Request, report_id: int, who: Reader) -> Response:
+def report_ags4(request: Request, report_id: PathId, who: Reader) -> Response:
     """404 also for a report issued before AGS4 files were frozen with reports."""
     with database(request).session() as s:
         report = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
@@ -161,7 +162,7 @@ def report_ags4(request: Request, report_id: int, who: Reader) -> Response:
 )
 def export(
     request: Request,
-    job_id: int,
+    job_id: PathId,
     who: Reader,
     format: Annotated[downloads.Format, Query(description="ags4, csv or xlsx", examples=["ags4"])],
 ) -> Response:

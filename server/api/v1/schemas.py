@@ -8,11 +8,12 @@ A list is ``{"items": [...], "next": cursor-or-null}`` (DESIGN.md section 7).
 from __future__ import annotations
 
 from datetime import date, datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, WithJsonSchema
 
-from server.api.schemas import FieldErrorOut, FlagOut
+from server.api.schemas import READINGS_OF_ANY_METHOD, FieldErrorOut, FlagOut
+from server.api.v1.params import BodyId, IsoDate, Measure, Version
 from server.services.review import DEFAULT_MEANING
 
 
@@ -97,13 +98,13 @@ JOB = {
 class JobIn(BaseModel):
     model_config = _example(JOB_IN)
 
-    client_id: int
+    client_id: BodyId
     code: str = Field(description="the job number, unique in the laboratory, printed on reports")
     title: str = Field(default="", description="blank: the job number")
     site: str = ""
     order_reference: str = ""
-    received_on: date | None = Field(default=None, description="blank: today")
-    due_date: date | None = None
+    received_on: IsoDate | None = Field(default=None, description="blank: today")
+    due_date: IsoDate | None = None
     standards: str = Field(default="astm", description="the family of standards the job is tested to")
     notes: str = ""
 
@@ -159,9 +160,9 @@ class LocationIn(BaseModel):
 
     code: str
     kind: str = Field(default="borehole", description="borehole, trial pit, window sample...")
-    easting: float | None = None
-    northing: float | None = None
-    ground_level_m: float | None = None
+    easting: Measure | None = None
+    northing: Measure | None = None
+    ground_level_m: Measure | None = None
 
 
 class LocationOut(BaseModel):
@@ -217,10 +218,10 @@ SAMPLE = {
 class SampleIn(BaseModel):
     model_config = _example(SAMPLE_IN)
 
-    location_id: int = Field(description="a location of this job (POST /api/v1/jobs/{job_id}/locations)")
+    location_id: BodyId = Field(description="a location of this job (POST /api/v1/jobs/{job_id}/locations)")
     code: str = Field(description="unique in the job")
-    depth_from_m: float
-    depth_to_m: float | None = Field(default=None, description="blank: the same as the top")
+    depth_from_m: Measure
+    depth_to_m: Measure | None = Field(default=None, description="blank: the same as the top")
     sample_type: str = "disturbed"
     description: str = ""
     remarks: str = ""
@@ -359,8 +360,8 @@ class ReadingsIn(BaseModel):
 
     model_config = _example({"version": 1, "readings": READINGS_EXAMPLE})
 
-    version: int = Field(description="the test's version as last read; a stale one is refused (409)")
-    readings: dict[str, Any]
+    version: Version = Field(description="the test's version as last read; a stale one is refused (409)")
+    readings: Annotated[dict[str, Any], WithJsonSchema(READINGS_OF_ANY_METHOD)]
 
 
 class ReadingsSaved(LabTestOut):
@@ -379,7 +380,7 @@ class SubmitIn(BaseModel):
         },
     )
 
-    version: int
+    version: Version
     reasons: dict[str, str] = Field(
         default_factory=dict,
         description="for each error flag that stands, why the result stands (flag code -> words)",
@@ -393,7 +394,7 @@ class ApproveIn(BaseModel):
         {"version": 3, "password": "the reviewer's own password", "meaning": DEFAULT_MEANING}
     )
 
-    version: int
+    version: Version
     password: str
     meaning: str = DEFAULT_MEANING
 
@@ -403,7 +404,7 @@ class ReturnIn(BaseModel):
         {"version": 3, "reason": "Trial 2 blow count looks mistyped: please check the sheet"}
     )
 
-    version: int
+    version: Version
     reason: str
 
 
