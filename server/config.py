@@ -12,6 +12,7 @@ import secrets
 from functools import lru_cache
 from pathlib import Path
 
+from limits import parse_many
 from pydantic import Field, model_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
 
@@ -32,22 +33,44 @@ class Settings(BaseSettings):
     migrate_database_url: str = ""
     secret_key: str = ""
     public_base_url: str = "http://127.0.0.1:8000"
+    # Cookies only over HTTPS (and HSTS sent): on by default when environment is "production".
     https_only_cookies: bool = False
     self_approval_forbidden: bool = True
-    session_max_age_s: int = 12 * 3600
+    # A session ends after this long without a request, and in any case this long after sign-in.
+    session_idle_s: int = Field(default=8 * 3600, ge=60, le=366 * 86400)
+    session_max_age_s: int = Field(default=7 * 86400, ge=60, le=366 * 86400)
     # Requests each API token may make (the ``limits`` library's notation). Counted in the
     # process's memory: one app process shares one count; several processes each count their own.
     api_rate_limit: str = "600/minute"
+    # Failed guesses allowed before a wait, in growing windows (``limits`` notation, ";" between
+    # tiers): wrong passwords per account and per address, unknown share links or API tokens
+    # per address. Counted in ``throttle_storage`` (a ``limits`` storage URI).
+    signin_throttle_account: str = "5/minute;10/15 minutes;20/hour"
+    signin_throttle_address: str = "20/minute;60/hour"
+    token_throttle_address: str = "20/minute;100/hour"
+    throttle_storage: str = "memory://"
 
     @model_validator(mode="after")
     def _fill_defaults(self) -> Settings:
         if not self.database_url:
             self.database_url = f"sqlite:///{(self.data_dir / 'claybench.sqlite3').as_posix()}"
+        for name in ("signin_throttle_account", "signin_throttle_address", "token_throttle_address"):
+            try:
+                parse_many(getattr(self, name))
+            except ValueError as exc:
+                raise ValueError(f"CLAYBENCH_{name.upper()}: {exc}") from exc
+        if self.production and "https_only_cookies" not in self.model_fields_set:
+            self.https_only_cookies = True
         if not self.migrate_database_url:
             self.migrate_database_url = self.database_url
         if self.environment != "development" and self.secret_key and len(self.secret_key) < 32:
             raise ValueError("CLAYBENCH_SECRET_KEY must be at least 32 characters outside development")
         return self
+
+    @property
+    def production(self) -> bool:
+        """A laboratory's live server: HTTPS-only cookies by default and HSTS."""
+        return self.environment == "production"
 
     def resolved_secret_key(self) -> str:
         """The signing key: the configured one, or one generated once and kept in the data folder."""

@@ -19,9 +19,11 @@ from server.config import ROOT, Settings, get_settings
 from server.db.session import Database
 from server.web import (
     account,
+    admin_access,
     admin_users,
     audit,
     bench,
+    busy,
     client,
     exports,
     home,
@@ -61,6 +63,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
     api_v1.install(app)  # before the pages, so that no page route reads an /api/v1 path
+    busy.install(app)  # a write that waited its whole turn: 503 with Retry-After
     for module in (
         signin,
         intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}
@@ -77,6 +80,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         audit,
         turnaround,
         admin_users,
+        admin_access,
         registers,
         requests,
         account,

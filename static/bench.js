@@ -7,6 +7,9 @@
  *   the screen until the technician keeps theirs or takes the other.
  * - Without a connection the banner says how many values are kept here; they are sent, in
  *   the order typed, when the connection returns, and put back into the inputs on reload.
+ * - A server too busy to store them now (503 with Retry-After, server/web/busy.py; or 502/504
+ *   from a proxy) is no refusal: the values stay kept, the page says it will retry, and sends
+ *   them again after Retry-After, then after growing waits, as it does without a connection.
  * - What is kept belongs to the person who typed it: stored under their user id with the time it
  *   was typed, sent only while they are signed in (the server refuses it from anyone else), and
  *   stamped so that the audit event says when it was typed. Entries another person left here are
@@ -43,6 +46,10 @@
   var snapshot = null;
   var previewTimer = null;
   var retryTimer = null;
+  var busy = false; // the server said "busy, try again later" to the last save
+  var failures = 0; // tries in a row that met no connection or a busy server: the wait grows
+  var notBefore = 0; // no save is sent on its own before this time (Retry-After, the backoff)
+  var LATER = { 502: true, 503: true, 504: true }; // answers that mean "try again", not "refused"
   var waiters = [];
   var held = false; // the sign-out dialog is open: the person decides, nothing is sent meanwhile
   var NUMBER = /^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$/;
@@ -211,7 +218,7 @@
       .map(function (p) { return { path: p, value: read(p), base: pending[p].base, typed_at: pending[p].typed_at }; });
   }
   function autosave() {
-    if (locked || held) return settle();
+    if (locked || held || Date.now() < notBefore) return settle();
     if (sending) { again = true; return; }
     var list = sendable();
     var sig = JSON.stringify(list);
@@ -226,11 +233,11 @@
     }).then(function (res) {
       return res.json().catch(function () { return {}; }).then(function (body) {
         setOnline(true);
+        if (LATER[res.status]) { busy = true; retryLater(retryAfter(res.headers.get("Retry-After"))); return; }
+        calm();
         answer(res.status, body, list, sig);
       });
-    }, function () {
-      setOnline(false);
-    }).then(function () {
+    }, lost).then(function () {
       sending = false;
       if (again) { again = false; autosave(); } else settle();
     });
@@ -296,14 +303,45 @@
   function flush(cb) {
     waiters.push(cb);
     lastRefused = "";
+    notBefore = 0; // asked for now: the person does not wait for the backoff
     schedulePreview(0);
   }
   function setOnline(up) {
     if (online === up) return;
     online = up;
-    clearInterval(retryTimer);
-    if (!up) retryTimer = setInterval(function () { schedulePreview(0); }, 5000);
+    if (up) calm(); // the connection is back: what waits is sent now, not after the backoff
     paint();
+  }
+
+  // -- trying again later ---------------------------------------------------------------------
+  // No connection, or a busy server: nothing is dropped, it stays kept here and is sent again
+  // after the server's Retry-After, or after 1, 2, 4 ... 15 s in a row of failed tries, give or
+  // take a quarter, so that the tablets of a laboratory do not all come back at the same moment.
+  function retryAfter(header) {
+    var text = String(header || "").trim(); // delay-seconds or an HTTP date (RFC 9110 section 10.2.3)
+    if (/^\d+$/.test(text)) return Number(text);
+    var at = Date.parse(text);
+    return isNaN(at) ? 0 : Math.max(0, (at - Date.now()) / 1000);
+  }
+  function retryLater(seconds) {
+    failures += 1;
+    var wait = Math.min(15000, 1000 * Math.pow(2, failures - 1)) * (0.75 + Math.random() * 0.5);
+    wait = Math.max(wait, seconds * 1000);
+    notBefore = Date.now() + wait;
+    clearTimeout(retryTimer);
+    retryTimer = setTimeout(function () { retryTimer = null; notBefore = 0; schedulePreview(0); }, wait);
+    paint();
+  }
+  function lost() {
+    setOnline(false);
+    retryLater(0);
+  }
+  function calm() {
+    busy = false;
+    failures = 0;
+    notBefore = 0;
+    clearTimeout(retryTimer);
+    retryTimer = null;
   }
 
   // -- conflicts ------------------------------------------------------------------------------------
@@ -389,6 +427,11 @@
     else if (sending) { text = "… Saving."; state = "saving"; }
     else if (!kept) { text = "✔ Every value on this sheet is saved."; state = "saved"; }
     else if (!online) { text = "✎ " + kept + " value" + (kept === 1 ? "" : "s") + " waiting for the connection."; state = "offline"; }
+    else if (busy) {
+      text = "⧗ The server is busy — will retry: " + kept + " value" + (kept === 1 ? " is" : "s are") +
+        " kept on this tablet and sent in a moment.";
+      state = "busy";
+    }
     else {
       text = "✎ " + kept + " value" + (kept === 1 ? " is" : "s are") + " not saved yet" +
         (problem ? ": " + problem : ": correct the values marked ✖") + ".";
@@ -459,16 +502,19 @@
   });
   document.body.addEventListener("htmx:sendError", function (ev) {
     if (ev.detail.elt !== form) return;
-    setOnline(false);
+    lost();
     settle();
   });
   document.body.addEventListener("htmx:responseError", function (ev) {
     if (ev.detail.elt !== form) return;
-    problem = "the live results could not be computed (error " + ev.detail.xhr.status + ")";
+    var xhr = ev.detail.xhr;
+    setOnline(true);
+    if (LATER[xhr.status]) { busy = true; retryLater(retryAfter(xhr.getResponseHeader("Retry-After"))); }
+    else problem = "the live results could not be computed (error " + xhr.status + ")";
     settle();
   });
   window.addEventListener("online", function () { schedulePreview(0); });
-  window.addEventListener("offline", function () { setOnline(false); });
+  window.addEventListener("offline", lost);
   document.addEventListener("cb-hold", function (ev) {
     held = !!(ev.detail && ev.detail.hold);
     if (!held) { lastRefused = ""; schedulePreview(0); }

@@ -158,3 +158,10 @@ def people(db: Database) -> People:
 def app_client(settings: Settings, db: Database) -> Iterator[TestClient]:
     with TestClient(create_app(settings, db), base_url="http://testserver") as client:
         yield client
+
+
+@pytest.fixture
+def second_client(app_client: TestClient) -> Iterator[TestClient]:
+    """Another browser on the same app, with cookies of its own (another desk, a copied cookie)."""
+    with TestClient(app_client.app, base_url="http://testserver") as other:
+        yield other

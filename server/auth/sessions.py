@@ -1,8 +1,9 @@
-"""The signed session cookie, the signed-in user, role checks and CSRF tokens.
+"""The session cookie, the signed-in user, role checks and CSRF tokens.
 
 Starlette's SessionMiddleware signs the cookie (HttpOnly, SameSite=Lax) but does not encrypt
-it, so it holds only a user id, the user's session version and a CSRF token. Bumping a user's
-``session_version`` (sign-out everywhere, password change, deactivation) revokes every cookie.
+it, so it holds only the random id of a session kept on the server (``services.sessions``) and
+a CSRF token. Whether the session is alive is decided by its row, never by the cookie: signing
+out, a password change or an admin ends it for every copy of the cookie.
 """
 
 from __future__ import annotations
@@ -13,8 +14,10 @@ import secrets
 from fastapi import Request
 from starlette.datastructures import FormData
 
+from server.auth.throttle import client_address
 from server.db.session import Database
-from server.db.tables import User
+from server.db.tables import User, UserSession
+from server.services import sessions
 
 SAFE_METHODS = {"GET", "HEAD", "OPTIONS"}
 
@@ -36,28 +39,48 @@ def database(request: Request) -> Database:
     return db
 
 
+def lifetime(request: Request) -> sessions.Lifetime:
+    settings = request.app.state.settings
+    return sessions.Lifetime(idle_s=settings.session_idle_s, max_age_s=settings.session_max_age_s)
+
+
 def sign_in(request: Request, user: User) -> None:
+    """Start a new session (a new id and a new CSRF token: nothing of the cookie before
+    sign-in carries over)."""
+    token, _ = sessions.start(
+        database(request), user, client_address(request), request.headers.get("user-agent", "")
+    )
     request.session.clear()
-    request.session.update({"uid": user.id, "sv": user.session_version, "csrf": secrets.token_urlsafe(32)})
+    request.session.update({"sid": token, "csrf": secrets.token_urlsafe(32)})
 
 
 def sign_out(request: Request) -> None:
+    """End this browser's session on the server, then forget the cookie."""
+    found = _session(request)
+    if found is not None:
+        sessions.sign_out(database(request), found[0], found[1].id or 0)
     request.session.clear()
 
 
+def _session(request: Request) -> tuple[User, UserSession] | None:
+    if "signed_in" not in request.state._state:
+        sid = request.session.get("sid")
+        found = sessions.find(database(request), sid, lifetime(request)) if isinstance(sid, str) else None
+        request.state.signed_in = found
+    result: tuple[User, UserSession] | None = request.state.signed_in
+    return result
+
+
 def signed_in_user(request: Request) -> User | None:
-    """The active user the session names, or None (also when the session was revoked)."""
-    if "user" in request.state._state:
-        return request.state.user
-    user = None
-    uid = request.session.get("uid")
-    if isinstance(uid, int):
-        with database(request).session() as s:
-            found = s.get(User, uid)
-        if found and found.active and found.session_version == request.session.get("sv"):
-            user = found
-    request.state.user = user
-    return user
+    """The active user whose live session the cookie names, or None (also when it was ended)."""
+    found = _session(request)
+    return found[0] if found else None
+
+
+def current_session(request: Request) -> UserSession | None:
+    """This browser's live session, or None."""
+    found = _session(request)
+    return found[1] if found else None
 
 
 def require_user(request: Request) -> User:
@@ -99,7 +122,8 @@ async def csrf_protect(request: Request) -> None:
     if request.headers.get("sec-fetch-site") == "cross-site":
         raise CsrfRefused("cross-site request refused")
     origin = request.headers.get("origin")
-    if origin and origin not in {str(request.base_url).rstrip("/"), "null"}:
+    # "null" is what a sandboxed frame, a data: page or a file sends: never this site.
+    if origin and origin != str(request.base_url).rstrip("/"):
         raise CsrfRefused("request from another origin refused")
     expected = request.session.get("csrf")
     sent = request.headers.get("x-csrf-token")

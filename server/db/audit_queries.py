@@ -152,3 +152,9 @@ def recent(session: Session, limit: int = 100) -> list[AuditEvent]:
 
 def jobs(session: Session) -> list[Job]:
     return list(session.exec(select(Job).order_by(col(Job.code))).all())
+
+
+def refused_sign_ins(session: Session, limit: int = 100) -> list[AuditEvent]:
+    """The newest refused and throttled sign-ins, for the admins' access page."""
+    query = select(AuditEvent).where(AuditEvent.entity == "sign-in").order_by(col(AuditEvent.id).desc())
+    return list(session.exec(query.limit(limit)).all())

@@ -68,8 +68,28 @@ class User(SQLModel, table=True):
     role: str = Field(max_length=16)  # a server.workflow.states.Role value
     password_hash: str = Field(max_length=255)
     active: bool = True
-    session_version: int = 1
     created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class UserSession(SQLModel, table=True):
+    """One signed-in browser. The cookie carries a random id; only its SHA-256 is kept here.
+
+    Kept on the server so that signing out, "sign out everywhere", a password change, a
+    deactivation or an admin can end it for good: a copied cookie opens nothing once
+    ``ended_at`` is set. Never deleted, so the admin's list of sign-ins keeps its history.
+    """
+
+    __tablename__ = "user_session"
+
+    id: int | None = Field(default=None, primary_key=True)
+    user_id: int = Field(foreign_key="user.id", index=True)
+    token_sha256: str = Field(max_length=64, unique=True, index=True)
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    last_seen_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    ended_at: datetime | None = Field(default=None, sa_type=UTCDateTime, index=True)
+    end_reason: str = Field(default="", max_length=32)
+    remote_addr: str = Field(default="", max_length=64)
+    user_agent: str = Field(default="", max_length=300)
 
 
 class Laboratory(SQLModel, table=True):

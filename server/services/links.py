@@ -126,7 +126,8 @@ class JobReports:
 
 @dataclass
 class ClientView:
-    """What a link opens: ``refused`` is "unknown", "expired" or "revoked" and then no data."""
+    """What a link opens: ``refused`` is "unknown", "expired", "revoked" (or, from the page,
+    "throttled": not looked up) and then no data."""
 
     refused: str | None
     client_name: str = ""

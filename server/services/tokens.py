@@ -142,6 +142,20 @@ def revoke_token(db: Database, actor: User, token_id: int) -> ApiToken:
         return token
 
 
+def live_tokens(db: Database) -> list[tuple[ApiToken, User]]:
+    """Every token that still opens the API (not revoked, not expired), with its user, for the
+    admins' access page; newest first."""
+    now = utcnow()
+    with db.session() as s:
+        query = (
+            select(ApiToken, User)
+            .join(User, col(User.id) == col(ApiToken.user_id))
+            .where(col(ApiToken.revoked_at).is_(None), col(ApiToken.expires_at) > now)
+            .order_by(col(ApiToken.id).desc())
+        )
+        return [(token, user) for token, user in s.exec(query)]
+
+
 @dataclass
 class TokenRow:
     token: ApiToken

@@ -8,9 +8,12 @@ from sqlmodel import Session, select
 from server.auth.passwords import hash_password, password_problem, verify_password
 from server.db.session import Database
 from server.db.tables import User
-from server.services import audit
+from server.services import audit, sessions
 from server.services.errors import Conflict, Forbidden, NotFound, invalid
 from server.workflow.states import Role
+
+USERNAME_MAX = 64  # the column's length (server.db.tables.User)
+FULL_NAME_MAX = 200
 
 
 def create_user(
@@ -26,6 +29,11 @@ def create_user(
     username = username.strip().lower()
     if not username or not username.replace("-", "").replace(".", "").replace("_", "").isalnum():
         raise invalid("username", "username must be letters, digits, '.', '-' or '_'")
+    if len(username) > USERNAME_MAX:
+        raise invalid("username", f"the username is limited to {USERNAME_MAX} characters")
+    full_name = " ".join(full_name.split())
+    if len(full_name) > FULL_NAME_MAX:
+        raise invalid("full_name", f"the full name is limited to {FULL_NAME_MAX} characters")
     if role not in set(Role):
         raise invalid("role", f"role must be one of {', '.join(r.value for r in Role)}")
     problem = password_problem(password)
@@ -36,7 +44,7 @@ def create_user(
             raise Conflict(f"user {username!r} exists already")
         user = User(
             username=username,
-            full_name=full_name.strip() or username,
+            full_name=full_name or username,
             role=role,
             password_hash=hash_password(password),
         )
@@ -54,9 +62,13 @@ def create_user(
 
 
 def authenticate(db: Database, username: str, password: str) -> User | None:
-    """The active user with this username and password, or None (same cost either way)."""
-    with db.session() as s:
-        user = s.exec(select(User).where(User.username == username.strip().lower())).first()
+    """The active user with this username and password, or None (same cost either way: an
+    unknown name is checked against a dummy hash, so the answer's timing does not tell)."""
+    typed = username.strip().lower()
+    user = None
+    if typed and len(typed) <= USERNAME_MAX and "\x00" not in typed:
+        with db.session() as s:
+            user = s.exec(select(User).where(User.username == typed)).first()
     ok = verify_password(password, user.password_hash if user else None)
     if user is None or not ok or not user.active:
         return None
@@ -102,8 +114,8 @@ def update_user(
     full_name = " ".join(full_name.split())
     if not full_name:
         raise invalid("full_name", "a full name is required: it is printed beside signatures")
-    if len(full_name) > 200:
-        raise invalid("full_name", "the full name is limited to 200 characters")
+    if len(full_name) > FULL_NAME_MAX:
+        raise invalid("full_name", f"the full name is limited to {FULL_NAME_MAX} characters")
     if role not in set(Role):
         raise invalid("role", f"role must be one of {', '.join(r.value for r in Role)}")
     why = _reason(reason)
@@ -148,8 +160,8 @@ def set_active(db: Database, actor: User, user_id: int, active: bool, reason: st
         if not active and user.role == Role.admin.value and not _other_active_admins(s, user_id):
             raise invalid("active", "this is the last active admin: make someone else admin first")
         user.active = active
-        user.session_version += 1
         s.add(user)
+        ended = 0 if active else sessions.end_all(s, user_id, "deactivated")
         audit.record(
             s,
             actor,
@@ -157,7 +169,7 @@ def set_active(db: Database, actor: User, user_id: int, active: bool, reason: st
             user_id,
             "activate" if active else "deactivate",
             before={"active": not active},
-            after={"active": active},
+            after={"active": active} | ({"sessions_ended": ended} if ended else {}),
             reason=why,
         )
         return user
@@ -175,10 +187,57 @@ def reset_password(db: Database, actor: User, user_id: int, new_password: str, r
     with db.transaction() as s:
         user = _load(s, user_id)
         user.password_hash = new_hash
-        user.session_version += 1
         s.add(user)
-        audit.record(s, actor, "user", user_id, "password", after={"password": "reset"}, reason=why)
+        ended = sessions.end_all(s, user_id, "password reset")
+        audit.record(
+            s,
+            actor,
+            "user",
+            user_id,
+            "password",
+            after={"password": "reset", "sessions_ended": ended},
+            reason=why,
+        )
         return user
+
+
+def change_own_password(db: Database, user: User, current: str, new: str, keep_session: int | None) -> int:
+    """A person sets a new password, proving the current one; every other session of theirs
+    ends (this browser stays signed in). Returns how many sessions ended."""
+    if not verify_password(current, user.password_hash):
+        raise invalid("current_password", "the current password is not right")
+    problem = password_problem(new)
+    if problem:
+        raise invalid("new_password", problem)
+    if verify_password(new, user.password_hash):
+        raise invalid("new_password", "the new password must differ from the current one")
+    new_hash = hash_password(new)
+    with db.transaction() as s:
+        stored = _load(s, user.id or 0)
+        stored.password_hash = new_hash
+        s.add(stored)
+        ended = sessions.end_all(s, user.id or 0, "password changed", keep=keep_session)
+        audit.record(
+            s, user, "user", user.id or 0, "password", after={"password": "changed", "sessions_ended": ended}
+        )
+        return ended
+
+
+def record_refused_sign_in(db: Database, username: str, address: str, why: str) -> None:
+    """Write a refused sign-in (wrong password, unknown name, inactive account, throttled)
+    to the audit trail for the admins' sign-in page. No one is signed in, so the event's actor
+    is the system; the name as typed and the address say who tried."""
+    typed = username.replace("\x00", "").strip().lower()[:USERNAME_MAX]  # PostgreSQL text holds no NUL
+    with db.transaction() as s:
+        known = s.exec(select(User.id).where(User.username == typed)).first() if typed else None
+        audit.record(
+            s,
+            None,
+            "sign-in",
+            known or 0,
+            "refused",
+            after={"username": typed, "address": address[:64], "why": why},
+        )
 
 
 def user_named(db: Database, username: str) -> User:

@@ -1,23 +1,27 @@
-"""The signed-in person's own API tokens: list them with their last uses, make one (shown
-once), revoke one. Everyone signed in has this page; each person sees only their own tokens.
-Every change goes through ``server.services.tokens`` and is audited there."""
+"""The signed-in person's own account: API tokens (list them with their last uses, make one,
+shown once, revoke one), the browsers signed in as them (sign one out, or all), and their
+password. Everyone signed in has these pages; each person sees only their own. Every change
+goes through ``server.services`` (tokens, sessions, users) and is audited there."""
 
 from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, Form, HTTPException, Request
+from fastapi import APIRouter, Depends, Form, Path, Request
 from fastapi.responses import RedirectResponse
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_user
+from server.auth.sessions import csrf_protect, current_session, database, lifetime, require_user
 from server.db.tables import User
-from server.services import tokens
+from server.services import sessions, tokens, users
 from server.services.errors import Invalid, ServiceError, http_status
+from server.web.refusals import refusals_as_http
 from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
+
+IdPath = Annotated[int, Path(ge=1, le=2**31 - 1)]
 
 DAY_CHOICES = {"7": "7 days", "30": "30 days", "90": "90 days", "366": "a year"}
 
@@ -78,8 +82,88 @@ def create_token(
 
 @router.post("/account/tokens/{token_id}/revoke")
 def revoke_token(request: Request, token_id: int, user: Staff) -> Response:
-    try:
+    with refusals_as_http():
         tokens.revoke_token(database(request), user, token_id)
-    except ServiceError as exc:
-        raise HTTPException(http_status(exc), str(exc)) from exc
     return RedirectResponse("/account/tokens?done=revoked", status_code=303)
+
+
+# -- the person's own sessions and password -------------------------------------------------------
+
+
+def _span(seconds: int) -> str:
+    """A lifetime in the largest whole unit: "8 hours", "7 days"."""
+    for unit, size in (("day", 86400), ("hour", 3600), ("minute", 60)):
+        if seconds % size == 0:
+            count = seconds // size
+            return f"{count} {unit}{'s' if count != 1 else ''}"
+    return f"{seconds} seconds"
+
+
+def _sessions_page(request: Request, user: User, *, status_code: int = 200, **extra: Any) -> Response:
+    span = lifetime(request)
+    return render(
+        request,
+        "pages/account_sessions.html",
+        status_code=status_code,
+        found=sessions.live(database(request), lifetime(request), user.id),
+        this=current_session(request),
+        idle_hours=_span(span.idle_s),
+        max_days=_span(span.max_age_s),
+        errors=extra.get("errors", {}),
+        problem=extra.get("problem"),
+        message=extra.get("message"),
+    )
+
+
+@router.get("/account/sessions")
+def sessions_page(request: Request, user: Staff, done: str = "") -> Response:
+    messages = {
+        "password": "Password changed: every other browser signed in as you has been signed out.",
+        "ended": "That browser is signed out.",
+    }
+    return _sessions_page(request, user, message=messages.get(done))
+
+
+@router.post("/account/sessions/{session_id}/end")
+def end_session(request: Request, session_id: IdPath, user: Staff) -> Response:
+    """Sign out another browser of one's own (a tablet left at the bench)."""
+    sessions.sign_out(database(request), user, session_id)
+    return RedirectResponse("/account/sessions?done=ended", status_code=303)
+
+
+@router.post("/account/sign-out-everywhere")
+def sign_out_everywhere(request: Request, user: Staff) -> Response:
+    sessions.sign_out_everywhere(database(request), user)
+    request.session.clear()
+    return RedirectResponse("/signin", status_code=303)
+
+
+@router.post("/account/password")
+def change_password(
+    request: Request,
+    user: Staff,
+    current_password: Annotated[str, Form()] = "",
+    new_password: Annotated[str, Form()] = "",
+    repeat_password: Annotated[str, Form()] = "",
+) -> Response:
+    """The person's own new password; the current one is required, the other sessions end."""
+    if new_password != repeat_password:
+        errors = {"repeat_password": "the two new passwords differ"}
+        return _sessions_page(
+            request, user, status_code=422, errors=errors, problem="The password is unchanged."
+        )
+    this = current_session(request)
+    try:
+        users.change_own_password(
+            database(request), user, current_password, new_password, this.id if this else None
+        )
+    except ServiceError as exc:
+        errors = {str(e.loc[0]): e.message for e in exc.errors if e.loc} if isinstance(exc, Invalid) else {}
+        return _sessions_page(
+            request,
+            user,
+            status_code=http_status(exc),
+            errors=errors,
+            problem=f"The password is unchanged: {exc}.",
+        )
+    return RedirectResponse("/account/sessions?done=password", status_code=303)

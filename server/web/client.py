@@ -14,6 +14,7 @@ from sqlalchemy.orm import defer
 from starlette.responses import Response
 
 from server.auth.sessions import database, require_user
+from server.auth.throttle import client_address, throttles
 from server.db.tables import Report, ReportAgs4, User
 from server.exchange.downloads import AGS4_MEDIA_TYPE
 from server.services import reports
@@ -29,12 +30,16 @@ REFUSALS = {
     "expired": "This link has expired. Ask the laboratory for a new link; the reports themselves are "
     "unchanged.",
     "revoked": "This link has been withdrawn by the laboratory. Ask the laboratory for a new link.",
+    "throttled": "Too many unrecognised links were tried from your network. Wait a few minutes, then open "
+    "the link again.",
 }
 HEADLINES = {
     "unknown": "This link is not recognised",
     "expired": "This link has expired",
     "revoked": "This link has been withdrawn",
+    "throttled": "Too many unrecognised links",
 }
+STATUS = {"unknown": 404, "throttled": 429}
 # A page of a share link or a verification answer must not be kept by shared caches or
 # leak the token to other sites through the Referer header.
 PRIVATE = {"Cache-Control": "private, no-store", "Referrer-Policy": "no-referrer"}
@@ -75,26 +80,37 @@ def ags4_response(request: Request, report_id: int) -> Response:
 
 def _open(request: Request, token: str, what: str = "") -> ClientView:
     """Open the link and log the access; the log names the page without the token (only the
-    token's hash is ever stored)."""
-    return open_link(
+    token's hash is ever stored). Unrecognised tokens count against the address, and an address
+    past its throttle is refused before the token is looked up, so links cannot be guessed."""
+    address, throttle = client_address(request), throttles(request).token_address
+    wait = throttle.wait(address)
+    if wait:
+        request.state.retry_after = wait
+        return ClientView("throttled")
+    view = open_link(
         database(request),
         token,
         path=f"/share/…{what}",
-        remote_addr=request.client.host if request.client else "",
+        remote_addr=address,
         user_agent=request.headers.get("user-agent", ""),
     )
+    if view.refused == "unknown":
+        throttle.fail(address)
+    return view
 
 
 def _refused(request: Request, reason: str) -> Response:
     response = render(
         request,
         "pages/share_refused.html",
-        status_code=404 if reason == "unknown" else 410,
+        status_code=STATUS.get(reason, 410),
         headline=HEADLINES[reason],
         reason=REFUSALS[reason],
         user=None,
     )
     response.headers.update(PRIVATE)
+    if reason == "throttled":
+        response.headers["Retry-After"] = str(request.state.retry_after)
     return response
 
 

@@ -14,6 +14,7 @@ from server.services import links, reports
 from server.services.errors import ServiceError, http_status
 from server.web.forms import record_id, refusal_of
 from server.web.job_page import job_page_response
+from server.web.refusals import refusals_as_http
 from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
@@ -132,10 +133,8 @@ def job_links_page(request: Request, job_id: int, user: Checker) -> Response:
 
 
 def _job_links(request: Request, job_id: int, status_code: int = 200, **extra: object) -> Response:
-    try:
+    with refusals_as_http():
         found = links.job_links(database(request), job_id)
-    except ServiceError as exc:
-        raise HTTPException(http_status(exc), str(exc)) from exc
     return render(request, "pages/job_links.html", status_code=status_code, found=found, **extra)
 
 

@@ -9,7 +9,8 @@ from fastapi.responses import RedirectResponse
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, sign_in, sign_out, signed_in_user
-from server.services.users import authenticate
+from server.auth.throttle import client_address, throttles
+from server.services.users import USERNAME_MAX, authenticate, record_refused_sign_in
 from server.web.templating import render
 
 router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
@@ -43,8 +44,31 @@ def signin(
     password: Annotated[str, Form()],
     next: Annotated[str, Form()] = "/",
 ) -> Response:
-    user = authenticate(database(request), username, password)
+    """Check the password unless the account or the address is waiting out its failures.
+
+    The throttle keys on the name as typed, whether or not such a user exists, and a refusal
+    reads the same for every cause, so neither the answer nor its timing tells which names
+    exist. Every refusal is written to the audit trail for the admins."""
+    db, address = database(request), client_address(request)
+    account = username.strip().lower()[: USERNAME_MAX + 1]
+    found = throttles(request)
+    wait = max(found.signin_account.wait(account), found.signin_address.wait(address))
+    if wait:
+        record_refused_sign_in(db, username, address, "throttled")
+        response = render(
+            request,
+            "pages/signin.html",
+            status_code=429,
+            next=_safe_next(next),
+            error=f"Too many failed sign-ins: try again in {_duration(wait)}.",
+        )
+        response.headers["Retry-After"] = str(wait)
+        return response
+    user = authenticate(db, username, password)
     if user is None:
+        found.signin_account.fail(account)
+        found.signin_address.fail(address)
+        record_refused_sign_in(db, username, address, "refused")
         return render(
             request,
             "pages/signin.html",
@@ -54,6 +78,10 @@ def signin(
         )
     sign_in(request, user)
     return RedirectResponse(_safe_next(next), status_code=303)
+
+
+def _duration(seconds: int) -> str:
+    return f"{seconds} seconds" if seconds < 120 else f"{-(-seconds // 60)} minutes"
 
 
 @router.post("/signout")

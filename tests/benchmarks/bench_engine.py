@@ -47,12 +47,17 @@ METHOD_ORDER = ("atterberg", "grading", "vane", "unconfined-compression", "class
 
 # -- generation (fictional soils; none of this is timed) --------------------------------------------
 
+
 def _determination(rng: random.Random, w: float) -> Readings:
     """A mass determination giving water content ``w`` % (ASTM D2216 formula), masses to 0.01 g."""
     tare = round(rng.uniform(10.0, 20.0), 2)
     dry = rng.uniform(15.0, 40.0)
-    return {"container": f"T-{rng.randint(1, 99)}", "tare_g": tare, "dry_tare_g": round(tare + dry, 2),
-            "wet_tare_g": round(tare + dry * (1.0 + w / 100.0), 2)}
+    return {
+        "container": f"T-{rng.randint(1, 99)}",
+        "tare_g": tare,
+        "dry_tare_g": round(tare + dry, 2),
+        "wet_tare_g": round(tare + dry * (1.0 + w / 100.0), 2),
+    }
 
 
 def _liquid_limit(rng: random.Random, ll: float) -> Readings:
@@ -60,8 +65,10 @@ def _liquid_limit(rng: random.Random, ll: float) -> Readings:
     if kind < 0.5:  # cup, multipoint: one blow count in each D4318 band, flow index 5-20
         flow = rng.uniform(5.0, 20.0)
         blows = [rng.randint(26, 34), rng.randint(21, 29), rng.randint(16, 24)]
-        trials = [{"blows": n, **_determination(rng, ll - flow * math.log10(n / 25.0) + rng.gauss(0.0, 0.15))}
-                  for n in blows]
+        trials = [
+            {"blows": n, **_determination(rng, ll - flow * math.log10(n / 25.0) + rng.gauss(0.0, 0.15))}
+            for n in blows
+        ]
         return {"method": "ll-cup-multipoint", "trials": trials}
     if kind < 0.75:  # cup, one point: two trials, N 20-30, LL = w (N/25)^0.121
         trials = []
@@ -85,13 +92,19 @@ def _grading(rng: random.Random, fines: float, sand: float, gravel: float, clay:
     """Sieving of 500 g washed on 75 µm, and a 50 g hydrometer specimen of the soil passing 2 mm."""
     sand_share = {2.0: 0.85, 0.85: 0.65, 0.425: 0.45, 0.25: 0.3, 0.15: 0.15, 0.075: 0.0}
     gravel_share = {37.5: 1.0, 19.0: 0.7, 9.5: 0.3, 4.75: 0.0}
-    passing = [100.0 - gravel * (1.0 - gravel_share[s]) if s in gravel_share else fines + sand * sand_share[s]
-               for s in SIEVES_MM]
+    passing = [
+        100.0 - gravel * (1.0 - gravel_share[s]) if s in gravel_share else fines + sand * sand_share[s]
+        for s in SIEVES_MM
+    ]
     dry = 500.0
     retained = [round((a - b) * dry / 100.0, 1) for a, b in zip([100.0, *passing[:-1]], passing, strict=True)]
     pan = round(rng.uniform(0.2, 1.5), 1)
-    sieve = {"dry_mass_g": dry, "washed_dry_mass_g": round(sum(retained) + pan, 1), "pan_g": pan,
-             "sieves": [{"size_mm": s, "retained_g": m} for s, m in zip(SIEVES_MM, retained, strict=True)]}
+    sieve = {
+        "dry_mass_g": dry,
+        "washed_dry_mass_g": round(sum(retained) + pan, 1),
+        "pan_g": pan,
+        "sieves": [{"size_mm": s, "retained_g": m} for s, m in zip(SIEVES_MM, retained, strict=True)],
+    }
     p2 = passing[SIEVES_MM.index(2.0)]
     first, last = 0.95 * fines / p2 * 100.0, 0.8 * clay / p2 * 100.0  # % of the specimen
     minutes = (1, 2, 5, 15, 30, 60, 250, 1440)
@@ -99,10 +112,20 @@ def _grading(rng: random.Random, fines: float, sand: float, gravel: float, clay:
     readings = []
     for m in minutes:
         pct = first + (last - first) * math.log(m) / span
-        readings.append({"minutes": m, "reading": round(5.0 + pct * 0.5, 1),  # Gs 2.65: a = 1, W 50 g
-                         "temperature_c": round(rng.uniform(19.5, 22.5), 1)})
-    hydrometer = {"dry_mass_g": 50.0, "specific_gravity": 2.65, "meniscus_correction": 1.0,
-                  "zero_readings": [{"temperature_c": 20.0, "reading": 5.0}], "readings": readings}
+        readings.append(
+            {
+                "minutes": m,
+                "reading": round(5.0 + pct * 0.5, 1),  # Gs 2.65: a = 1, W 50 g
+                "temperature_c": round(rng.uniform(19.5, 22.5), 1),
+            }
+        )
+    hydrometer = {
+        "dry_mass_g": 50.0,
+        "specific_gravity": 2.65,
+        "meniscus_correction": 1.0,
+        "zero_readings": [{"temperature_c": 20.0, "reading": 5.0}],
+        "readings": readings,
+    }
     return {"sieve": sieve, "hydrometer": hydrometer}
 
 
@@ -110,8 +133,13 @@ def _vane(rng: random.Random, cu: float, st: float) -> Readings:
     """Torques for cu (kPa) on a 12.7 x 25.4 mm vane: T = cu pi D^2 (H/2 + D/6) (REFERENCES.md)."""
     d, h = 0.0127, 0.0254
     k = math.pi * d * d * (h / 2.0 + d / 6.0) * 1000.0  # N·m per kPa
-    return {"diameter_mm": 12.7, "height_mm": 25.4, "torque_resolution_nm": 0.0001,
-            "undisturbed": {"torque_nm": round(cu * k, 4)}, "remoulded": {"torque_nm": round(cu / st * k, 4)}}
+    return {
+        "diameter_mm": 12.7,
+        "height_mm": 25.4,
+        "torque_resolution_nm": 0.0001,
+        "undisturbed": {"torque_nm": round(cu * k, 4)},
+        "remoulded": {"torque_nm": round(cu / st * k, 4)},
+    }
 
 
 def _ucs_specimen(qu: float, strain_at_peak: float) -> Readings:
@@ -122,8 +150,9 @@ def _ucs_specimen(qu: float, strain_at_peak: float) -> Readings:
     for i in range(31):
         e = i * 0.005
         stress = qu * (e / strain_at_peak) * math.exp(1.0 - e / strain_at_peak)
-        readings.append({"deformation_mm": round(e * h, 2),
-                         "load_n": round(stress * 1000.0 * area0 / (1.0 - e), 1)})
+        readings.append(
+            {"deformation_mm": round(e * h, 2), "load_n": round(stress * 1000.0 * area0 / (1.0 - e), 1)}
+        )
     return {"diameter_mm": d, "height_mm": h, "readings": readings}
 
 
@@ -141,21 +170,26 @@ def generate(n: int, seed: int) -> list[dict[str, Readings]]:
         clay = rng.uniform(0.15, 0.6) * fines
         cu = rng.uniform(10.0, 120.0)
         st = rng.uniform(1.5, 8.0)
-        samples.append({
-            "atterberg": {
-                "water_content": {"determinations": [_determination(rng, w), _determination(rng, w + 0.3)]},
-                "liquid_limit": _liquid_limit(rng, ll),
-                "plastic_limit": {"determinations": [_determination(rng, pl - 0.1),
-                                                     _determination(rng, pl + 0.1)]},
-            },
-            "grading": _grading(rng, fines, sand, gravel, clay),
-            "vane": _vane(rng, cu, st),
-            "unconfined-compression": {
-                "undisturbed": _ucs_specimen(2.0 * cu, rng.uniform(0.03, 0.08)),
-                "remoulded": _ucs_specimen(2.0 * cu / st, rng.uniform(0.08, 0.12)),
-                "load_resolution_n": 0.1,
-            },
-        })
+        samples.append(
+            {
+                "atterberg": {
+                    "water_content": {
+                        "determinations": [_determination(rng, w), _determination(rng, w + 0.3)]
+                    },
+                    "liquid_limit": _liquid_limit(rng, ll),
+                    "plastic_limit": {
+                        "determinations": [_determination(rng, pl - 0.1), _determination(rng, pl + 0.1)]
+                    },
+                },
+                "grading": _grading(rng, fines, sand, gravel, clay),
+                "vane": _vane(rng, cu, st),
+                "unconfined-compression": {
+                    "undisturbed": _ucs_specimen(2.0 * cu, rng.uniform(0.03, 0.08)),
+                    "remoulded": _ucs_specimen(2.0 * cu / st, rng.uniform(0.08, 0.12)),
+                    "load_resolution_n": 0.1,
+                },
+            }
+        )
     return samples
 
 
@@ -177,8 +211,10 @@ def prepare(samples: list[dict[str, Readings]], methods: list[str]) -> None:
         if a.get("nonplastic"):
             limits = {"nonplastic": True}
         elif "liquid_limit" in a:
-            limits = {"liquid_limit": reported_limit(a["liquid_limit"]),
-                      "plastic_limit": reported_limit(a["plastic_limit"])}
+            limits = {
+                "liquid_limit": reported_limit(a["liquid_limit"]),
+                "plastic_limit": reported_limit(a["plastic_limit"]),
+            }
         else:
             limits = {"liquid_limit": 45.0, "plastic_limit": 22.0}  # atterberg not registered
         sample["classification"] = {**limits, **fractions}
@@ -195,8 +231,10 @@ def _accepted(method_id: str, readings: Readings, i: int) -> dict[str, Any]:
 
 # -- timing ---------------------------------------------------------------------------------------
 
-def run(samples: list[dict[str, Readings]], methods: list[str],
-        clock: Callable[[], int] = time.perf_counter_ns) -> tuple[dict[str, list[int]], list[int]]:
+
+def run(
+    samples: list[dict[str, Readings]], methods: list[str], clock: Callable[[], int] = time.perf_counter_ns
+) -> tuple[dict[str, list[int]], list[int]]:
     """Time ``calculate`` per method and per sample (ns); the full set of one sample at a time."""
     per_method: dict[str, list[int]] = {m: [] for m in methods}
     per_sample: list[int] = []
@@ -217,17 +255,24 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0] if __doc__ else None)
     parser.add_argument("--samples", type=int, default=10_000, help="number of samples (default 10000)")
     parser.add_argument("--seed", type=int, default=2487, help="seed of the generator (default 2487)")
-    parser.add_argument("--clock", choices=("cpu", "wall"), default="cpu",
-                        help="cpu: this process's CPU time, steady on a busy machine (default)")
-    parser.add_argument("--check", action="store_true",
-                        help=f"exit 1 when the mean time per sample is {TARGET_MS} ms or more")
+    parser.add_argument(
+        "--clock",
+        choices=("cpu", "wall"),
+        default="cpu",
+        help="cpu: this process's CPU time, steady on a busy machine (default)",
+    )
+    parser.add_argument(
+        "--check", action="store_true", help=f"exit 1 when the mean time per sample is {TARGET_MS} ms or more"
+    )
     args = parser.parse_args(argv)
 
     methods = [m for m in METHOD_ORDER if m in METHODS]
     missing = [m for m in METHOD_ORDER if m not in METHODS]
     print(f"engine benchmark: {args.samples} samples, seed {args.seed}, Python {sys.version.split()[0]}")
-    print(f"methods: {', '.join(methods)}" + (f"  (not registered, skipped: {', '.join(missing)})"
-                                              if missing else ""))
+    print(
+        f"methods: {', '.join(methods)}"
+        + (f"  (not registered, skipped: {', '.join(missing)})" if missing else "")
+    )
 
     t0 = time.perf_counter()
     samples = generate(args.samples, args.seed)
@@ -251,10 +296,14 @@ def main(argv: list[str] | None = None) -> int:
     for m in methods:
         times = per_method[m]
         pq = statistics.quantiles(times, n=100) if n >= 2 else [times[0]] * 99
-        print(f"{m:<24}{statistics.fmean(times) / 1e3:>10.1f}{statistics.median(times) / 1e3:>11.1f}"
-              f"{pq[94] / 1e3:>9.1f}{100.0 * sum(times) / total_ns:>7.1f}%")
-    print(f"{'full set per sample':<24}{mean_ms * 1e3:>10.1f}{statistics.median(per_sample) / 1e3:>11.1f}"
-          f"{q[94] / 1e3:>9.1f}{100.0:>7.1f}%")
+        print(
+            f"{m:<24}{statistics.fmean(times) / 1e3:>10.1f}{statistics.median(times) / 1e3:>11.1f}"
+            f"{pq[94] / 1e3:>9.1f}{100.0 * sum(times) / total_ns:>7.1f}%"
+        )
+    print(
+        f"{'full set per sample':<24}{mean_ms * 1e3:>10.1f}{statistics.median(per_sample) / 1e3:>11.1f}"
+        f"{q[94] / 1e3:>9.1f}{100.0:>7.1f}%"
+    )
     verdict = "within" if mean_ms < TARGET_MS else "OVER"
     print()
     print(f"time per sample: {mean_ms:.3f} ms (mean), target {TARGET_MS} ms: {verdict} target")

@@ -72,8 +72,16 @@ def build_job(db: Database, n: int, seed: int) -> tuple[int, User]:
     for i, sample_readings in enumerate(readings):
         loc = locations[i % len(locations)]
         depth = 0.5 + 1.5 * (i // len(locations))
-        sample = samples.add_sample(db, reviewer, loc.id or 0, f"{loc.code}-S{i // len(locations) + 1:02d}",
-                                 depth, depth + 0.45, "U100", "Firm brown silty CLAY (fictional)")
+        sample = samples.add_sample(
+            db,
+            reviewer,
+            loc.id or 0,
+            f"{loc.code}-S{i // len(locations) + 1:02d}",
+            depth,
+            depth + 0.45,
+            "U100",
+            "Firm brown silty CLAY (fictional)",
+        )
         methods = ["atterberg"]
         if i % 5 == 0:
             methods += ["grading", "classification"]
@@ -89,8 +97,9 @@ def build_job(db: Database, n: int, seed: int) -> tuple[int, User]:
 def same_html(db: Database, report: Report, issuer: User) -> str:
     """The final HTML of an issued report, rebuilt from its records (checked by its fingerprint)."""
     with db.session() as s:
-        data, _ = reports.new_report_data(s, report.job_id, issuer, report.issued_at, BASE_URL,
-                                          number=report.number)
+        data, _ = reports.new_report_data(
+            s, report.job_id, issuer, report.issued_at, BASE_URL, number=report.number
+        )
     if content_fingerprint(data) != report.fingerprint:
         raise SystemExit("the rebuilt report data differ from the issued report's")
     return render_report_html(data)
@@ -114,8 +123,12 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--samples", type=int, default=60, help="samples in the job (default 60)")
     parser.add_argument("--repeat", type=int, default=3, help="timed rounds (default 3)")
     parser.add_argument("--seed", type=int, default=2611, help="seed of the readings (default 2611)")
-    parser.add_argument("--clock", choices=("cpu", "wall"), default="cpu",
-                        help="cpu: this process's CPU time, steady on a busy machine (default)")
+    parser.add_argument(
+        "--clock",
+        choices=("cpu", "wall"),
+        default="cpu",
+        help="cpu: this process's CPU time, steady on a busy machine (default)",
+    )
     parser.add_argument("--smoke", action="store_true", help="CI smoke run: 4 samples, 1 round")
     parser.add_argument("--check", action="store_true", help=f"exit 1 when the ratio is above {TARGET_RATIO}")
     args = parser.parse_args(argv)
@@ -130,8 +143,10 @@ def main(argv: list[str] | None = None) -> int:
             t0 = time.perf_counter()
             job_id, issuer = build_job(db, args.samples, args.seed)
             built = time.perf_counter() - t0
-            print(f"report benchmark: {args.samples} samples, {args.repeat} round(s), "
-                  f"Python {sys.version.split()[0]}; job built in {built:.1f} s (not timed)")
+            print(
+                f"report benchmark: {args.samples} samples, {args.repeat} round(s), "
+                f"Python {sys.version.split()[0]}; job built in {built:.1f} s (not timed)"
+            )
             # Warm-up: fonts, templates and imports load once per process, for both contenders.
             warm = reports.issue_report(db, issuer, job_id, BASE_URL, password=PASSWORD)
             with db.session() as s:
@@ -142,8 +157,10 @@ def main(argv: list[str] | None = None) -> int:
             alone = weasyprint_alone(html, epoch)
             identical = hashlib.sha256(alone).hexdigest() == stored.sha256
             pages = len(PdfReader(BytesIO(stored.pdf)).pages)
-            print(f"report: {pages} pages, {len(stored.pdf) / 1e6:.2f} MB; WeasyPrint alone gives the "
-                  f"same bytes as the issued PDF: {'yes' if identical else 'NO'}")
+            print(
+                f"report: {pages} pages, {len(stored.pdf) / 1e6:.2f} MB; WeasyPrint alone gives the "
+                f"same bytes as the issued PDF: {'yes' if identical else 'NO'}"
+            )
 
             clock = time.process_time if args.clock == "cpu" else time.perf_counter
             issue_s: list[float] = []

@@ -52,11 +52,14 @@ def _run_together(work: Callable[[int], None], threads: int = 2) -> list[BaseExc
 
 
 @sqlite_only
-@pytest.mark.parametrize(("pragma", "expected"), [
-    ("journal_mode", "wal"),  # readers never block the writer (sqlite.org/wal.html)
-    ("foreign_keys", 1),  # off by default in SQLite (sqlite.org/foreignkeys.html section 2)
-    ("busy_timeout", 5000),  # ms a writer waits for another's lock (common practice)
-])
+@pytest.mark.parametrize(
+    ("pragma", "expected"),
+    [
+        ("journal_mode", "wal"),  # readers never block the writer (sqlite.org/wal.html)
+        ("foreign_keys", 1),  # off by default in SQLite (sqlite.org/foreignkeys.html section 2)
+        ("busy_timeout", 5000),  # ms a writer waits for another's lock (common practice)
+    ],
+)
 def test_every_sqlite_connection_gets_the_apps_pragmas(db: Database, pragma: str, expected: object) -> None:
     # Two connections at once, so the second comes from a fresh connect, not the first one reused.
     with db.engine.connect() as first, db.engine.connect() as second:

@@ -98,8 +98,13 @@ def test_a_cone_liquid_limit_typed_on_a_tablet_survives_a_reload_and_is_handed_i
     page.goto(f"/tests/{test.id}")
     page.get_by_text("80 g / 30° cone").click()
     trials = [
-        {"penetration_mm.0": t["penetration_mm"][0], "penetration_mm.1": t["penetration_mm"][1],
-         "tare_g": t["tare_g"], "wet_tare_g": t["wet_tare_g"], "dry_tare_g": t["dry_tare_g"]}
+        {
+            "penetration_mm.0": t["penetration_mm"][0],
+            "penetration_mm.1": t["penetration_mm"][1],
+            "tare_g": t["tare_g"],
+            "wet_tare_g": t["wet_tare_g"],
+            "dry_tare_g": t["dry_tare_g"],
+        }
         for t in example["trials"]
     ]
     first = rows("trials", trials[:2])
@@ -129,8 +134,14 @@ def test_a_hydrometer_test_typed_on_a_tablet_survives_a_reload_and_is_handed_in(
     page.goto(f"/tests/{test.id}")
     specimen = {
         key: example[key]
-        for key in ("dry_mass_g", "specific_gravity", "meniscus_correction", "separation_sieve_mm",
-                    "separation_passing_pct", "passing_75um_pct")
+        for key in (
+            "dry_mass_g",
+            "specific_gravity",
+            "meniscus_correction",
+            "separation_sieve_mm",
+            "separation_passing_pct",
+            "passing_75um_pct",
+        )
     }
     type_in(page, {**specimen, "hydrometer.id": "H-04", **rows("zero_readings", example["zero_readings"])})
     page.get_by_text("152H (g/L)").click()

@@ -16,21 +16,37 @@ from server.engine import calculate, evaluate
 
 def det(w: float, dry_soil_g: float = 20.0, tare_g: float = 10.0) -> dict[str, float]:
     """Masses that give water content ``w`` exactly, by the ASTM D2216 formula."""
-    return {"tare_g": tare_g, "dry_tare_g": tare_g + dry_soil_g,
-            "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100)}
+    return {
+        "tare_g": tare_g,
+        "dry_tare_g": tare_g + dry_soil_g,
+        "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100),
+    }
 
 
 # Das (multipoint problem) for the liquid limit; Liu & Evett (worked example) for the plastic limit.
-DAS_LL = {"method": "ll-cup-multipoint",
-          "trials": [{"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}]}
-LIU_EVETT_PL = {"determinations": [{"tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
-                                   {"tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57}]}
+DAS_LL = {
+    "method": "ll-cup-multipoint",
+    "trials": [{"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}],
+}
+LIU_EVETT_PL = {
+    "determinations": [
+        {"tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
+        {"tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57},
+    ]
+}
 
 
 def full_set(**extra: Any) -> dict[str, Any]:
-    return {"water_content": {"determinations": [det(35.0), det(35.4)]},
-            "liquid_limit": DAS_LL, "plastic_limit": LIU_EVETT_PL,
-            "clay_fraction": 31.0, "fines": 86.0, "sand": 12.0, "gravel": 2.0, **extra}
+    return {
+        "water_content": {"determinations": [det(35.0), det(35.4)]},
+        "liquid_limit": DAS_LL,
+        "plastic_limit": LIU_EVETT_PL,
+        "clay_fraction": 31.0,
+        "fines": 86.0,
+        "sand": 12.0,
+        "gravel": 2.0,
+        **extra,
+    }
 
 
 def test_full_set_gives_limits_and_indices_from_the_published_examples() -> None:
@@ -58,10 +74,25 @@ def test_full_set_reads_the_uscs_symbol_off_the_plasticity_chart() -> None:
 
 def test_full_set_keeps_the_agreed_result_keys() -> None:
     r = calculate("atterberg", full_set()).results
-    for key in ("water_content", "water_content_determinations", "liquid_limit", "flow_index",
-                "liquid_limit_method", "liquid_limit_trials", "flow_curve", "plastic_limit",
-                "plastic_limit_determinations", "plasticity_index", "nonplastic", "liquidity_index",
-                "consistency_index", "activity", "clay_fraction", "uscs_symbol", "plasticity_chart"):
+    for key in (
+        "water_content",
+        "water_content_determinations",
+        "liquid_limit",
+        "flow_index",
+        "liquid_limit_method",
+        "liquid_limit_trials",
+        "flow_curve",
+        "plastic_limit",
+        "plastic_limit_determinations",
+        "plasticity_index",
+        "nonplastic",
+        "liquidity_index",
+        "consistency_index",
+        "activity",
+        "clay_fraction",
+        "uscs_symbol",
+        "plasticity_chart",
+    ):
         assert key in r, key
     assert r["liquid_limit_method"] == "ll-cup-multipoint"
     assert set(r["flow_curve"]) == {"x", "log_x", "slope", "intercept", "r2", "target_x"}
@@ -128,6 +159,7 @@ def test_leaves_the_uscs_symbol_to_the_classification_of_a_coarse_soil() -> None
 
 # -- quality flags --------------------------------------------------------------------------------
 
+
 def test_flags_a_point_above_the_u_line_as_suspect() -> None:
     # ASTM D2487 Fig. 4: U-line PI = 0.9 (LL - 8) = 28.8 at LL 40; PL 10 gives PI 30, above it.
     ev = calculate("atterberg", full_set(plastic_limit={"determinations": [det(10.0), det(10.2)]}))
@@ -179,15 +211,24 @@ def test_gives_no_activity_for_a_clay_fraction_of_zero() -> None:
 def test_descriptors_and_interpretation_are_kept_apart_from_measured_results() -> None:
     r = calculate("atterberg", full_set()).results
     # Burmister (1949) PI 19 medium; ISO 14688-2 CI 0.25 soft; Skempton (1953) A 0.61 inactive.
-    assert r["descriptors"] == {"plasticity": "medium", "state": "plastic", "consistency": "soft",
-                                "activity": "inactive"}
+    assert r["descriptors"] == {
+        "plasticity": "medium",
+        "state": "plastic",
+        "consistency": "soft",
+        "activity": "inactive",
+    }
     assert all("indicative" in e["basis"] for e in r["interpretation"].values())
 
 
 def test_full_set_runs_with_a_cone_liquid_limit() -> None:
     # Points on w = 30 + 1.5 (p - 20) (constructed): LL 30 at 20 mm (BS 1377-2:1990 cl. 4.3).
-    ll = {"method": "ll-cone", "cone": "80g-30deg", "trials": [
-        {"penetration_mm": [p, p], **det(30.0 + 1.5 * (p - 20.0))} for p in (16.0, 18.5, 21.0, 23.5)]}
+    ll = {
+        "method": "ll-cone",
+        "cone": "80g-30deg",
+        "trials": [
+            {"penetration_mm": [p, p], **det(30.0 + 1.5 * (p - 20.0))} for p in (16.0, 18.5, 21.0, 23.5)
+        ],
+    }
     r = calculate("atterberg", full_set(liquid_limit=ll)).results
     assert r["liquid_limit"] == pytest.approx(30.0)
     assert r["liquid_limit_method"] == "ll-cone"
@@ -251,10 +292,16 @@ def test_every_bad_mass_is_refused_at_its_place(path: tuple[Any, ...], bad: obje
 
 
 @settings(database=None, max_examples=60)
-@given(trial=st.integers(0, 2), bad=st.one_of(
-    st.integers(max_value=0), st.integers(min_value=101),
-    st.floats(1.01, 99.99).filter(lambda x: x != int(x)),
-    st.text(max_size=6).filter(_not_a_number).filter(lambda t: t.strip() != ""), st.booleans()))
+@given(
+    trial=st.integers(0, 2),
+    bad=st.one_of(
+        st.integers(max_value=0),
+        st.integers(min_value=101),
+        st.floats(1.01, 99.99).filter(lambda x: x != int(x)),
+        st.text(max_size=6).filter(_not_a_number).filter(lambda t: t.strip() != ""),
+        st.booleans(),
+    ),
+)
 def test_every_bad_blow_count_is_refused_at_its_place(trial: int, bad: object) -> None:
     readings = copy.deepcopy(full_set())
     readings["liquid_limit"]["trials"][trial]["blows"] = bad
@@ -274,6 +321,7 @@ def test_every_dry_mass_above_its_wet_mass_is_refused(path: tuple[Any, ...], exc
 
 
 # -- speed ----------------------------------------------------------------------------------------
+
 
 def test_a_full_set_is_computed_in_well_under_a_millisecond() -> None:
     # Aim (brief): well under 0.1 ms per full Atterberg set on a quiet machine. The bound here is

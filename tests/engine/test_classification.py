@@ -219,7 +219,8 @@ def test_coarse_soils_with_5_to_12_percent_fines_get_dual_symbols(
 def test_poorly_graded_dual_symbol_uses_p() -> None:
     # ASTM D2487 Table 1 (REFERENCES.md): Cu < 6 for a sand is poorly graded.
     assert uscs(41.0, 19.0, fines=8.0, sand=82.0, gravel=10.0, cu=3.0, cc=1.0) == Uscs(
-        "SP-SC", "Poorly graded sand with clay")
+        "SP-SC", "Poorly graded sand with clay"
+    )
 
 
 @pytest.mark.parametrize(
@@ -248,7 +249,8 @@ def test_coarse_soil_with_nonplastic_fines_is_silty() -> None:
 def test_coarse_soil_with_organic_fines_says_so_in_its_name() -> None:
     # ASTM D2487 Table 1 footnote (from memory): "If fines are organic, add 'with organic fines'".
     assert uscs(41.0, 19.0, fines=20.0, sand=75.0, gravel=5.0, ll_oven_dried=25.0) == Uscs(
-        "SC", "Clayey sand with organic fines")
+        "SC", "Clayey sand with organic fines"
+    )
 
 
 def test_missing_sand_or_gravel_is_the_remainder() -> None:
@@ -325,8 +327,13 @@ def test_gravel_and_sand_nearly_equal_give_a_gm_sm_borderline() -> None:
     ],
 )
 def test_aashto_groups_by_left_to_right_elimination(
-    fines: float, ll: float | None, pi: float | None, p2: float | None, p0425: float | None,
-    nonplastic: bool, group: str,
+    fines: float,
+    ll: float | None,
+    pi: float | None,
+    p2: float | None,
+    p0425: float | None,
+    nonplastic: bool,
+    group: str,
 ) -> None:
     result = aashto(fines, ll, pi, passing_2mm=p2, passing_0425mm=p0425, nonplastic=nonplastic)
     assert result.group == group
@@ -412,8 +419,14 @@ def test_every_soil_with_sieve_data_gets_one_aashto_group_with_a_non_negative_in
 # The classification method
 # ==================================================================================================
 
-LEAN_CLAY = {"liquid_limit": 41.0, "plastic_limit": 22.0, "nonplastic": False,
-             "fines": 86.0, "sand": 12.0, "gravel": 2.0}
+LEAN_CLAY = {
+    "liquid_limit": 41.0,
+    "plastic_limit": 22.0,
+    "nonplastic": False,
+    "fines": 86.0,
+    "sand": 12.0,
+    "gravel": 2.0,
+}
 
 
 def test_classifies_the_lean_clay_of_the_readings_example() -> None:
@@ -434,10 +447,15 @@ def test_classifies_the_lean_clay_of_the_readings_example() -> None:
 
 def test_classifies_the_published_mh_example_through_the_method() -> None:
     # REFERENCES.md worked examples: 54.3 % fines, LL 53.5, PL 31.6 -> MH; A-7-5(10) (Das).
-    ev = calculate("classification", {"liquid_limit": 53.5, "plastic_limit": 31.6, "fines": 54.3,
-                                      "sand": 45.7, "gravel": 0.0})
+    ev = calculate(
+        "classification",
+        {"liquid_limit": 53.5, "plastic_limit": 31.6, "fines": 54.3, "sand": 45.7, "gravel": 0.0},
+    )
     assert (ev.results["uscs_symbol"], ev.results["aashto_group"], ev.results["group_index"]) == (
-        "MH", "A-7-5", 10)
+        "MH",
+        "A-7-5",
+        10,
+    )
 
 
 def test_plastic_limit_above_the_liquid_limit_is_nonplastic_not_an_error() -> None:
@@ -450,16 +468,30 @@ def test_plastic_limit_above_the_liquid_limit_is_nonplastic_not_an_error() -> No
 
 
 def test_plasticity_index_may_be_given_instead_of_the_plastic_limit() -> None:
-    ev = calculate("classification", {"liquid_limit": 55.0, "plasticity_index": 28.0, "fines": 86.0,
-                                      "sand": 12.0, "gravel": 2.0})
+    ev = calculate(
+        "classification",
+        {"liquid_limit": 55.0, "plasticity_index": 28.0, "fines": 86.0, "sand": 12.0, "gravel": 2.0},
+    )
     assert ev.results["uscs_symbol"] == "CH"  # REFERENCES.md worked example
 
 
 def test_dual_symbol_soil_from_grain_diameters() -> None:
     # Cu = 0.7 / 0.1 = 7, Cc = 0.3^2 / (0.1 x 0.7) = 1.29 -> well graded sand (REFERENCES.md).
-    ev = calculate("classification", {"liquid_limit": 24.0, "plastic_limit": 21.0, "fines": 7.0, "sand": 80.0,
-                                      "gravel": 13.0, "d10_mm": 0.1, "d30_mm": 0.3, "d60_mm": 0.7,
-                                      "percent_passing_2mm": 85.0, "percent_passing_0_425mm": 40.0})
+    ev = calculate(
+        "classification",
+        {
+            "liquid_limit": 24.0,
+            "plastic_limit": 21.0,
+            "fines": 7.0,
+            "sand": 80.0,
+            "gravel": 13.0,
+            "d10_mm": 0.1,
+            "d30_mm": 0.3,
+            "d60_mm": 0.7,
+            "percent_passing_2mm": 85.0,
+            "percent_passing_0_425mm": 40.0,
+        },
+    )
     assert ev.results["uscs_symbol"] == "SW-SM"
     assert ev.results["uscs_name"] == "Well-graded sand with silt"
     assert ev.results["aashto_group"] == "A-1-b"  # F <= 25, 0.425 mm <= 50, PI 3 <= 6 (M 145)
@@ -467,8 +499,14 @@ def test_dual_symbol_soil_from_grain_diameters() -> None:
 
 def test_organic_soil_reports_the_ratio() -> None:
     # ASTM D2487: 41 / 62 = 0.66 < 0.75 -> organic; below the A-line at LL 62 (30.7) -> OH silt.
-    readings = {"liquid_limit": 62.0, "plastic_limit": 38.0, "liquid_limit_oven_dried": 41.0,
-                "fines": 93.0, "sand": 7.0, "gravel": 0.0}
+    readings = {
+        "liquid_limit": 62.0,
+        "plastic_limit": 38.0,
+        "liquid_limit_oven_dried": 41.0,
+        "fines": 93.0,
+        "sand": 7.0,
+        "gravel": 0.0,
+    }
     ev = calculate("classification", readings)
     assert ev.results["uscs_symbol"] == "OH"
     assert ev.results["uscs_name"] == "Organic silt"
@@ -483,8 +521,18 @@ def test_peat_needs_no_other_reading() -> None:
 
 def test_missing_aashto_sieves_leave_the_aashto_group_out_with_a_warning() -> None:
     # M 145: PI 3 <= 6 with 7 % fines could be A-1 -> needs 2 mm and 0.425 mm; USCS does not.
-    ev = calculate("classification", {"liquid_limit": 40.0, "plastic_limit": 37.0, "fines": 7.0, "sand": 80.0,
-                                      "gravel": 13.0, "cu": 6.0, "cc": 1.5})
+    ev = calculate(
+        "classification",
+        {
+            "liquid_limit": 40.0,
+            "plastic_limit": 37.0,
+            "fines": 7.0,
+            "sand": 80.0,
+            "gravel": 13.0,
+            "cu": 6.0,
+            "cc": 1.5,
+        },
+    )
     assert ev.results["uscs_symbol"] == "SW-SM"
     assert "aashto_group" not in ev.results
     assert [f.code for f in ev.flags] == ["aashto-not-classified"]
@@ -492,8 +540,10 @@ def test_missing_aashto_sieves_leave_the_aashto_group_out_with_a_warning() -> No
 
 def test_flags_a_point_beyond_the_u_line() -> None:
     # ASTM D2487 Fig. 4: U-line PI = 0.9 (LL - 8) = 37.8 at LL 50.
-    ev = calculate("classification", {"liquid_limit": 50.0, "plastic_limit": 10.0, "fines": 95.0,
-                                      "sand": 5.0, "gravel": 0.0})
+    ev = calculate(
+        "classification",
+        {"liquid_limit": 50.0, "plastic_limit": 10.0, "fines": 95.0, "sand": 5.0, "gravel": 0.0},
+    )
     assert "above-u-line" in [f.code for f in ev.flags]
     assert ev.results["plasticity_chart"]["beyond_u_line"] is True
 
@@ -506,8 +556,9 @@ def test_flags_a_result_near_a_group_boundary() -> None:
 
 
 def test_missing_gravel_is_the_remainder_in_the_method() -> None:
-    ev = calculate("classification", {"liquid_limit": 41.0, "plastic_limit": 22.0, "fines": 60.0,
-                                      "sand": 25.0})
+    ev = calculate(
+        "classification", {"liquid_limit": 41.0, "plastic_limit": 22.0, "fines": 60.0, "sand": 25.0}
+    )
     assert ev.results["uscs_name"] == "Sandy lean clay with gravel"  # gravel 15 % (REFERENCES.md)
 
 
@@ -545,14 +596,16 @@ def test_accepts_percent_passing_0075_in_place_of_the_fines() -> None:
 
 def test_refuses_a_finer_sieve_passing_more_than_a_coarser_one() -> None:
     assert _locs({**LEAN_CLAY, "percent_passing_2mm": 90.0, "percent_passing_0_425mm": 95.0}) == [
-        ("readings", "percent_passing_0_425mm")]
+        ("readings", "percent_passing_0_425mm")
+    ]
     assert _locs({**LEAN_CLAY, "percent_passing_0_425mm": 80.0}) == [("readings", "percent_passing_0_425mm")]
 
 
 def test_refuses_more_passing_2mm_than_is_finer_than_475mm() -> None:
     # The 2 mm sieve is finer than 4.75 mm, so it passes at most 100 % - gravel (common practice).
     assert _locs({**LEAN_CLAY, "gravel": 12.0, "sand": 2.0, "percent_passing_2mm": 95.0}) == [
-        ("readings", "percent_passing_2mm")]
+        ("readings", "percent_passing_2mm")
+    ]
 
 
 def test_refuses_a_plasticity_index_that_contradicts_the_limits() -> None:
@@ -589,19 +642,36 @@ def test_refuses_grain_diameters_out_of_order() -> None:
 
 
 def test_refuses_cu_that_contradicts_the_grain_diameters() -> None:
-    readings = {"fines": 3.0, "sand": 90.0, "gravel": 7.0, "d10_mm": 0.1, "d30_mm": 0.2, "d60_mm": 0.5,
-                "cu": 8.0, "cc": 0.8}
+    readings = {
+        "fines": 3.0,
+        "sand": 90.0,
+        "gravel": 7.0,
+        "d10_mm": 0.1,
+        "d30_mm": 0.2,
+        "d60_mm": 0.5,
+        "cu": 8.0,
+        "cc": 0.8,
+    }
     assert _locs(readings) == [("readings", "cu")]
 
 
 def test_refuses_an_oven_dried_liquid_limit_without_the_liquid_limit() -> None:
-    assert _locs({"nonplastic": True, "liquid_limit_oven_dried": 20.0, "fines": 90.0, "sand": 10.0,
-                  "gravel": 0.0}) == [("readings", "liquid_limit")]
+    assert _locs(
+        {"nonplastic": True, "liquid_limit_oven_dried": 20.0, "fines": 90.0, "sand": 10.0, "gravel": 0.0}
+    ) == [("readings", "liquid_limit")]
 
 
 def test_names_every_bad_field_at_once() -> None:
-    locs = _locs({"liquid_limit": "forty", "plastic_limit": 22.0, "fines": 86.0, "sand": 12.0, "gravel": 2.0,
-                  "cu": 0.5})
+    locs = _locs(
+        {
+            "liquid_limit": "forty",
+            "plastic_limit": 22.0,
+            "fines": 86.0,
+            "sand": 12.0,
+            "gravel": 2.0,
+            "cu": 0.5,
+        }
+    )
     assert locs == [("readings", "liquid_limit"), ("readings", "cu")]
 
 

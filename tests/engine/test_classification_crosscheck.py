@@ -74,8 +74,30 @@ class Soil:
 # Generation
 # ----------------------------------------------------------------------------------------------
 
-BOUNDARY_FINES = [0.0, 3.0, 4.9, 5.0, 8.0, 12.0, 12.1, 15.0, 20.0, 25.0, 30.0, 35.0, 36.0, 40.0,
-                  49.9, 50.0, 50.1, 54.3, 58.0, 70.0, 86.0, 100.0]
+BOUNDARY_FINES = [
+    0.0,
+    3.0,
+    4.9,
+    5.0,
+    8.0,
+    12.0,
+    12.1,
+    15.0,
+    20.0,
+    25.0,
+    30.0,
+    35.0,
+    36.0,
+    40.0,
+    49.9,
+    50.0,
+    50.1,
+    54.3,
+    58.0,
+    70.0,
+    86.0,
+    100.0,
+]
 # (D10, D30, D60) giving Cc of exactly 1 or 3, and Cu of exactly 4 or 6 (exact in binary).
 EXACT_GRADINGS = [(0.25, 1.0, 4.0), (0.25, 3.0, 12.0), (1.0, 2.0, 4.0), (1.0, 3.0, 6.0), (0.5, 1.5, 4.5)]
 
@@ -147,15 +169,32 @@ SOILS = _soils()
 # The two classifiers
 # ----------------------------------------------------------------------------------------------
 
+
 def ours_uscs(s: Soil) -> str:
-    return uscs(s.ll, None if s.nonplastic else s.pi, nonplastic=s.nonplastic, fines=s.fines, sand=s.sand,
-                gravel=s.gravel, cu=s.cu, cc=s.cc, ll_oven_dried=s.ll_oven_dried).symbol
+    return uscs(
+        s.ll,
+        None if s.nonplastic else s.pi,
+        nonplastic=s.nonplastic,
+        fines=s.fines,
+        sand=s.sand,
+        gravel=s.gravel,
+        cu=s.cu,
+        cc=s.cc,
+        ll_oven_dried=s.ll_oven_dried,
+    ).symbol
 
 
 def geolysis_uscs(s: Soil) -> str:
     clf = soil_classifier.create_uscs_classifier(
-        liquid_limit=s.ll, plastic_limit=s.ll - s.pi, fines=s.fines, sand=s.sand,
-        d_10=s.d10, d_30=s.d30, d_60=s.d60, organic=s.organic)
+        liquid_limit=s.ll,
+        plastic_limit=s.ll - s.pi,
+        fines=s.fines,
+        sand=s.sand,
+        d_10=s.d10,
+        d_30=s.d30,
+        d_60=s.d60,
+        organic=s.organic,
+    )
     return str(clf.classify().symbol)
 
 
@@ -167,6 +206,7 @@ def geolysis_aashto(s: Soil) -> tuple[str, int]:
 # ----------------------------------------------------------------------------------------------
 # USCS departures
 # ----------------------------------------------------------------------------------------------
+
 
 @dataclass(frozen=True)
 class Departure:
@@ -333,8 +373,9 @@ AASHTO_DEPARTURES: tuple[Departure, ...] = (
         "A-3 0.425 mm >= 51",
         "takes no 2 mm or 0.425 mm data: A-1-a is F <= 15 and PI <= 6, A-1-b F <= 25 and PI <= 6",
         lambda s: s.fines <= 25.0 and s.pi <= 6.0,
-        lambda _, s: aashto(s.fines, s.ll, s.pi, passing_2mm=0.0, passing_0425mm=0.0,
-                            nonplastic=s.nonplastic).group,
+        lambda _, s: (
+            aashto(s.fines, s.ll, s.pi, passing_2mm=0.0, passing_0425mm=0.0, nonplastic=s.nonplastic).group
+        ),
     ),
     Departure(
         "a-1-before-a-3",
@@ -350,8 +391,14 @@ def test_aashto_group_agrees_with_geolysis_except_for_the_named_departures() -> 
     used: Counter[str] = Counter()
     unexplained: list[str] = []
     for s in SOILS:
-        ours = aashto(s.fines, s.ll, None if s.nonplastic else s.pi, passing_2mm=s.passing_2mm,
-                      passing_0425mm=s.passing_0425mm, nonplastic=s.nonplastic).group
+        ours = aashto(
+            s.fines,
+            s.ll,
+            None if s.nonplastic else s.pi,
+            passing_2mm=s.passing_2mm,
+            passing_0425mm=s.passing_0425mm,
+            nonplastic=s.nonplastic,
+        ).group
         theirs, _ = geolysis_aashto(s)
         expected = ours
         for d in AASHTO_DEPARTURES:
@@ -422,8 +469,14 @@ def test_group_index_agrees_with_geolysis_except_for_the_named_departures() -> N
     plain = 0
     unexplained: list[str] = []
     for s in SOILS:
-        ours = aashto(s.fines, s.ll, None if s.nonplastic else s.pi, passing_2mm=s.passing_2mm,
-                      passing_0425mm=s.passing_0425mm, nonplastic=s.nonplastic)
+        ours = aashto(
+            s.fines,
+            s.ll,
+            None if s.nonplastic else s.pi,
+            passing_2mm=s.passing_2mm,
+            passing_0425mm=s.passing_0425mm,
+            nonplastic=s.nonplastic,
+        )
         _, theirs = geolysis_aashto(s)
         expected, rows = explain_group_index(s, ours.group)
         if not rows:

@@ -16,36 +16,67 @@ from server.engine.descriptors import (
 )
 
 
-@pytest.mark.parametrize(("pi", "word"), [
-    (0, "non-plastic"), (1, "slight"), (5, "slight"), (6, "low"), (10, "low"), (11, "medium"),
-    (20, "medium"), (21, "high"), (40, "high"), (41, "very high"),
-])
+@pytest.mark.parametrize(
+    ("pi", "word"),
+    [
+        (0, "non-plastic"),
+        (1, "slight"),
+        (5, "slight"),
+        (6, "low"),
+        (10, "low"),
+        (11, "medium"),
+        (20, "medium"),
+        (21, "high"),
+        (40, "high"),
+        (41, "very high"),
+    ],
+)
 def test_plasticity_follows_burmister_with_boundaries_in_the_lower_class(pi: float, word: str) -> None:
     # Burmister (1949) via REFERENCES.md; "> 40 very high" puts 40 in "high", boundaries read alike.
     assert plasticity_class(pi) == word
 
 
-@pytest.mark.parametrize(("ci", "word"), [
-    (0.10, "very soft"), (0.25, "soft"), (0.49, "soft"), (0.50, "firm"), (0.74, "firm"),
-    (0.75, "stiff"), (1.00, "stiff"), (1.01, "very stiff"),
-])
+@pytest.mark.parametrize(
+    ("ci", "word"),
+    [
+        (0.10, "very soft"),
+        (0.25, "soft"),
+        (0.49, "soft"),
+        (0.50, "firm"),
+        (0.74, "firm"),
+        (0.75, "stiff"),
+        (1.00, "stiff"),
+        (1.01, "very stiff"),
+    ],
+)
 def test_consistency_follows_iso_14688_2(ci: float, word: str) -> None:
     # ISO 14688-2 bands (confirmed; wording from memory): < 0.25, 0.25-0.50, 0.50-0.75, 0.75-1.00, > 1.00.
     assert consistency_class(ci) == word
 
 
-@pytest.mark.parametrize(("a", "word"), [(0.5, "inactive"), (0.75, "normal"), (1.25, "normal"),
-                                         (1.26, "active")])
+@pytest.mark.parametrize(
+    ("a", "word"), [(0.5, "inactive"), (0.75, "normal"), (1.25, "normal"), (1.26, "active")]
+)
 def test_activity_follows_skempton(a: float, word: str) -> None:
     # Skempton (1953): inactive < 0.75, normal 0.75-1.25, active > 1.25 (REFERENCES.md).
     assert activity_class(a) == word
 
 
-@pytest.mark.parametrize(("st", "word"), [
-    (1.0, "insensitive"), (1.5, "low sensitivity"), (2.0, "low sensitivity"), (3.0, "medium sensitivity"),
-    (4.0, "medium sensitivity"), (6.0, "sensitive"), (8.0, "sensitive"), (12.0, "extra-sensitive"),
-    (16.0, "extra-sensitive"), (16.5, "quick"),
-])
+@pytest.mark.parametrize(
+    ("st", "word"),
+    [
+        (1.0, "insensitive"),
+        (1.5, "low sensitivity"),
+        (2.0, "low sensitivity"),
+        (3.0, "medium sensitivity"),
+        (4.0, "medium sensitivity"),
+        (6.0, "sensitive"),
+        (8.0, "sensitive"),
+        (12.0, "extra-sensitive"),
+        (16.0, "extra-sensitive"),
+        (16.5, "quick"),
+    ],
+)
 def test_sensitivity_follows_skempton_and_northey(st: float, word: str) -> None:
     # Skempton & Northey (1952): ~1, 1-2, 2-4, 4-8, 8-16, > 16 (confirmed, REFERENCES.md).
     assert sensitivity_class(st) == word
@@ -57,8 +88,9 @@ def test_sensitivity_class_refuses_a_ratio_that_is_not_positive(st: float) -> No
         sensitivity_class(st)
 
 
-@pytest.mark.parametrize(("li", "word"), [(-0.1, "semi-solid or solid"), (0.0, "plastic"), (1.0, "plastic"),
-                                          (1.2, "liquid")])
+@pytest.mark.parametrize(
+    ("li", "word"), [(-0.1, "semi-solid or solid"), (0.0, "plastic"), (1.0, "plastic"), (1.2, "liquid")]
+)
 def test_state_by_liquidity_index(li: float, word: str) -> None:
     # LI below 0 drier than PL, 0-1 plastic, above 1 liquid (definition of the index; common practice).
     assert state_class(li) == word

@@ -75,8 +75,9 @@ def test_gravel_sand_and_fines_split_at_4_75_mm_and_75_um() -> None:
 def test_cumulative_masses_give_the_same_curve_as_masses_retained() -> None:
     cumulative = [sum(DAS_RETAINED[: i + 1]) for i in range(len(DAS_RETAINED))]
     readings = das_readings()
-    readings["sieves"] = [{"size_mm": d, "cumulative_retained_g": c} for d, c in zip(DAS_SIZES, cumulative,
-                                                                                      strict=True)]
+    readings["sieves"] = [
+        {"size_mm": d, "cumulative_retained_g": c} for d, c in zip(DAS_SIZES, cumulative, strict=True)
+    ]
     a = calculate("sieve", das_readings()).results
     b = calculate("sieve", readings).results
     assert b["grading_curve"] == pytest.approx(a["grading_curve"])
@@ -93,9 +94,20 @@ def test_sieves_may_be_typed_in_any_order() -> None:
 def test_washed_fines_count_as_passing_every_sieve() -> None:
     # 500 g dry, washed on 75 µm leaving 300 g; 100 g on 2 mm and 190 g on 75 µm, 10 g in the pan.
     # P(2 mm) = 100 (500 - 100)/500 = 80 %, P(75 µm) = 100 (500 - 290)/500 = 42 % (ASTM D6913, by hand).
-    ev = calculate("sieve", {"dry_mass_g": 500.0, "washed_dry_mass_g": 300.0, "pan_g": 10.0, "sieves": [
-        {"size_mm": 4.75, "retained_g": 0.0}, {"size_mm": 2.0, "retained_g": 100.0},
-        {"size_mm": 0.425, "retained_g": 95.0}, {"size_mm": 0.075, "retained_g": 95.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 500.0,
+            "washed_dry_mass_g": 300.0,
+            "pan_g": 10.0,
+            "sieves": [
+                {"size_mm": 4.75, "retained_g": 0.0},
+                {"size_mm": 2.0, "retained_g": 100.0},
+                {"size_mm": 0.425, "retained_g": 95.0},
+                {"size_mm": 0.075, "retained_g": 95.0},
+            ],
+        },
+    )
     assert ev.results["fines"] == pytest.approx(42.0)
     assert ev.results["percent_passing_2mm"] == pytest.approx(80.0)
     assert ev.results["sieve_mass_loss_pct"] == pytest.approx(0.0, abs=1e-12)
@@ -134,25 +146,48 @@ def test_no_d10_when_the_curve_stays_above_10_percent() -> None:
 
 def test_no_flag_for_a_missing_d10_when_fines_exceed_12_percent() -> None:
     # ASTM D2487-17: Cu and Cc only matter for coarse soils with 12 % fines or less.
-    ev = calculate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 4.75, "retained_g": 0.0}, {"size_mm": 2.0, "retained_g": 20.0},
-        {"size_mm": 0.425, "retained_g": 30.0}, {"size_mm": 0.075, "retained_g": 20.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 4.75, "retained_g": 0.0},
+                {"size_mm": 2.0, "retained_g": 20.0},
+                {"size_mm": 0.425, "retained_g": 30.0},
+                {"size_mm": 0.075, "retained_g": 20.0},
+            ],
+        },
+    )
     assert ev.results["fines"] == pytest.approx(30.0)
     assert ev.results["d10_mm"] is None
     assert "grading-diameter-unavailable" not in codes(ev)
 
 
 def test_flags_material_retained_on_the_coarsest_sieve() -> None:
-    ev = calculate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 19.0, "retained_g": 5.0}, {"size_mm": 4.75, "retained_g": 20.0},
-        {"size_mm": 2.0, "retained_g": 20.0}, {"size_mm": 0.075, "retained_g": 50.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 19.0, "retained_g": 5.0},
+                {"size_mm": 4.75, "retained_g": 20.0},
+                {"size_mm": 2.0, "retained_g": 20.0},
+                {"size_mm": 0.075, "retained_g": 50.0},
+            ],
+        },
+    )
     assert "coarsest-sieve-retains" in codes(ev)
     assert ev.results["gravel"] == pytest.approx(25.0)
 
 
 def test_flags_too_few_sieves() -> None:
-    ev = calculate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 4.75, "retained_g": 0.0}, {"size_mm": 0.075, "retained_g": 60.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [{"size_mm": 4.75, "retained_g": 0.0}, {"size_mm": 0.075, "retained_g": 60.0}],
+        },
+    )
     assert "too-few-sieves" in codes(ev)
     assert ev.results["fines"] == pytest.approx(40.0)
 
@@ -160,17 +195,35 @@ def test_flags_too_few_sieves() -> None:
 def test_a_boundary_without_its_sieve_is_interpolated_and_flagged() -> None:
     # P(4.75 mm) between 9.5 mm (90 %) and 2 mm (70 %) on log size, by hand:
     # 70 + 20 ln(4.75/2)/ln(9.5/2) = 70 + 20 x 0.865 / 1.558 = 81.1029 %.
-    ev = calculate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 19.0, "retained_g": 0.0}, {"size_mm": 9.5, "retained_g": 10.0},
-        {"size_mm": 2.0, "retained_g": 20.0}, {"size_mm": 0.075, "retained_g": 65.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 19.0, "retained_g": 0.0},
+                {"size_mm": 9.5, "retained_g": 10.0},
+                {"size_mm": 2.0, "retained_g": 20.0},
+                {"size_mm": 0.075, "retained_g": 65.0},
+            ],
+        },
+    )
     assert ev.results["gravel"] == pytest.approx(100.0 - 81.1029, abs=1e-4)
     assert codes(ev) == ["boundary-sieve-missing"]
 
 
 def test_a_fine_set_that_passes_whole_proves_there_is_no_gravel() -> None:
-    ev = calculate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 2.0, "retained_g": 0.0}, {"size_mm": 0.425, "retained_g": 30.0},
-        {"size_mm": 0.15, "retained_g": 30.0}, {"size_mm": 0.075, "retained_g": 30.0}]})
+    ev = calculate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 2.0, "retained_g": 0.0},
+                {"size_mm": 0.425, "retained_g": 30.0},
+                {"size_mm": 0.15, "retained_g": 30.0},
+                {"size_mm": 0.075, "retained_g": 30.0},
+            ],
+        },
+    )
     assert ev.results["gravel"] == 0.0
     assert "boundary-sieve-missing" not in codes(ev)
 
@@ -188,35 +241,67 @@ def test_refuses_a_negative_mass_retained() -> None:
 
 
 def test_refuses_cumulative_retained_above_the_dry_mass() -> None:
-    ev = evaluate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 2.0, "cumulative_retained_g": 40.0}, {"size_mm": 0.075, "cumulative_retained_g": 100.5}]})
+    ev = evaluate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 2.0, "cumulative_retained_g": 40.0},
+                {"size_mm": 0.075, "cumulative_retained_g": 100.5},
+            ],
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "sieves", 1, "cumulative_retained_g")]
     assert "(100.5 g) is above the dry mass (100 g)" in ev.errors[0].message
 
 
 def test_refuses_retained_masses_that_add_up_above_the_dry_mass_after_washing() -> None:
-    ev = evaluate("sieve", {"dry_mass_g": 100.0, "washed_dry_mass_g": 50.0, "sieves": [
-        {"size_mm": 2.0, "retained_g": 30.0}, {"size_mm": 0.075, "retained_g": 25.0}]})
+    ev = evaluate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "washed_dry_mass_g": 50.0,
+            "sieves": [{"size_mm": 2.0, "retained_g": 30.0}, {"size_mm": 0.075, "retained_g": 25.0}],
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "sieves", 1, "retained_g")]
     assert "above the dry mass after washing (50 g)" in ev.errors[0].message
 
 
 def test_refuses_a_cumulative_mass_that_falls_on_a_finer_sieve() -> None:
-    ev = evaluate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 4.75, "cumulative_retained_g": 45.2}, {"size_mm": 2.0, "cumulative_retained_g": 40.1}]})
+    ev = evaluate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [
+                {"size_mm": 4.75, "cumulative_retained_g": 45.2},
+                {"size_mm": 2.0, "cumulative_retained_g": 40.1},
+            ],
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "sieves", 1, "cumulative_retained_g")]
     assert "(40.1 g) is below that on the 4.75 mm sieve (45.2 g)" in ev.errors[0].message
 
 
 def test_refuses_mixing_masses_retained_with_cumulative_masses() -> None:
-    ev = evaluate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 4.75, "retained_g": 5.0}, {"size_mm": 2.0, "cumulative_retained_g": 40.1}]})
+    ev = evaluate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [{"size_mm": 4.75, "retained_g": 5.0}, {"size_mm": 2.0, "cumulative_retained_g": 40.1}],
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "sieves", 1, "cumulative_retained_g")]
 
 
 def test_refuses_a_sieve_size_given_twice() -> None:
-    ev = evaluate("sieve", {"dry_mass_g": 100.0, "sieves": [
-        {"size_mm": 2.0, "retained_g": 5.0}, {"size_mm": 2.0, "retained_g": 4.0}]})
+    ev = evaluate(
+        "sieve",
+        {
+            "dry_mass_g": 100.0,
+            "sieves": [{"size_mm": 2.0, "retained_g": 5.0}, {"size_mm": 2.0, "retained_g": 4.0}],
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "sieves", 1, "size_mm")]
     assert "grading_curve" not in ev.results
 
@@ -272,14 +357,20 @@ def test_a_negative_mass_is_refused_where_it_was_typed(index: int, mass: float) 
     assert len(ev.results["grading_curve"]) == index
 
 
-@given(st.lists(st.tuples(st.floats(min_value=0.001, max_value=100.0),
-                          st.floats(min_value=0.0, max_value=100.0)),
-                # sizes at least 0.1 % apart: real sieve and Stokes sizes are far apart, and two sizes one
-                # float step apart cannot hold a size between them (common practice: ASTM E11 series)
-                min_size=2, max_size=12, unique_by=lambda t: round(math.log10(t[0]), 3)),
-       st.floats(min_value=0.0, max_value=100.0))
-def test_a_diameter_read_off_a_monotone_curve_gives_back_its_percent(points: list[tuple[float, float]],
-                                                                     percent: float) -> None:
+@given(
+    st.lists(
+        st.tuples(st.floats(min_value=0.001, max_value=100.0), st.floats(min_value=0.0, max_value=100.0)),
+        # sizes at least 0.1 % apart: real sieve and Stokes sizes are far apart, and two sizes one
+        # float step apart cannot hold a size between them (common practice: ASTM E11 series)
+        min_size=2,
+        max_size=12,
+        unique_by=lambda t: round(math.log10(t[0]), 3),
+    ),
+    st.floats(min_value=0.0, max_value=100.0),
+)
+def test_a_diameter_read_off_a_monotone_curve_gives_back_its_percent(
+    points: list[tuple[float, float]], percent: float
+) -> None:
     # Sort the percents with the sizes so that the curve is a physical (monotone) grading curve.
     sizes = sorted(d for d, _ in points)
     percents = sorted(p for _, p in points)
@@ -306,15 +397,38 @@ def test_reading_helpers_do_not_extrapolate() -> None:
 # -- sieving with sedimentation ------------------------------------------------------------------
 # A fictional clayey sand: sieving of 500 g (washed on 75 µm), the sedimentation specimen of 50 g
 # taken from the material passing 2 mm (ASTM D7928-21 cl. 3.2.3), Gs = 2.65 so that a = 1.
-SIEVE = {"dry_mass_g": 500.0, "washed_dry_mass_g": 230.0, "pan_g": 1.0, "sieves": [
-    {"size_mm": 9.5, "retained_g": 0.0}, {"size_mm": 4.75, "retained_g": 5.0},
-    {"size_mm": 2.0, "retained_g": 15.0}, {"size_mm": 0.425, "retained_g": 80.0},
-    {"size_mm": 0.15, "retained_g": 70.0}, {"size_mm": 0.075, "retained_g": 59.0}]}
-HYDROMETER = {"dry_mass_g": 50.0, "specific_gravity": 2.65, "meniscus_correction": 1.0,
-              "zero_readings": [{"temperature_c": 20.0, "reading": 5.0}],
-              "readings": [{"minutes": m, "reading": r, "temperature_c": 20.0} for m, r in
-                           [(1, 29.0), (2, 27.0), (5, 24.0), (15, 20.0), (30, 17.0), (60, 14.5),
-                            (250, 11.0), (1440, 8.0)]]}
+SIEVE = {
+    "dry_mass_g": 500.0,
+    "washed_dry_mass_g": 230.0,
+    "pan_g": 1.0,
+    "sieves": [
+        {"size_mm": 9.5, "retained_g": 0.0},
+        {"size_mm": 4.75, "retained_g": 5.0},
+        {"size_mm": 2.0, "retained_g": 15.0},
+        {"size_mm": 0.425, "retained_g": 80.0},
+        {"size_mm": 0.15, "retained_g": 70.0},
+        {"size_mm": 0.075, "retained_g": 59.0},
+    ],
+}
+HYDROMETER = {
+    "dry_mass_g": 50.0,
+    "specific_gravity": 2.65,
+    "meniscus_correction": 1.0,
+    "zero_readings": [{"temperature_c": 20.0, "reading": 5.0}],
+    "readings": [
+        {"minutes": m, "reading": r, "temperature_c": 20.0}
+        for m, r in [
+            (1, 29.0),
+            (2, 27.0),
+            (5, 24.0),
+            (15, 20.0),
+            (30, 17.0),
+            (60, 14.5),
+            (250, 11.0),
+            (1440, 8.0),
+        ]
+    ],
+}
 
 
 def test_grading_joins_the_sedimentation_to_the_sieving() -> None:
@@ -328,7 +442,8 @@ def test_grading_joins_the_sedimentation_to_the_sieving() -> None:
     sources = [p["source"] for p in res["combined_curve"]]
     assert sources == ["sieve"] * 6 + ["hydrometer"] * 8
     assert [p["size_mm"] for p in res["combined_curve"]] == sorted(
-        (p["size_mm"] for p in res["combined_curve"]), reverse=True)
+        (p["size_mm"] for p in res["combined_curve"]), reverse=True
+    )
     # D10 now lies among the hydrometer points (of the sample: 1440 min gives (8 - 5)/50 x 96 = 5.76 %)
     assert res["d10_mm"] is not None and res["d10_mm"] < 0.075
     assert res["cu"] == pytest.approx(res["d60_mm"] / res["d10_mm"])
@@ -351,8 +466,10 @@ def test_grading_refuses_a_separation_sieve_that_was_not_used() -> None:
 def test_grading_flags_a_sedimentation_curve_that_sits_above_the_sieving() -> None:
     # 75 µm passes 54.2 % of the sample; a first reading of 40 g/L would put 33.6 x 2 x 0.96 = 67 % finer
     # than about 0.04 mm, which cannot be.
-    hyd = {**HYDROMETER, "readings": [{"minutes": 1, "reading": 40.0, "temperature_c": 20.0}]
-           + HYDROMETER["readings"][1:]}
+    hyd = {
+        **HYDROMETER,
+        "readings": [{"minutes": 1, "reading": 40.0, "temperature_c": 20.0}] + HYDROMETER["readings"][1:],
+    }
     ev = calculate("grading", {"sieve": SIEVE, "hydrometer": hyd})
     assert codes(ev) == ["passing-not-monotonic"]
     assert "joined sieve and hydrometer curve" in ev.flags[0].message

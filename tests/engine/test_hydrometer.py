@@ -28,8 +28,16 @@ def stokes_mm(depth_mm: float, minutes: float, t_c: float, gs: float) -> float:
     return 1000.0 * math.sqrt(18.0 * mu * depth_mm / 1000.0 / ((gs - 1.0) * rho * G * minutes * 60.0))
 
 
-TIMES_READINGS = [(1, 40.0), (2, 36.0), (5, 31.0), (15, 26.0), (30, 23.0), (60, 20.0), (250, 15.0),
-                  (1440, 10.0)]
+TIMES_READINGS = [
+    (1, 40.0),
+    (2, 36.0),
+    (5, 31.0),
+    (15, 26.0),
+    (30, 23.0),
+    (60, 20.0),
+    (250, 15.0),
+    (1440, 10.0),
+]
 
 
 def base(**extra: Any) -> dict[str, Any]:
@@ -67,23 +75,35 @@ def test_percent_finer_is_the_corrected_reading_over_the_dry_mass() -> None:
     assert percent_finer(40.0, 6.0, 50.0, 2.65) == pytest.approx(68.0)
 
 
-@pytest.mark.parametrize(("depth", "minutes", "t_c", "gs"),
-                         [(100.0, 30.0, 22.0, 2.70), (140.0, 0.5, 12.0, 2.55), (95.0, 1440.0, 28.5, 2.80)])
-def test_diameter_follows_stokes_law_with_iapws_water(depth: float, minutes: float, t_c: float,
-                                                      gs: float) -> None:
+@pytest.mark.parametrize(
+    ("depth", "minutes", "t_c", "gs"),
+    [(100.0, 30.0, 22.0, 2.70), (140.0, 0.5, 12.0, 2.55), (95.0, 1440.0, 28.5, 2.80)],
+)
+def test_diameter_follows_stokes_law_with_iapws_water(
+    depth: float, minutes: float, t_c: float, gs: float
+) -> None:
     # Stokes' law with viscosity and density of water from `iapws` (IAPWS 2008 / IAPWS-95).
-    assert stokes_diameter_mm(depth, minutes, t_c, gs) == pytest.approx(stokes_mm(depth, minutes, t_c, gs),
-                                                                        rel=5e-6)
+    assert stokes_diameter_mm(depth, minutes, t_c, gs) == pytest.approx(
+        stokes_mm(depth, minutes, t_c, gs), rel=5e-6
+    )
 
 
 def test_diameter_of_the_das_worked_example() -> None:
     # Das, Principles of Geotechnical Engineering, worked example (from memory): Gs 2.60, 24 °C,
     # reading 43 after 60 min, L = 16.29 - 0.1641 x 43 = 9.2 cm, K = 0.0131 from the D422 table:
     # D = 0.0131 sqrt(9.2/60) = 0.0051 mm. Our K comes from IAPWS water instead of the table.
-    ev = calculate("hydrometer", {
-        "dry_mass_g": 50.0, "specific_gravity": 2.60, "meniscus_correction": 0.0,
-        "hydrometer": {"type": "152H", "depth_at_zero_mm": 162.9},
-        "readings": [{"minutes": 60, "reading": 43.0, "temperature_c": 24.0, "composite_correction": 0.0}]})
+    ev = calculate(
+        "hydrometer",
+        {
+            "dry_mass_g": 50.0,
+            "specific_gravity": 2.60,
+            "meniscus_correction": 0.0,
+            "hydrometer": {"type": "152H", "depth_at_zero_mm": 162.9},
+            "readings": [
+                {"minutes": 60, "reading": 43.0, "temperature_c": 24.0, "composite_correction": 0.0}
+            ],
+        },
+    )
     assert ev.results["hydrometer_points"][0]["diameter_mm"] == pytest.approx(0.0051, abs=1e-4)
 
 
@@ -136,8 +156,9 @@ def test_separation_sieve_passing_scales_the_percent_finer_to_the_whole_sample()
 def test_composite_correction_is_interpolated_between_zero_readings() -> None:
     # Zero readings 6.5 at 18 °C and 5.5 at 24 °C: 6.0 at 21 °C (straight line, by hand), so a reading of
     # 46 at 21 °C gives (46 - 6)/50 x 100 = 80 %.
-    readings = base(zero_readings=[{"temperature_c": 24.0, "reading": 5.5},
-                                   {"temperature_c": 18.0, "reading": 6.5}])
+    readings = base(
+        zero_readings=[{"temperature_c": 24.0, "reading": 5.5}, {"temperature_c": 18.0, "reading": 6.5}]
+    )
     readings["readings"] = [{"minutes": 1, "reading": 46.0, "temperature_c": 21.0}]
     ev = calculate("hydrometer", readings)
     assert ev.results["hydrometer_points"][0]["percent_finer"] == pytest.approx(80.0)
@@ -196,8 +217,11 @@ def _numeric_u(readings: dict[str, Any], paths: list[tuple[list[Any], float]]) -
         h = 1e-4
         values = []
         for sign in (1.0, -1.0):
-            copy: Any = {**readings, "readings": [dict(x) for x in readings["readings"]],
-                         "zero_readings": [dict(x) for x in readings.get("zero_readings", [])]}
+            copy: Any = {
+                **readings,
+                "readings": [dict(x) for x in readings["readings"]],
+                "zero_readings": [dict(x) for x in readings.get("zero_readings", [])],
+            }
             node = copy
             for key in path[:-1]:
                 node = node[key]
@@ -212,9 +236,16 @@ def test_clay_fraction_uncertainty_matches_numerical_propagation() -> None:
     ev = calculate("hydrometer", readings)
     u_r = 1.0 / math.sqrt(12.0)  # rectangular, JCGM 100:2008 cl. F.2.2.1
     u_m = 0.01 / math.sqrt(12.0)
-    expected = _numeric_u(readings, [
-        (["readings", 6, "reading"], u_r), (["readings", 7, "reading"], u_r),
-        (["zero_readings", 0, "reading"], u_r), (["meniscus_correction"], u_r), (["dry_mass_g"], u_m)])
+    expected = _numeric_u(
+        readings,
+        [
+            (["readings", 6, "reading"], u_r),
+            (["readings", 7, "reading"], u_r),
+            (["zero_readings", 0, "reading"], u_r),
+            (["meniscus_correction"], u_r),
+            (["dry_mass_g"], u_m),
+        ],
+    )
     got = ev.results["uncertainty"]["clay_fraction"]
     assert got["u"] == pytest.approx(expected, rel=1e-4)
     assert got["U"] == pytest.approx(2.0 * got["u"]) and got["k"] == 2.0
@@ -227,10 +258,17 @@ def test_clay_fraction_uncertainty_with_corrections_typed_per_reading() -> None:
     ev = calculate("hydrometer", readings)
     u_r = 0.5 / math.sqrt(12.0)
     u_m = math.sqrt(0.01**2 / 12.0 + 0.005**2)  # the default balance of server.engine.uncertainty
-    expected = _numeric_u(readings, [
-        (["readings", 6, "reading"], u_r), (["readings", 7, "reading"], u_r),
-        (["readings", 6, "composite_correction"], u_r), (["readings", 7, "composite_correction"], u_r),
-        (["meniscus_correction"], u_r), (["dry_mass_g"], u_m)])
+    expected = _numeric_u(
+        readings,
+        [
+            (["readings", 6, "reading"], u_r),
+            (["readings", 7, "reading"], u_r),
+            (["readings", 6, "composite_correction"], u_r),
+            (["readings", 7, "composite_correction"], u_r),
+            (["meniscus_correction"], u_r),
+            (["dry_mass_g"], u_m),
+        ],
+    )
     assert ev.results["uncertainty"]["clay_fraction"]["u"] == pytest.approx(expected, rel=1e-4)
 
 
@@ -250,12 +288,20 @@ def test_refuses_a_reading_without_a_composite_correction() -> None:
     readings = base(zero_readings=[])
     readings["readings"][0]["composite_correction"] = 5.0
     ev = evaluate("hydrometer", readings)
-    assert [e.loc for e in ev.errors] == [("readings", "readings", i, "composite_correction")
-                                          for i in range(1, 8)]
+    assert [e.loc for e in ev.errors] == [
+        ("readings", "readings", i, "composite_correction") for i in range(1, 8)
+    ]
 
 
-@pytest.mark.parametrize(("key", "value"), [("specific_gravity", 1.0), ("specific_gravity", "x"),
-                                             ("dry_mass_g", -50.0), ("meniscus_correction", None)])
+@pytest.mark.parametrize(
+    ("key", "value"),
+    [
+        ("specific_gravity", 1.0),
+        ("specific_gravity", "x"),
+        ("dry_mass_g", -50.0),
+        ("meniscus_correction", None),
+    ],
+)
 def test_refuses_bad_test_wide_values(key: str, value: Any) -> None:
     ev = evaluate("hydrometer", base(**{key: value}))
     assert [e.loc for e in ev.errors] == [("readings", key)]
@@ -282,8 +328,12 @@ def test_refuses_an_unknown_hydrometer_type() -> None:
 
 
 def test_refuses_two_zero_readings_at_one_temperature() -> None:
-    ev = evaluate("hydrometer", base(zero_readings=[{"temperature_c": 20.0, "reading": 5.0},
-                                                    {"temperature_c": 20.0, "reading": 5.5}]))
+    ev = evaluate(
+        "hydrometer",
+        base(
+            zero_readings=[{"temperature_c": 20.0, "reading": 5.0}, {"temperature_c": 20.0, "reading": 5.5}]
+        ),
+    )
     assert [e.loc for e in ev.errors] == [("readings", "zero_readings", 1, "temperature_c")]
 
 
@@ -293,11 +343,14 @@ def test_refuses_more_passing_75_um_than_passes_the_separation_sieve() -> None:
 
 
 # -- properties ----------------------------------------------------------------------------------
-@given(st.lists(st.floats(min_value=2.0, max_value=3.0), min_size=2, max_size=8),
-       st.lists(st.floats(min_value=0.0, max_value=6.0), min_size=2, max_size=8),
-       st.floats(min_value=15.0, max_value=30.0))
+@given(
+    st.lists(st.floats(min_value=2.0, max_value=3.0), min_size=2, max_size=8),
+    st.lists(st.floats(min_value=0.0, max_value=6.0), min_size=2, max_size=8),
+    st.floats(min_value=15.0, max_value=30.0),
+)
 def test_readings_on_a_doubling_schedule_give_ever_finer_diameters_and_never_rising_percentages(
-        factors: list[float], drops: list[float], t_c: float) -> None:
+    factors: list[float], drops: list[float], t_c: float
+) -> None:
     # Each time at least twice the last (as the usual 1, 2, 5, 15 ... min schedule) and a fall of the
     # reading of at most 6 g/L: D ~ sqrt(L/t) falls by 1/sqrt(2) while L grows by at most 14 %.
     n = min(len(factors), len(drops))
@@ -306,10 +359,13 @@ def test_readings_on_a_doubling_schedule_give_ever_finer_diameters_and_never_ris
     for factor, drop in zip(factors[:n], drops[:n], strict=True):
         minutes *= factor
         reading -= drop
-        rows.append({"minutes": minutes, "reading": reading, "temperature_c": t_c,
-                     "composite_correction": 0.0})
-    ev = calculate("hydrometer", {"dry_mass_g": 60.0, "specific_gravity": 2.7, "meniscus_correction": 0.5,
-                                  "readings": rows})
+        rows.append(
+            {"minutes": minutes, "reading": reading, "temperature_c": t_c, "composite_correction": 0.0}
+        )
+    ev = calculate(
+        "hydrometer",
+        {"dry_mass_g": 60.0, "specific_gravity": 2.7, "meniscus_correction": 0.5, "readings": rows},
+    )
     pts = ev.results["hydrometer_points"]
     assert all(a["diameter_mm"] > b["diameter_mm"] for a, b in zip(pts, pts[1:], strict=False))
     assert all(a["percent_finer"] >= b["percent_finer"] for a, b in zip(pts, pts[1:], strict=False))

@@ -39,10 +39,12 @@ def test_activity_is_plasticity_index_over_clay_fraction() -> None:
     assert activity(28.0, 31.0) == pytest.approx(0.9032, abs=1e-4)
 
 
-@pytest.mark.parametrize(("ll", "pl", "np_"), [(30.0, 30.0, True), (30.0, 31.0, True), (30.4, 29.6, True),
-                                               (30.6, 29.4, False)])
+@pytest.mark.parametrize(
+    ("ll", "pl", "np_"), [(30.0, 30.0, True), (30.0, 31.0, True), (30.4, 29.6, True), (30.6, 29.4, False)]
+)
 def test_soil_is_nonplastic_when_the_plastic_limit_is_not_below_the_liquid_limit(
-        ll: float, pl: float, np_: bool) -> None:
+    ll: float, pl: float, np_: bool
+) -> None:
     # ASTM D4318: NP when PL >= LL (confirmed), compared on the reported whole numbers.
     assert is_nonplastic(ll, pl) is np_
 

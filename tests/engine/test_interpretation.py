@@ -41,11 +41,16 @@ def test_swell_potential_and_its_class() -> None:
 
 
 def test_every_entry_has_value_unit_source_and_says_indicative() -> None:
-    notes = interpret({"nonplastic": False, "liquid_limit": 39.67, "plasticity_index": 19.0,
-                       "liquidity_index": 0.75})
-    assert set(notes) == {"compression_index_undisturbed", "compression_index_remoulded",
-                          "remoulded_undrained_strength_kpa", "undrained_strength_ratio_nc",
-                          "swell_potential"}
+    notes = interpret(
+        {"nonplastic": False, "liquid_limit": 39.67, "plasticity_index": 19.0, "liquidity_index": 0.75}
+    )
+    assert set(notes) == {
+        "compression_index_undisturbed",
+        "compression_index_remoulded",
+        "remoulded_undrained_strength_kpa",
+        "undrained_strength_ratio_nc",
+        "swell_potential",
+    }
     for entry in notes.values():
         assert {"value", "unit", "source"} <= set(entry)
         assert "indicative" in entry["basis"]

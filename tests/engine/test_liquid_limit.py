@@ -15,8 +15,11 @@ from server.engine.liquid_limit import fit_line, one_point_factor
 
 def det(w: float, dry_soil_g: float = 20.0, tare_g: float = 10.0) -> dict[str, float]:
     """Masses that give water content ``w`` exactly, by the ASTM D2216 formula."""
-    return {"tare_g": tare_g, "dry_tare_g": tare_g + dry_soil_g,
-            "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100)}
+    return {
+        "tare_g": tare_g,
+        "dry_tare_g": tare_g + dry_soil_g,
+        "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100),
+    }
 
 
 def cup(*pairs: tuple[int, float]) -> dict[str, Any]:
@@ -81,7 +84,8 @@ def test_refusal_message_names_the_trial_and_both_masses() -> None:
     readings["trials"][1].update({"wet_tare_g": 37.9, "dry_tare_g": 38.1})
     ev = evaluate("ll-cup-multipoint", readings)
     assert [e.message for e in ev.errors] == [
-        "liquid limit, trial 2: dry mass plus tare (38.1 g) is above wet mass plus tare (37.9 g)"]
+        "liquid limit, trial 2: dry mass plus tare (38.1 g) is above wet mass plus tare (37.9 g)"
+    ]
 
 
 def test_refuses_trials_that_all_have_the_same_blow_count() -> None:
@@ -127,14 +131,25 @@ def test_fit_line_recovers_an_exact_line() -> None:
 
 def test_one_point_factors_match_the_published_table() -> None:
     # (N/25)^0.121, table of factors in REFERENCES.md (computed; ASTM D4318 Method B).
-    table = {20: 0.973, 21: 0.979, 22: 0.985, 23: 0.990, 24: 0.995, 25: 1.000,
-             26: 1.005, 27: 1.009, 28: 1.014, 29: 1.018, 30: 1.022}
+    table = {
+        20: 0.973,
+        21: 0.979,
+        22: 0.985,
+        23: 0.990,
+        24: 0.995,
+        25: 1.000,
+        26: 1.005,
+        27: 1.009,
+        28: 1.014,
+        29: 1.018,
+        30: 1.022,
+    }
     assert {n: round(one_point_factor(n), 3) for n in table} == table
 
 
 def test_flow_index_over_a_decade_equals_the_drop_in_water_content() -> None:
     # Definition (IS 2720-5): from 10 to 100 blows w falls by If. Here w = 50 at 10, 38 at 100.
-    ev = calculate("ll-cup-multipoint", cup((10, 50.0), (100, 38.0), (int(10 ** 1.5), 44.0)))
+    ev = calculate("ll-cup-multipoint", cup((10, 50.0), (100, 38.0), (int(10**1.5), 44.0)))
     assert ev.results["flow_index"] == pytest.approx(12.0, abs=0.01)
     assert ev.results["liquid_limit"] == pytest.approx(50.0 - 12.0 * math.log10(2.5), abs=0.05)
 
@@ -148,11 +163,16 @@ def test_flow_index_does_not_depend_on_which_way_the_trials_were_typed() -> None
 
 # -- exact straight lines (hypothesis) ------------------------------------------------------------
 
+
 @settings(database=None)
-@given(ll=st.floats(20.0, 150.0), flow=st.floats(1.0, 50.0),
-       blows=st.lists(st.integers(10, 45), min_size=3, max_size=6, unique=True))
+@given(
+    ll=st.floats(20.0, 150.0),
+    flow=st.floats(1.0, 50.0),
+    blows=st.lists(st.integers(10, 45), min_size=3, max_size=6, unique=True),
+)
 def test_recovers_the_limit_and_flow_index_from_trials_on_an_exact_flow_curve(
-        ll: float, flow: float, blows: list[int]) -> None:
+    ll: float, flow: float, blows: list[int]
+) -> None:
     # Readings generated on w = LL - If log10(N/25): least squares returns the line itself
     # (Draper & Smith 1998, ch. 1), so LL and If come back exactly (computed).
     pairs = [(n, ll - flow * math.log10(n / 25)) for n in blows]
@@ -163,11 +183,16 @@ def test_recovers_the_limit_and_flow_index_from_trials_on_an_exact_flow_curve(
 
 
 @settings(database=None)
-@given(ll=st.floats(25.0, 150.0), slope=st.floats(0.5, 2.0),
-       pens=st.lists(st.floats(14.0, 26.0), min_size=3, max_size=6, unique=True).filter(
-           lambda ps: max(ps) - min(ps) > 1.0))
+@given(
+    ll=st.floats(25.0, 150.0),
+    slope=st.floats(0.5, 2.0),
+    pens=st.lists(st.floats(14.0, 26.0), min_size=3, max_size=6, unique=True).filter(
+        lambda ps: max(ps) - min(ps) > 1.0
+    ),
+)
 def test_recovers_the_cone_liquid_limit_from_points_on_an_exact_line(
-        ll: float, slope: float, pens: list[float]) -> None:
+    ll: float, slope: float, pens: list[float]
+) -> None:
     # Readings generated on w = LL + slope (p - 20) for the 80 g cone (BS 1377-2:1990 cl. 4.3: LL at
     # 20 mm on a straight line of w against penetration), recovered by least squares (computed).
     trials = [{"penetration_mm": [p], **det(ll + slope * (p - 20.0))} for p in pens]
@@ -178,14 +203,16 @@ def test_recovers_the_cone_liquid_limit_from_points_on_an_exact_line(
 def test_recovers_the_60g_cone_limit_at_10_mm_on_a_line_in_log_penetration() -> None:
     # ISO 17892-12:2018: the 60 g / 60 deg cone reads LL at 10 mm; its fit in log10 penetration is
     # the cone type's property here (from memory, REFERENCES.md). w = 50 + 40 log10(p/10) exactly.
-    trials = [{"penetration_mm": [p, p], **det(50.0 + 40.0 * math.log10(p / 10.0))}
-              for p in (7.0, 9.0, 12.0, 14.5)]
+    trials = [
+        {"penetration_mm": [p, p], **det(50.0 + 40.0 * math.log10(p / 10.0))} for p in (7.0, 9.0, 12.0, 14.5)
+    ]
     r = calculate("ll-cone", {"cone": "60g-60deg", "trials": trials}).results
     assert r["liquid_limit"] == pytest.approx(50.0, abs=1e-9)
     assert r["flow_curve"]["log_x"] is True and r["flow_curve"]["target_x"] == 10.0
 
 
 # -- one-point ------------------------------------------------------------------------------------
+
 
 def test_one_point_liquid_limit_corrects_each_trial_and_averages_them() -> None:
     # ASTM D4318 Method B: LL = w (N/25)^0.121 (confirmed); 40.0 % at 23 blows -> 40.0 x 0.98996,
@@ -227,13 +254,15 @@ def test_one_point_refuses_three_trials() -> None:
 
 # -- fall cone ------------------------------------------------------------------------------------
 
+
 def cone(kind: str, *pairs: tuple[list[Any], float]) -> dict[str, Any]:
     return {"cone": kind, "trials": [{"penetration_mm": p, **det(w)} for p, w in pairs]}
 
 
 # Points on w = 30 + 1.5 (p - 20) (constructed; an exact line gives LL 30 at 20 mm, BS 1377-2:1990 cl. 4.3).
-GOOD_CONE = cone("80g-30deg", ([15.5, 15.7], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95),
-                 ([24.0, 24.2], 36.15))
+GOOD_CONE = cone(
+    "80g-30deg", ([15.5, 15.7], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95), ([24.0, 24.2], 36.15)
+)
 
 
 def test_cone_liquid_limit_is_read_at_20_mm_for_the_80g_cone() -> None:
@@ -247,30 +276,38 @@ def test_cone_liquid_limit_is_read_at_20_mm_for_the_80g_cone() -> None:
 
 def test_cone_asks_for_a_third_drop_when_two_differ_by_more_than_half_a_millimetre() -> None:
     # BS 1377-2:1990 cl. 4.3: 0.5-1 mm apart -> third drop (confirmed).
-    readings = cone("80g-30deg", ([15.5, 16.2], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95),
-                    ([24.0, 24.2], 36.15))
+    readings = cone(
+        "80g-30deg", ([15.5, 16.2], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95), ([24.0, 24.2], 36.15)
+    )
     assert [f.code for f in calculate("ll-cone", readings).flags] == ["cone-third-drop-needed"]
 
 
 def test_cone_accepts_two_drops_exactly_half_a_millimetre_apart() -> None:
     # BS 1377-2:1990 cl. 4.3: within 0.5 mm the two are averaged (confirmed); 17.2/17.7 differ by 0.5.
-    readings = cone("80g-30deg", ([17.2, 17.7], 25.0), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95),
-                    ([24.0, 24.2], 36.15))
+    readings = cone(
+        "80g-30deg", ([17.2, 17.7], 25.0), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95), ([24.0, 24.2], 36.15)
+    )
     assert "cone-third-drop-needed" not in [f.code for f in calculate("ll-cone", readings).flags]
 
 
 def test_cone_asks_for_a_remix_when_the_drops_range_over_more_than_a_millimetre() -> None:
     # BS 1377-2:1990 cl. 4.3: range above 1 mm -> remix and repeat (confirmed).
-    readings = cone("80g-30deg", ([15.5, 16.2, 16.7], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95),
-                    ([24.0, 24.2], 36.15))
+    readings = cone(
+        "80g-30deg",
+        ([15.5, 16.2, 16.7], 23.4),
+        ([18.0, 18.2], 27.15),
+        ([21.2, 21.4], 31.95),
+        ([24.0, 24.2], 36.15),
+    )
     flags = [(f.code, f.severity) for f in calculate("ll-cone", readings).flags]
     assert flags == [("cone-remix-needed", "error")]
 
 
 def test_cone_flags_a_penetration_outside_15_to_25_mm() -> None:
     # BS 1377-2:1990 cl. 4.3: penetrations 15-25 mm for the 80 g cone (confirmed).
-    readings = cone("80g-30deg", ([13.0, 13.2], 20.0), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95),
-                    ([24.0, 24.2], 36.15))
+    readings = cone(
+        "80g-30deg", ([13.0, 13.2], 20.0), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95), ([24.0, 24.2], 36.15)
+    )
     assert "penetration-out-of-range" in [f.code for f in calculate("ll-cone", readings).flags]
 
 
@@ -281,8 +318,9 @@ def test_cone_flags_fewer_than_four_points() -> None:
 
 
 def test_cone_refuses_an_unknown_cone_type_and_four_drops() -> None:
-    readings = cone("100g-30deg", ([15.5, 15.7, 15.6, 15.5], 23.4), ([18.0, 18.2], 27.15),
-                    ([21.2, 21.4], 31.95))
+    readings = cone(
+        "100g-30deg", ([15.5, 15.7, 15.6, 15.5], 23.4), ([18.0, 18.2], 27.15), ([21.2, 21.4], 31.95)
+    )
     ev = evaluate("ll-cone", readings)
     assert {e.loc for e in ev.errors} == {("readings", "cone"), ("readings", "trials", 0, "penetration_mm")}
     assert "liquid_limit" not in ev.results

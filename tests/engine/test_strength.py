@@ -38,8 +38,15 @@ def test_vane_as_tall_as_wide_gives_3t_over_2_pi_d_cubed() -> None:
 
 def test_vane_gives_sensitivity_and_its_class() -> None:
     # St = 0.0142 / 0.0035 = 4.057 (same vane), "sensitive" in Skempton & Northey (1952), 4 to 8.
-    ev = calculate("vane", {"diameter_mm": 12.7, "height_mm": 25.4, "undisturbed": {"torque_nm": 0.0142},
-                            "remoulded": {"torque_nm": 0.0035}})
+    ev = calculate(
+        "vane",
+        {
+            "diameter_mm": 12.7,
+            "height_mm": 25.4,
+            "undisturbed": {"torque_nm": 0.0142},
+            "remoulded": {"torque_nm": 0.0035},
+        },
+    )
     cu_r = 6 * 0.0035 / (7 * math.pi * 0.0127**3) / 1000  # the H = 2D form again
     assert ev.results["remoulded_strength_kpa"] == pytest.approx(cu_r)
     assert ev.results["sensitivity"] == pytest.approx(0.0142 / 0.0035)
@@ -47,8 +54,15 @@ def test_vane_gives_sensitivity_and_its_class() -> None:
 
 
 def test_vane_flags_a_remoulded_specimen_stronger_than_the_undisturbed_one() -> None:
-    ev = calculate("vane", {"diameter_mm": 12.7, "height_mm": 12.7, "undisturbed": {"torque_nm": 0.003},
-                            "remoulded": {"torque_nm": 0.004}})
+    ev = calculate(
+        "vane",
+        {
+            "diameter_mm": 12.7,
+            "height_mm": 12.7,
+            "undisturbed": {"torque_nm": 0.003},
+            "remoulded": {"torque_nm": 0.004},
+        },
+    )
     assert codes(ev) == ["remoulded-stronger"]
     assert ev.results["sensitivity_class"] == "insensitive"  # St up to 1 (Skempton & Northey 1952)
 
@@ -68,8 +82,16 @@ def test_vane_uncertainty_follows_first_order_propagation() -> None:
         return (vane_strength_kpa(*up) - vane_strength_kpa(*down)) / (2 * eps)
 
     expected = math.sqrt((partial(0) * u_t) ** 2 + (partial(1) * u_l) ** 2 + (partial(2) * u_l) ** 2)
-    ev = calculate("vane", {"diameter_mm": d, "height_mm": h, "undisturbed": {"torque_nm": t},
-                            "torque_resolution_nm": 0.0001, "length_resolution_mm": 0.01})
+    ev = calculate(
+        "vane",
+        {
+            "diameter_mm": d,
+            "height_mm": h,
+            "undisturbed": {"torque_nm": t},
+            "torque_resolution_nm": 0.0001,
+            "length_resolution_mm": 0.01,
+        },
+    )
     assert ev.results["uncertainty"]["undrained_strength_kpa"]["u"] == pytest.approx(expected, rel=1e-6)
 
 
@@ -79,8 +101,15 @@ def test_vane_gives_no_uncertainty_without_a_torque_resolution() -> None:
 
 
 def test_vane_refuses_a_zero_torque_but_keeps_the_other_specimen() -> None:
-    ev = evaluate("vane", {"diameter_mm": 12.7, "height_mm": 12.7, "undisturbed": {"torque_nm": 0},
-                           "remoulded": {"torque_nm": 0.0035}})
+    ev = evaluate(
+        "vane",
+        {
+            "diameter_mm": 12.7,
+            "height_mm": 12.7,
+            "undisturbed": {"torque_nm": 0},
+            "remoulded": {"torque_nm": 0.0035},
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "undisturbed", "torque_nm")]
     assert ev.errors[0].message == "undisturbed specimen: peak torque (0 N·m) must be above 0 N·m"
     assert "undrained_strength_kpa" not in ev.results and "sensitivity" not in ev.results
@@ -88,8 +117,16 @@ def test_vane_refuses_a_zero_torque_but_keeps_the_other_specimen() -> None:
 
 
 def test_vane_refuses_a_bad_resolution_but_still_gives_the_strength() -> None:
-    ev = evaluate("vane", {"diameter_mm": 12.7, "height_mm": 12.7, "undisturbed": {"torque_nm": 0.0142},
-                           "torque_resolution_nm": 0.0001, "length_resolution_mm": -0.01})
+    ev = evaluate(
+        "vane",
+        {
+            "diameter_mm": 12.7,
+            "height_mm": 12.7,
+            "undisturbed": {"torque_nm": 0.0142},
+            "torque_resolution_nm": 0.0001,
+            "length_resolution_mm": -0.01,
+        },
+    )
     assert [e.loc for e in ev.errors] == [("readings", "length_resolution_mm")]
     assert ev.results["undrained_strength_kpa"] == pytest.approx(3.30993, abs=1e-5)  # 3T/(2 pi D^3), above
     assert "uncertainty" not in ev.results
@@ -126,9 +163,15 @@ def test_fall_cone_at_the_liquid_limit_penetration_is_near_the_remoulded_strengt
 def test_fall_cone_averages_the_drops_and_gives_sensitivity() -> None:
     # Means 6.2 and 14.1 mm; St = (14.1/6.2)^2 = 5.172 since cu ~ 1/i^2 (Hansbo 1957), "sensitive"
     # (Skempton & Northey 1952).
-    ev = calculate("fall-cone-strength", {"cone_mass_g": 80.0, "cone_angle_deg": 30,
-                                          "undisturbed": {"penetration_mm": [6.1, 6.3]},
-                                          "remoulded": {"penetration_mm": [14.2, 14.0]}})
+    ev = calculate(
+        "fall-cone-strength",
+        {
+            "cone_mass_g": 80.0,
+            "cone_angle_deg": 30,
+            "undisturbed": {"penetration_mm": [6.1, 6.3]},
+            "remoulded": {"penetration_mm": [14.2, 14.0]},
+        },
+    )
     res = ev.results
     assert res["cone_factor"] == 0.8
     assert res["undisturbed_penetration_mm"] == pytest.approx(6.2)
@@ -139,45 +182,69 @@ def test_fall_cone_averages_the_drops_and_gives_sensitivity() -> None:
 
 
 def test_fall_cone_takes_the_lab_s_own_cone_factor() -> None:
-    ev = calculate("fall-cone-strength", {"cone_mass_g": 60.0, "cone_angle_deg": 60, "cone_factor": 0.3,
-                                          "undisturbed": {"penetration_mm": [10.0]}})
+    ev = calculate(
+        "fall-cone-strength",
+        {
+            "cone_mass_g": 60.0,
+            "cone_angle_deg": 60,
+            "cone_factor": 0.3,
+            "undisturbed": {"penetration_mm": [10.0]},
+        },
+    )
     assert ev.results["undrained_strength_kpa"] == pytest.approx(0.3 * 0.06 * G / 0.01**2 / 1000)
 
 
 def test_fall_cone_uncertainty_combines_resolution_and_scatter() -> None:
     # u(i)^2 = u_res^2/n + s^2/n with u_res = 0.1/sqrt(12) mm, s^2 = 0.02 mm^2, n = 2 (JCGM 100:2008
     # cl. 4.2.3 and F.2.2.1); u(cu)/cu = 2 u(i)/i since cu ~ i^-2 (cl. 5.1.6).
-    ev = calculate("fall-cone-strength", {"cone_mass_g": 80.0, "cone_angle_deg": 30,
-                                          "undisturbed": {"penetration_mm": [6.1, 6.3]}})
+    ev = calculate(
+        "fall-cone-strength",
+        {"cone_mass_g": 80.0, "cone_angle_deg": 30, "undisturbed": {"penetration_mm": [6.1, 6.3]}},
+    )
     u_i = math.sqrt((0.1**2 / 12) / 2 + 0.02 / 2)
     cu = ev.results["undrained_strength_kpa"]
     assert ev.results["uncertainty"]["undrained_strength_kpa"]["u"] == pytest.approx(cu * 2 * u_i / 6.2)
 
 
 def test_fall_cone_refuses_a_cone_angle_it_has_no_factor_for() -> None:
-    ev = evaluate("fall-cone-strength", {"cone_mass_g": 80.0, "cone_angle_deg": 45,
-                                         "undisturbed": {"penetration_mm": [6.1]}})
+    ev = evaluate(
+        "fall-cone-strength",
+        {"cone_mass_g": 80.0, "cone_angle_deg": 45, "undisturbed": {"penetration_mm": [6.1]}},
+    )
     assert [e.loc for e in ev.errors] == [("readings", "cone_angle_deg")]
     assert "undrained_strength_kpa" not in ev.results
     assert ev.results["undisturbed_penetration_mm"] == pytest.approx(6.1)
 
 
 def test_fall_cone_refuses_a_bad_penetration_where_it_was_typed() -> None:
-    ev = evaluate("fall-cone-strength", {"cone_mass_g": 80.0, "cone_angle_deg": 30,
-                                         "undisturbed": {"penetration_mm": [6.1, -6.3]}})
+    ev = evaluate(
+        "fall-cone-strength",
+        {"cone_mass_g": 80.0, "cone_angle_deg": 30, "undisturbed": {"penetration_mm": [6.1, -6.3]}},
+    )
     assert [e.loc for e in ev.errors] == [("readings", "undisturbed", "penetration_mm", 1)]
     assert ev.errors[0].message == "undisturbed specimen: penetration 2 (-6.3 mm) must be above 0 mm"
 
 
 # -- unconfined compression ----------------------------------------------------------------------
 # A fictional 38 x 76 mm specimen (H/D = 2); A0 = pi 0.038^2 / 4 = 1.134115e-3 m².
-PEAKING = [(0.0, 0.0), (0.76, 61.0), (1.52, 98.0), (2.28, 121.0), (3.04, 133.0), (3.80, 136.0),
-           (4.56, 131.0), (5.32, 124.0)]
+PEAKING = [
+    (0.0, 0.0),
+    (0.76, 61.0),
+    (1.52, 98.0),
+    (2.28, 121.0),
+    (3.04, 133.0),
+    (3.80, 136.0),
+    (4.56, 131.0),
+    (5.32, 124.0),
+]
 
 
 def ucs(rows: list[tuple[float, float]], diameter: float = 38.0, height: float = 76.0) -> dict[str, Any]:
-    return {"diameter_mm": diameter, "height_mm": height,
-            "readings": [{"deformation_mm": dh, "load_n": p} for dh, p in rows]}
+    return {
+        "diameter_mm": diameter,
+        "height_mm": height,
+        "readings": [{"deformation_mm": dh, "load_n": p} for dh, p in rows],
+    }
 
 
 def test_stress_uses_the_area_corrected_for_strain() -> None:
@@ -266,8 +333,10 @@ def test_refuses_a_deformation_that_goes_back() -> None:
     rows = [(0.0, 0.0), (1.52, 98.0), (0.76, 61.0)]
     ev = evaluate("unconfined-compression", {"undisturbed": ucs(rows)})
     assert [e.loc for e in ev.errors] == [("readings", "undisturbed", "readings", 2, "deformation_mm")]
-    assert ev.errors[0].message == ("undisturbed specimen, reading 3: axial deformation (0.76 mm) is below "
-                                    "the previous reading's (1.52 mm)")
+    assert ev.errors[0].message == (
+        "undisturbed specimen, reading 3: axial deformation (0.76 mm) is below "
+        "the previous reading's (1.52 mm)"
+    )
 
 
 def test_refuses_a_negative_load() -> None:
@@ -280,8 +349,13 @@ def test_refuses_a_single_reading() -> None:
     assert [e.loc for e in ev.errors] == [("readings", "undisturbed", "readings")]
 
 
-@given(st.lists(st.tuples(st.floats(min_value=0.0, max_value=1.5), st.floats(min_value=0.0, max_value=500.0)),
-                min_size=2, max_size=30))
+@given(
+    st.lists(
+        st.tuples(st.floats(min_value=0.0, max_value=1.5), st.floats(min_value=0.0, max_value=500.0)),
+        min_size=2,
+        max_size=30,
+    )
+)
 def test_qu_is_never_below_a_stress_reached_before_failure(steps: list[tuple[float, float]]) -> None:
     dh = 0.0
     rows = []

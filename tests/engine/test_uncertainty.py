@@ -63,18 +63,34 @@ def test_index_uncertainty_matches_a_numerical_propagation() -> None:
 
 
 def det(w: float, dry_soil_g: float = 20.0, tare_g: float = 10.0) -> dict[str, float]:
-    return {"tare_g": tare_g, "dry_tare_g": tare_g + dry_soil_g,
-            "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100)}
+    return {
+        "tare_g": tare_g,
+        "dry_tare_g": tare_g + dry_soil_g,
+        "wet_tare_g": tare_g + dry_soil_g * (1 + w / 100),
+    }
 
 
 def test_every_reported_value_of_a_full_set_carries_its_uncertainty_with_k_2() -> None:
-    readings = {"water_content": {"determinations": [det(35.0)]},
-                "liquid_limit": {"method": "ll-cup-multipoint", "trials": [
-                    {"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}]},
-                "plastic_limit": {"determinations": [det(21.0), det(21.3)]}, "clay_fraction": 31.0}
+    readings = {
+        "water_content": {"determinations": [det(35.0)]},
+        "liquid_limit": {
+            "method": "ll-cup-multipoint",
+            "trials": [{"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}],
+        },
+        "plastic_limit": {"determinations": [det(21.0), det(21.3)]},
+        "clay_fraction": 31.0,
+    }
     r = calculate("atterberg", readings).results
-    keys = {"water_content", "liquid_limit", "flow_index", "plastic_limit", "plasticity_index",
-            "liquidity_index", "consistency_index", "activity"}
+    keys = {
+        "water_content",
+        "liquid_limit",
+        "flow_index",
+        "plastic_limit",
+        "plasticity_index",
+        "liquidity_index",
+        "consistency_index",
+        "activity",
+    }
     assert set(r["uncertainty"]) == keys
     for key in keys:
         entry = r["uncertainty"][key]
@@ -84,17 +100,23 @@ def test_every_reported_value_of_a_full_set_carries_its_uncertainty_with_k_2() -
 
 def test_a_fitted_limit_includes_the_scatter_of_the_flow_curve() -> None:
     # Das (problem set) trials scatter about their line; on an exact line the fit adds nothing.
-    scatter = calculate("ll-cup-multipoint", {"trials": [
-        {"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}]}).results
-    exact = calculate("ll-cup-multipoint", {"trials": [
-        {"blows": n, **det(40.0 - 10.0 * math.log10(n / 25))} for n in (15, 20, 28)]}).results
+    scatter = calculate(
+        "ll-cup-multipoint",
+        {"trials": [{"blows": 15, **det(42.0)}, {"blows": 20, **det(40.8)}, {"blows": 28, **det(39.1)}]},
+    ).results
+    exact = calculate(
+        "ll-cup-multipoint",
+        {"trials": [{"blows": n, **det(40.0 - 10.0 * math.log10(n / 25))} for n in (15, 20, 28)]},
+    ).results
     assert scatter["uncertainty"]["liquid_limit"]["u"] > 2 * exact["uncertainty"]["liquid_limit"]["u"]
 
 
 def test_a_coarser_balance_gives_a_larger_uncertainty() -> None:
     fine = calculate("water-content", {"determinations": [det(30.0)]}).results
-    coarse = calculate("water-content", {"determinations": [det(30.0)],
-                                         "balance": {"resolution_g": 0.1, "calibration_u_g": 0.05}}).results
+    coarse = calculate(
+        "water-content",
+        {"determinations": [det(30.0)], "balance": {"resolution_g": 0.1, "calibration_u_g": 0.05}},
+    ).results
     ratio = coarse["uncertainty"]["water_content"]["u"] / fine["uncertainty"]["water_content"]["u"]
     assert ratio == pytest.approx(10.0)  # every component scaled by ten (JCGM 100:2008 eq. 10)
 

@@ -20,10 +20,15 @@ def test_water_content_follows_the_astm_d2216_formula() -> None:
 def test_water_content_method_averages_the_determinations() -> None:
     # Liu & Evett, Soil Properties (worked example, masses 20.47/18.93/11.56 and
     # 21.27/19.57/11.68 g) give 20.9 % and 21.5 %; mean 21.2 % (unrounded 20.8955 and 21.5463 -> 21.2209).
-    ev = calculate("water-content", {"determinations": [
-        {"tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
-        {"tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57},
-    ]})
+    ev = calculate(
+        "water-content",
+        {
+            "determinations": [
+                {"tare_g": 11.56, "wet_tare_g": 20.47, "dry_tare_g": 18.93},
+                {"tare_g": 11.68, "wet_tare_g": 21.27, "dry_tare_g": 19.57},
+            ]
+        },
+    )
     assert [round(w, 1) for w in ev.results["water_content_determinations"]] == [20.9, 21.5]
     assert ev.results["water_content"] == pytest.approx(21.2209, abs=1e-4)
 

@@ -36,8 +36,9 @@ def test_viscosity_at_20_c_is_1_0016_mpa_s() -> None:
         (1173.15, 400.0, 64.154608),  # IAPWS 2008 Table 4 (from memory)
     ],
 )
-def test_viscosity_matches_the_iapws_2008_verification_table(temperature_k: float, density: float,
-                                                             micro_pa_s: float) -> None:
+def test_viscosity_matches_the_iapws_2008_verification_table(
+    temperature_k: float, density: float, micro_pa_s: float
+) -> None:
     assert viscosity_iapws2008(temperature_k, density) * 1e6 == pytest.approx(micro_pa_s, abs=2e-6)
 
 
@@ -46,24 +47,29 @@ def test_viscosity_matches_the_iapws_2008_verification_table(temperature_k: floa
 def test_viscosity_formula_agrees_with_the_iapws_package(temperature_k: float, density: float) -> None:
     # `iapws` _Viscosity implements the same IAPWS 2008 equations 10-12 (without critical enhancement
     # when no phase data are passed).
-    assert viscosity_iapws2008(temperature_k, density) == pytest.approx(_Viscosity(density, temperature_k),
-                                                                        rel=1e-12)
+    assert viscosity_iapws2008(temperature_k, density) == pytest.approx(
+        _Viscosity(density, temperature_k), rel=1e-12
+    )
 
 
 @pytest.mark.parametrize("temperature_c", TEMPERATURES_C)
-def test_density_agrees_with_iapws95_to_one_ppm(temperature_c: float,
-                                                iapws95_at_one_atmosphere: dict[float, IAPWS95]) -> None:
+def test_density_agrees_with_iapws95_to_one_ppm(
+    temperature_c: float, iapws95_at_one_atmosphere: dict[float, IAPWS95]
+) -> None:
     # Tanaka et al. (2001) against IAPWS-95 at 0.101325 MPa via `iapws`: within about 1 ppm over 0-40 °C.
-    assert water_density(temperature_c) == pytest.approx(iapws95_at_one_atmosphere[temperature_c].rho,
-                                                         rel=1.5e-6)
+    assert water_density(temperature_c) == pytest.approx(
+        iapws95_at_one_atmosphere[temperature_c].rho, rel=1.5e-6
+    )
 
 
 @pytest.mark.parametrize("temperature_c", TEMPERATURES_C)
 def test_viscosity_agrees_with_iapws_at_one_atmosphere(
-        temperature_c: float, iapws95_at_one_atmosphere: dict[float, IAPWS95]) -> None:
+    temperature_c: float, iapws95_at_one_atmosphere: dict[float, IAPWS95]
+) -> None:
     # `iapws` IAPWS95(T, P).mu: IAPWS 2008 viscosity at the IAPWS-95 density.
-    assert water_viscosity(temperature_c) == pytest.approx(iapws95_at_one_atmosphere[temperature_c].mu,
-                                                           rel=2e-6)
+    assert water_viscosity(temperature_c) == pytest.approx(
+        iapws95_at_one_atmosphere[temperature_c].mu, rel=2e-6
+    )
 
 
 def test_density_is_greatest_near_4_c() -> None:

@@ -28,15 +28,32 @@ HOSTILE = "<script>alert(1)</script> & <b>"
 
 # Das, Principles of Geotechnical Engineering, problem set: N 15/20/28, w 42.0/40.8/39.1 %;
 # least squares in log10 N gives LL 39.67 at 25 blows (REFERENCES.md, computed fit below).
-DAS_TRIALS = [{"blows": 15, "water_content": 42.0}, {"blows": 20, "water_content": 40.8},
-              {"blows": 28, "water_content": 39.1}]
-DAS_FIT = {"x": "blows", "log_x": True, "slope": -10.72468960148271, "intercept": 54.662225750847284,
-           "r2": 0.9970743789609344, "target_x": 25}
+DAS_TRIALS = [
+    {"blows": 15, "water_content": 42.0},
+    {"blows": 20, "water_content": 40.8},
+    {"blows": 28, "water_content": 39.1},
+]
+DAS_FIT = {
+    "x": "blows",
+    "log_x": True,
+    "slope": -10.72468960148271,
+    "intercept": 54.662225750847284,
+    "r2": 0.9970743789609344,
+    "target_x": 25,
+}
 # Fictional cone test of our own; least-squares line computed: LL 54.98 at 20 mm (BS 1377-2:1990 cl. 4.3).
-CONE_TRIALS = [{"penetration_mm": d, "water_content": w}
-               for d, w in ((15.8, 48.3), (18.1, 52.1), (20.9, 56.4), (23.6, 60.6))]
-CONE_FIT = {"x": "penetration_mm", "log_x": False, "slope": 1.5715532286212919,
-            "intercept": 23.54755671902268, "r2": 0.999776532937812, "target_x": 20.0}
+CONE_TRIALS = [
+    {"penetration_mm": d, "water_content": w}
+    for d, w in ((15.8, 48.3), (18.1, 52.1), (20.9, 56.4), (23.6, 60.6))
+]
+CONE_FIT = {
+    "x": "penetration_mm",
+    "log_x": False,
+    "slope": 1.5715532286212919,
+    "intercept": 23.54755671902268,
+    "r2": 0.999776532937812,
+    "target_x": 20.0,
+}
 
 
 def parse(svg: str) -> ET.Element:
@@ -169,8 +186,9 @@ def test_places_each_trial_on_the_log_blow_axis() -> None:
     frame = Frame(330.0, 235.0)
     xs = sorted(float(c.get("cx", "nan")) for c in root.iter(f"{NS}circle"))
     for n, x in zip((15, 20, 28), xs, strict=True):
-        assert x == pytest.approx(frame.left + (math.log10(n) - 1) / (math.log10(50) - 1)
-                                  * (frame.right - frame.left), abs=0.02)
+        assert x == pytest.approx(
+            frame.left + (math.log10(n) - 1) / (math.log10(50) - 1) * (frame.right - frame.left), abs=0.02
+        )
 
 
 def test_marks_the_cone_liquid_limit_at_20_mm_on_a_linear_axis() -> None:
@@ -204,8 +222,17 @@ def test_flow_curve_labels_its_axes_with_units() -> None:
 
 def test_xy_chart_places_points_on_a_log_axis() -> None:
     grading = Series("BH1 S1", [(0.075, 40.0), (1.0, 70.0), (10.0, 100.0)])
-    root = parse(xy_chart([grading], title="Grading", x_label="Particle size (mm)", y_label="Passing (%)",
-                          x_log=True, x_range=(0.01, 100.0), y_range=(0.0, 100.0)))
+    root = parse(
+        xy_chart(
+            [grading],
+            title="Grading",
+            x_label="Particle size (mm)",
+            y_label="Passing (%)",
+            x_log=True,
+            x_range=(0.01, 100.0),
+            y_range=(0.0, 100.0),
+        )
+    )
     frame = Frame(480.0, 300.0)
     (line,) = by_class(root, "polyline", "series")
     for (x, y), (size, passing) in zip(points_of(line), grading.points, strict=True):
@@ -215,26 +242,44 @@ def test_xy_chart_places_points_on_a_log_axis() -> None:
 
 
 def test_xy_chart_leaves_out_a_value_a_log_axis_cannot_show() -> None:
-    root = parse(xy_chart([Series("s", [(0.0, 5.0), (1.0, 6.0), (2.0, 7.0)])], title="t", x_label="x (mm)",
-                          y_label="y (kPa)", x_log=True))
+    root = parse(
+        xy_chart(
+            [Series("s", [(0.0, 5.0), (1.0, 6.0), (2.0, 7.0)])],
+            title="t",
+            x_label="x (mm)",
+            y_label="y (kPa)",
+            x_log=True,
+        )
+    )
     assert len(points_of(by_class(root, "polyline", "series")[0])) == 2
 
 
 def test_xy_chart_tells_series_apart_without_colour_and_escapes_legends() -> None:
-    svg = xy_chart([Series(HOSTILE, [(0, 0), (1, 1)]), Series("B", [(0, 1), (1, 0)])], title="Stress-strain",
-                   x_label="Axial strain (%)", y_label="Deviator stress (kPa)")
+    svg = xy_chart(
+        [Series(HOSTILE, [(0, 0), (1, 1)]), Series("B", [(0, 1), (1, 0)])],
+        title="Stress-strain",
+        x_label="Axial strain (%)",
+        y_label="Deviator stress (kPa)",
+    )
     root = parse(svg)
     lines = by_class(root, "polyline", "series")
     assert lines[0].get("stroke-dasharray") != lines[1].get("stroke-dasharray")
     assert HOSTILE in texts(root) and "<script>" not in svg
-    assert svg == xy_chart([Series(HOSTILE, [(0, 0), (1, 1)]), Series("B", [(0, 1), (1, 0)])],
-                           title="Stress-strain", x_label="Axial strain (%)", y_label="Deviator stress (kPa)")
+    assert svg == xy_chart(
+        [Series(HOSTILE, [(0, 0), (1, 1)]), Series("B", [(0, 1), (1, 0)])],
+        title="Stress-strain",
+        x_label="Axial strain (%)",
+        y_label="Deviator stress (kPa)",
+    )
 
 
 # -- depth profile, grading and activity charts ----------------------------------------------------
 
-PROFILE = [ProfileRow("U1", 1.225, 24.0, 38.0, 19.0), ProfileRow("U3", 4.225, 49.0, 44.0, 22.0),
-           ProfileRow("D3", 3.725, 21.0, 24.0, None)]  # fictional demo samples; D3 non-plastic (no PL)
+PROFILE = [
+    ProfileRow("U1", 1.225, 24.0, 38.0, 19.0),
+    ProfileRow("U3", 4.225, 49.0, 44.0, 22.0),
+    ProfileRow("D3", 3.725, 21.0, 24.0, None),
+]  # fictional demo samples; D3 non-plastic (no PL)
 
 
 def test_depth_profile_puts_deeper_samples_lower_with_the_plastic_range_between_pl_and_ll() -> None:
@@ -284,5 +329,6 @@ def test_activity_chart_draws_lines_of_constant_activity_and_plots_each_sample()
         assert pi / clay == pytest.approx(a, abs=1e-3)  # A = PI / clay fraction (Skempton 1953)
     (point,) = by_class(root, "circle", "point")
     assert (float(point.get("cx", "nan")), float(point.get("cy", "nan"))) == pytest.approx(
-        (frame.x(24, 0, 60), frame.y(19, 0, 60)), abs=0.01)
+        (frame.x(24, 0, 60), frame.y(19, 0, 60)), abs=0.01
+    )
     assert {e.text for e in by_class(root, "text", "zone")} == {"inactive", "normal", "active"}

@@ -294,11 +294,21 @@ def test_shows_the_signature_time_in_utc_or_with_its_offset() -> None:
 
 
 def test_summary_takes_uscs_and_aashto_from_the_classification_and_clay_from_the_grading() -> None:
-    limits = entry({"liquid_limit": 38.0, "plastic_limit": 19.0, "plasticity_index": 19.0,
-                    "clay_fraction": 31.0, "activity": 0.6129, "uscs_symbol": "CL"})
+    limits = entry(
+        {
+            "liquid_limit": 38.0,
+            "plastic_limit": 19.0,
+            "plasticity_index": 19.0,
+            "clay_fraction": 31.0,
+            "activity": 0.6129,
+            "uscs_symbol": "CL",
+        }
+    )
     grading = entry({"clay_fraction": 24.06, "fines": 78.0}, method="grading")
-    classified = entry({"uscs_symbol": "CL", "uscs_name": "Lean clay with sand", "aashto_group": "A-6",
-                        "group_index": 14}, method="classification")
+    classified = entry(
+        {"uscs_symbol": "CL", "uscs_name": "Lean clay with sand", "aashto_group": "A-6", "group_index": 14},
+        method="classification",
+    )
     row = summary_row([limits, classified, grading])
     assert (row.uscs_name, row.aashto, row.clay_fraction) == ("Lean clay with sand", "A-6 (14)", "24")
     assert row.activity == "0.79"  # A = PI / clay = 19 / 24.06 = 0.790 (Skempton 1953), from the shown values
@@ -307,40 +317,67 @@ def test_summary_takes_uscs_and_aashto_from_the_classification_and_clay_from_the
 def test_grading_points_prefer_the_combined_curve_largest_size_first() -> None:
     results = {
         "grading_curve": [{"size_mm": 2.0, "percent_passing": 60.0}],
-        "combined_curve": [{"size_mm": 0.002, "percent_passing": 9.0, "source": "hydrometer"},
-                           {"size_mm": 2.0, "percent_passing": 60.0, "source": "sieve"}],
+        "combined_curve": [
+            {"size_mm": 0.002, "percent_passing": 9.0, "source": "hydrometer"},
+            {"size_mm": 2.0, "percent_passing": 60.0, "source": "sieve"},
+        ],
     }
     assert grading_points(results) == [(2.0, 60.0), (0.002, 9.0)]
-    hydro = {"hydrometer_points": [{"diameter_mm": 0.03, "percent_finer": 45.0},
-                                   {"diameter_mm": 0.0, "percent_finer": 1}]}
+    hydro = {
+        "hydrometer_points": [
+            {"diameter_mm": 0.03, "percent_finer": 45.0},
+            {"diameter_mm": 0.0, "percent_finer": 1},
+        ]
+    }
     assert grading_points(hydro) == [(0.03, 45.0)]  # a size of zero cannot sit on a log axis
 
 
 def test_view_has_a_depth_profile_per_location_and_grading_and_activity_charts() -> None:
-    a = entry({"water_content": 24.0, "liquid_limit": 38.0, "plastic_limit": 19.0, "plasticity_index": 19.0,
-               "clay_fraction": 24.0}, location="BH1")
+    a = entry(
+        {
+            "water_content": 24.0,
+            "liquid_limit": 38.0,
+            "plastic_limit": 19.0,
+            "plasticity_index": 19.0,
+            "clay_fraction": 24.0,
+        },
+        location="BH1",
+    )
     curve = [{"size_mm": 2.0, "percent_passing": 90.0}, {"size_mm": 0.002, "percent_passing": 24.0}]
     g = entry({"combined_curve": curve}, location="BH1", method="grading")
-    b = entry({"water_content": 30.0, "liquid_limit": 50.0, "plastic_limit": 25.0, "plasticity_index": 25.0},
-              location="BH2", sample="S2")
+    b = entry(
+        {"water_content": 30.0, "liquid_limit": 50.0, "plastic_limit": 25.0, "plasticity_index": 25.0},
+        location="BH2",
+        sample="S2",
+    )
     view = build_view(report(a, g, b))
     assert [f.title for f in view.depth_profiles] == ["Location BH1", "Location BH2"]
     assert [f.title for f in view.grading_charts] == ["Location BH1"]
     assert view.activity_chart is not None
     assert [(p.sample, p.clay_fraction, p.plasticity_index, p.activity) for p in view.activity_points] == [
-        ("BH1 / S1", "24", "19", "0.79")]  # 19 / 24 = 0.79 (Skempton 1953)
+        ("BH1 / S1", "24", "19", "0.79")
+    ]  # 19 / 24 = 0.79 (Skempton 1953)
     assert [s.first_of_sample for s in view.sections] == [True, False, True]  # a sample's tests follow on
 
 
 def test_lists_each_tests_approval_and_each_amendment_with_its_reason() -> None:
     signed = Signatory("Marta Quill", "Reviewer", "Reviewed and approved", "2025-03-14T10:00:00+00:00")
-    amended = dataclasses.replace(entry({"liquid_limit": 40.0}), revision=2, approval=signed,
-                                  amendment_reason="Tin re-weighed")
-    view = build_view(dataclasses.replace(report(amended, entry({}, sample="S2")),
-                                          history=[RevisionNote(1, "2025-03-01", "ab" * 32)]))
+    amended = dataclasses.replace(
+        entry({"liquid_limit": 40.0}), revision=2, approval=signed, amendment_reason="Tin re-weighed"
+    )
+    view = build_view(
+        dataclasses.replace(
+            report(amended, entry({}, sample="S2")), history=[RevisionNote(1, "2025-03-01", "ab" * 32)]
+        )
+    )
     (line,) = view.approvals
     assert (line.sample, line.name, line.role, line.meaning, line.signed_at) == (
-        "BH1 / S1", "Marta Quill", "Reviewer", "Reviewed and approved", "2025-03-14 10:00 UTC")
+        "BH1 / S1",
+        "Marta Quill",
+        "Reviewer",
+        "Reviewed and approved",
+        "2025-03-14 10:00 UTC",
+    )
     (change,) = view.amendments
     assert (change.revision, change.reason) == (2, "Tin re-weighed")
     assert view.history[0].revision == 1 and view.sections[0].approval.startswith("Marta Quill, Reviewer")

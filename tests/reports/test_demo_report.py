@@ -49,8 +49,12 @@ class Demo:
 @pytest.fixture(scope="module")
 def demo(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Demo]:
     data_dir = tmp_path_factory.mktemp("demo")
-    settings = Settings(data_dir=data_dir, DATABASE_URL=f"sqlite:///{data_dir / 'demo.sqlite3'}",
-                        secret_key="d" * 48, public_base_url=BASE)
+    settings = Settings(
+        data_dir=data_dir,
+        DATABASE_URL=f"sqlite:///{data_dir / 'demo.sqlite3'}",
+        secret_key="d" * 48,
+        public_base_url=BASE,
+    )
     info = load_demo(settings)
     db = Database(settings.database_url)
     with db.session() as s:
@@ -77,9 +81,14 @@ def _summary_row(demo: Demo, code: str) -> str:
 
 def test_prints_the_laboratory_client_job_number_revision_and_issue_date(demo: Demo) -> None:
     first = " ".join(demo.pages[0].split())
-    for item in ("Fellgate Soils Laboratory", "Selwyn Moor Water Company", "SMW-2611",
-                 "Tarn Hollow reservoir embankment raising", f"{demo.report.number} revision 1",
-                 f"Issue date {demo.report.issued_at.date().isoformat()}"):
+    for item in (
+        "Fellgate Soils Laboratory",
+        "Selwyn Moor Water Company",
+        "SMW-2611",
+        "Tarn Hollow reservoir embankment raising",
+        f"{demo.report.number} revision 1",
+        f"Issue date {demo.report.issued_at.date().isoformat()}",
+    ):
         assert item in first
 
 
@@ -94,8 +103,14 @@ def test_numbers_every_page_n_of_m_and_prints_the_fingerprint_and_verify_address
 def test_summary_has_one_row_per_reported_sample_with_every_index(demo: Demo) -> None:
     u1 = demo.results[("BH01-U1", "atterberg")]
     row = _summary_row(demo, "BH01-U1")
-    keys = ("water_content", "liquid_limit", "plastic_limit", "plasticity_index", "liquidity_index",
-            "consistency_index")
+    keys = (
+        "water_content",
+        "liquid_limit",
+        "plastic_limit",
+        "plasticity_index",
+        "liquidity_index",
+        "consistency_index",
+    )
     expected = [reported(key, u1[key]) for key in keys]
     assert row.startswith("1.00 1.45 U100 " + " ".join(expected)), row  # depth, type, w, LL, PL, PI, LI, CI
     grading = demo.results[("BH01-U1", "grading")]
@@ -104,9 +119,11 @@ def test_summary_has_one_row_per_reported_sample_with_every_index(demo: Demo) ->
     vane = demo.results[("BH01-U1", "vane")]
     classified = demo.results[("BH01-U1", "classification")]
     gi = reported("group_index", classified["group_index"])
-    tail = (f"{reported('activity', activity)} {reported('clay_fraction', clay)} "
-            f"{reported('sensitivity', vane['sensitivity'])} {classified['uscs_symbol']} "
-            f"{classified['uscs_name']} {classified['aashto_group']} ({gi})")
+    tail = (
+        f"{reported('activity', activity)} {reported('clay_fraction', clay)} "
+        f"{reported('sensitivity', vane['sensitivity'])} {classified['uscs_symbol']} "
+        f"{classified['uscs_name']} {classified['aashto_group']} ({gi})"
+    )
     assert tail in row, row
     approved_samples = {code for code, _ in demo.results}
     for code in approved_samples:
@@ -120,22 +137,29 @@ def test_marks_the_non_plastic_sample_np(demo: Demo) -> None:
 
 def test_per_test_pages_carry_readings_each_water_content_fitted_curve_and_remarks(demo: Demo) -> None:
     at = next(i for i, p in enumerate(demo.pages) if "Test details: BH01 / BH01-U1 — Atterberg" in p)
-    page = " ".join(" ".join(demo.pages[at:at + 2]).split())  # the test's page and the one it runs on to
+    page = " ".join(" ".join(demo.pages[at : at + 2]).split())  # the test's page and the one it runs on to
     u1 = demo.results[("BH01-U1", "atterberg")]
     assert "Readings as entered" in page and "Quality remarks" in page
     assert "Least-squares line: w =" in page and "Flow curve" in page
     for w in u1["water_content_determinations"]:
         w_value = w["water_content"] if isinstance(w, dict) else w
         assert reported("water_content", w_value) in page
-    for name in ("Grading by sieving and sedimentation", "Undrained strength by laboratory vane",
-                 "Soil classification (USCS and AASHTO)", "Unconfined compressive strength"):
+    for name in (
+        "Grading by sieving and sedimentation",
+        "Undrained strength by laboratory vane",
+        "Soil classification (USCS and AASHTO)",
+        "Unconfined compressive strength",
+    ):
         assert f"— {name}" in demo.flat
 
 
 def test_draws_and_labels_the_charts(demo: Demo) -> None:
     chart = " ".join(next(p for p in demo.pages if "Plasticity chart (ASTM D2487)" in p).split())
-    plastic = [code for (code, method), r in demo.results.items()
-               if method == "atterberg" and not r.get("nonplastic")]
+    plastic = [
+        code
+        for (code, method), r in demo.results.items()
+        if method == "atterberg" and not r.get("nonplastic")
+    ]
     for code in plastic:
         assert code in chart  # every plotted sample labelled (the chart's labels and its table)
     for location in ("BH01", "BH02"):
@@ -171,8 +195,11 @@ def test_no_page_is_blank_when_rasterised(demo: Demo) -> None:
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "report.pdf"
         path.write_bytes(demo.report.pdf)
-        subprocess.run(["pdftoppm", "-r", "20", "-gray", str(path), str(Path(tmp) / "p")], check=True,
-                       capture_output=True)
+        subprocess.run(
+            ["pdftoppm", "-r", "20", "-gray", str(path), str(Path(tmp) / "p")],
+            check=True,
+            capture_output=True,
+        )
         images = sorted(Path(tmp).glob("p-*.pgm"))
         assert len(images) == len(demo.pages)
         for image in images:
@@ -188,8 +215,9 @@ def test_the_same_report_data_render_the_same_bytes_as_the_stored_pdf(demo: Demo
     with demo.db.session() as s:
         issuer = s.get(User, demo.report.issued_by_id)
         assert issuer is not None
-        data, _ = new_report_data(s, demo.report.job_id, issuer, demo.report.issued_at, BASE,
-                                  number=demo.report.number)
+        data, _ = new_report_data(
+            s, demo.report.job_id, issuer, demo.report.issued_at, BASE, number=demo.report.number
+        )
     again = render_report_pdf(data)
     assert hashlib.sha256(again).hexdigest() == demo.report.sha256
 

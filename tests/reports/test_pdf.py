@@ -37,8 +37,11 @@ def _det(container: str, tare: float, wet: float, dry: float) -> dict[str, Any]:
     return {"container": container, "tare_g": tare, "wet_tare_g": wet, "dry_tare_g": dry}
 
 
-def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Firm brown sandy CLAY",
-              ) -> TestEntry:
+def lean_clay(
+    sample: str = "S1",
+    location: str = "BH1",
+    description: str = "Firm brown sandy CLAY",
+) -> TestEntry:
     """A CL sample: the liquid-limit trials and fit of Das's multipoint example, the PL of Liu & Evett."""
     results = {
         "water_content": 32.946,
@@ -51,8 +54,14 @@ def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Fir
             {"blows": 28, "water_content": 39.1},
         ],
         # Least squares of w on log10 N of those points (computed): LL 39.67, If 10.72 (REFERENCES.md).
-        "flow_curve": {"x": "blows", "log_x": True, "slope": -10.72468960148271,
-                       "intercept": 54.662225750847284, "r2": 0.9970743789609344, "target_x": 25},
+        "flow_curve": {
+            "x": "blows",
+            "log_x": True,
+            "slope": -10.72468960148271,
+            "intercept": 54.662225750847284,
+            "r2": 0.9970743789609344,
+            "target_x": 25,
+        },
         "liquid_limit": 39.66975307634563,
         "flow_index": 10.72468960148271,
         # Liu & Evett, Soil Properties, worked example: 20.9 % and 21.5 %, PL 21.2.
@@ -71,27 +80,53 @@ def lean_clay(sample: str = "S1", location: str = "BH1", description: str = "Fir
         "plasticity_chart": {"liquid_limit": 39.67, "plasticity_index": 19.0, "symbol": "CL"},
         "uncertainty": {"water_content": {"u": 0.03, "U": 0.06, "k": 2.0}},
         "interpretation": {
-            "compression_index": {"value": 0.267, "unit": "", "source": "Terzaghi & Peck (1967)",
-                                  "note": "Cc = 0.009 (LL - 10), undisturbed clay of low sensitivity"},
+            "compression_index": {
+                "value": 0.267,
+                "unit": "",
+                "source": "Terzaghi & Peck (1967)",
+                "note": "Cc = 0.009 (LL - 10), undisturbed clay of low sensitivity",
+            },
         },
     }
     readings = {
-        "water_content": {"determinations": [_det("T-17", 15.20, 45.62, 38.11),
-                                             _det("T-04", 14.88, 46.96, 38.98)]},
-        "liquid_limit": {"method": "ll-cup-multipoint", "trials": [
-            {"blows": 15, **_det("L-1", 16.02, 38.77, 32.04)},
-            {"blows": 20, **_det("L-2", 15.87, 39.10, 32.37)},
-            {"blows": 28, **_det("L-3", 16.11, 39.55, 32.95)},
-        ]},
-        "plastic_limit": {"determinations": [_det("P-1", 11.56, 20.47, 18.93),
-                                             _det("P-2", 11.68, 21.27, 19.57)]},
+        "water_content": {
+            "determinations": [_det("T-17", 15.20, 45.62, 38.11), _det("T-04", 14.88, 46.96, 38.98)]
+        },
+        "liquid_limit": {
+            "method": "ll-cup-multipoint",
+            "trials": [
+                {"blows": 15, **_det("L-1", 16.02, 38.77, 32.04)},
+                {"blows": 20, **_det("L-2", 15.87, 39.10, 32.37)},
+                {"blows": 28, **_det("L-3", 16.11, 39.55, 32.95)},
+            ],
+        },
+        "plastic_limit": {
+            "determinations": [_det("P-1", 11.56, 20.47, 18.93), _det("P-2", 11.68, 21.27, 19.57)]
+        },
         "clay_fraction": 31.0,
         "fines": 86.0,
     }
-    flags = [{"code": "blows-bands-not-covered", "severity": "warning",
-              "message": "the trials do not fall one each in the 25-35, 20-30 and 15-25 blow bands"}]
-    return TestEntry(sample, location, 1.20, 1.65, "U100", description, "atterberg", results, readings, flags,
-                     revision=0, method_title="Atterberg limits")
+    flags = [
+        {
+            "code": "blows-bands-not-covered",
+            "severity": "warning",
+            "message": "the trials do not fall one each in the 25-35, 20-30 and 15-25 blow bands",
+        }
+    ]
+    return TestEntry(
+        sample,
+        location,
+        1.20,
+        1.65,
+        "U100",
+        description,
+        "atterberg",
+        results,
+        readings,
+        flags,
+        revision=0,
+        method_title="Atterberg limits",
+    )
 
 
 def nonplastic_silt() -> TestEntry:
@@ -104,8 +139,19 @@ def nonplastic_silt() -> TestEntry:
         "uscs_name": "Silt",
     }
     readings = {"water_content": {"determinations": [_det("T-22", 15.01, 43.70, 39.24)]}}
-    return TestEntry("S2", "BH1", 3.00, 3.45, "B", "Loose grey clayey SILT", "atterberg", results, readings,
-                     revision=1, method_title="Atterberg limits")
+    return TestEntry(
+        "S2",
+        "BH1",
+        3.00,
+        3.45,
+        "B",
+        "Loose grey clayey SILT",
+        "atterberg",
+        results,
+        readings,
+        revision=1,
+        method_title="Atterberg limits",
+    )
 
 
 def fat_clay() -> TestEntry:
@@ -122,8 +168,14 @@ def fat_clay() -> TestEntry:
             {"penetration_mm": 23.6, "water_content": 60.6, "drops_mm": [23.5, 23.7]},
         ],
         # Least squares of w on penetration of those points (computed): LL 54.98 at 20 mm.
-        "flow_curve": {"x": "penetration_mm", "log_x": False, "slope": 1.5715532286212919,
-                       "intercept": 23.54755671902268, "r2": 0.999776532937812, "target_x": 20.0},
+        "flow_curve": {
+            "x": "penetration_mm",
+            "log_x": False,
+            "slope": 1.5715532286212919,
+            "intercept": 23.54755671902268,
+            "r2": 0.999776532937812,
+            "target_x": 20.0,
+        },
         "liquid_limit": 54.97862129144852,
         "plastic_limit_determinations": [26.8, 27.1],
         "plastic_limit": 26.95,
@@ -137,24 +189,43 @@ def fat_clay() -> TestEntry:
     }
     readings = {
         "water_content": {"determinations": [_det("T-31", 15.33, 52.20, 41.43)]},
-        "liquid_limit": {"method": "ll-cone", "cone": "80g-30deg", "trials": [
-            {"penetration_mm": [15.7, 15.9], **_det("C-1", 20.10, 45.00, 36.89)},
-            {"penetration_mm": [18.0, 18.2], **_det("C-2", 20.05, 44.90, 36.39)},
-            {"penetration_mm": [20.8, 21.0], **_det("C-3", 20.12, 45.70, 36.53)},
-            {"penetration_mm": [23.5, 23.7], **_det("C-4", 20.08, 46.10, 36.30)},
-        ]},
-        "plastic_limit": {"determinations": [_det("P-7", 11.60, 21.00, 19.01),
-                                             _det("P-8", 11.52, 20.84, 18.86)]},
+        "liquid_limit": {
+            "method": "ll-cone",
+            "cone": "80g-30deg",
+            "trials": [
+                {"penetration_mm": [15.7, 15.9], **_det("C-1", 20.10, 45.00, 36.89)},
+                {"penetration_mm": [18.0, 18.2], **_det("C-2", 20.05, 44.90, 36.39)},
+                {"penetration_mm": [20.8, 21.0], **_det("C-3", 20.12, 45.70, 36.53)},
+                {"penetration_mm": [23.5, 23.7], **_det("C-4", 20.08, 46.10, 36.30)},
+            ],
+        },
+        "plastic_limit": {
+            "determinations": [_det("P-7", 11.60, 21.00, 19.01), _det("P-8", 11.52, 20.84, 18.86)]
+        },
     }
-    return TestEntry("S3", "TP2", 0.50, None, "B", "Stiff dark grey CLAY", "atterberg", results, readings,
-                     revision=0, method_title="Atterberg limits")
+    return TestEntry(
+        "S3",
+        "TP2",
+        0.50,
+        None,
+        "B",
+        "Stiff dark grey CLAY",
+        "atterberg",
+        results,
+        readings,
+        revision=0,
+        method_title="Atterberg limits",
+    )
 
 
 def fictional_job(tests: list[TestEntry] | None = None) -> ReportData:
     """Report of a small fictional job of our own: Hollin Brook footbridge."""
     return ReportData(
-        lab=LabInfo("Kestrel Vale Soils Laboratory", "Unit 4, Mill Lane\nKestrel Vale KV3 9QP",
-                    "Quality system to ISO/IEC 17025 (fictional)"),
+        lab=LabInfo(
+            "Kestrel Vale Soils Laboratory",
+            "Unit 4, Mill Lane\nKestrel Vale KV3 9QP",
+            "Quality system to ISO/IEC 17025 (fictional)",
+        ),
         client_name="Hollin Brook Parish Council",
         job_code="J-2025-031",
         job_title="Hollin Brook footbridge",
@@ -163,16 +234,22 @@ def fictional_job(tests: list[TestEntry] | None = None) -> ReportData:
         revision=0,
         issue_date=date(2025, 3, 14),
         issued_at_iso="2025-03-14T16:05:00+00:00",
-        approver=Signatory("Dr Ada Marsh", "Laboratory manager",
-                           "Reviewed the readings, calculations and flags and approves the results for issue",
-                           "2025-03-14T15:58:00+00:00"),
+        approver=Signatory(
+            "Dr Ada Marsh",
+            "Laboratory manager",
+            "Reviewed the readings, calculations and flags and approves the results for issue",
+            "2025-03-14T15:58:00+00:00",
+        ),
         verify_url="https://claybench.example/verify/R-2025-031-01",
         tests=tests if tests is not None else [lean_clay(), nonplastic_silt(), fat_clay()],
         methods=[
             MethodNote("Water content", "ASTM D2216-19, Method B"),
             MethodNote("Liquid limit, cup multipoint", "ASTM D4318-17, Method A"),
-            MethodNote("Liquid limit, fall cone 80 g", "BS 1377-2:1990 cl. 4.3",
-                       "Specimens air-dried before test (client request)"),
+            MethodNote(
+                "Liquid limit, fall cone 80 g",
+                "BS 1377-2:1990 cl. 4.3",
+                "Specimens air-dried before test (client request)",
+            ),
             MethodNote("Plastic limit", "ASTM D4318-17"),
         ],
     )
@@ -236,8 +313,10 @@ def test_numbers_every_page_as_page_n_of_m(pages: list[str]) -> None:
         assert f"page {n} of {total}" in text
 
 
-def test_prints_the_content_fingerprint_and_verify_url_on_every_page(pages: list[str], report: ReportData,
-                                                                     ) -> None:
+def test_prints_the_content_fingerprint_and_verify_url_on_every_page(
+    pages: list[str],
+    report: ReportData,
+) -> None:
     fp = content_fingerprint(report)
     for text in pages:
         assert fp in text
@@ -287,8 +366,9 @@ def test_writes_the_creation_date_from_the_issue_record(pdf_bytes: bytes) -> Non
     assert str(info["/CreationDate"]).startswith("D:20250314160500")
 
 
-def test_restores_the_source_date_epoch_after_rendering(report: ReportData,
-                                                        monkeypatch: pytest.MonkeyPatch) -> None:
+def test_restores_the_source_date_epoch_after_rendering(
+    report: ReportData, monkeypatch: pytest.MonkeyPatch
+) -> None:
     monkeypatch.setenv("SOURCE_DATE_EPOCH", "12345")
     render_report_pdf(report)
     assert os.environ["SOURCE_DATE_EPOCH"] == "12345"
@@ -319,8 +399,22 @@ def test_first_page_is_not_blank_when_rasterised(pdf_bytes: bytes) -> None:
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "report.pdf"
         path.write_bytes(pdf_bytes)
-        out = subprocess.run(["/usr/bin/pdftoppm", "-r", "30", "-f", "1", "-l", "1", "-singlefile",
-                              str(path), str(Path(tmp) / "page")], capture_output=True, check=True)
+        out = subprocess.run(
+            [
+                "/usr/bin/pdftoppm",
+                "-r",
+                "30",
+                "-f",
+                "1",
+                "-l",
+                "1",
+                "-singlefile",
+                str(path),
+                str(Path(tmp) / "page"),
+            ],
+            capture_output=True,
+            check=True,
+        )
         assert out.returncode == 0
         dark, total = _non_white_pixels((Path(tmp) / "page.ppm").read_bytes())
     # Text, rules and the QR code ink well over 1 % of page 1; a blank page has none (common practice).

@@ -7,11 +7,19 @@ import pytest
 from sqlmodel import select
 
 from server.db.session import Database
-from server.db.tables import AuditEvent, User
-from server.services import users
+from server.db.tables import AuditEvent, User, UserSession
+from server.services import sessions, users
 from server.services.errors import Conflict, Forbidden, Invalid
 from tests.conftest import PASSWORDS, People
 from tests.workflow.flows import Lab, load
+
+
+def _ended(db: Database, session_id: int | None) -> str | None:
+    """Why the session ended, or None while it is live."""
+    with db.session() as s:
+        row = s.get(UserSession, session_id)
+    assert row is not None
+    return row.end_reason if row.ended_at is not None else None
 
 
 def _user(db: Database, user_id: int | None) -> User:
@@ -83,10 +91,10 @@ def test_deactivating_stops_sign_in_ends_sessions_and_keeps_past_signatures(
 ) -> None:
     lab = Lab(db, people.admin, "US-1")
     signed = lab.approved(people.tech, people.review)
-    before = _user(db, people.review.id)
+    _, open_session = sessions.start(db, people.review, "192.0.2.7", "bench tablet")
     users.set_active(db, people.admin, people.review.id or 0, False, "left the laboratory")
     after = _user(db, people.review.id)
-    assert not after.active and after.session_version == before.session_version + 1
+    assert not after.active and _ended(db, open_session.id) == "deactivated"
     assert users.authenticate(db, "review", PASSWORDS["review"]) is None
     test = load(db, signed)
     assert (test.status, test.approved_by_id, test.approver_role) == (
@@ -115,14 +123,18 @@ def test_deactivation_needs_a_reason_and_never_locks_the_laboratory_out(db: Data
 def test_a_password_reset_changes_the_password_ends_sessions_and_records_no_secret(
     db: Database, people: People
 ) -> None:
-    before = _user(db, people.tech.id)
+    _, open_session = sessions.start(db, people.tech, "192.0.2.7", "bench tablet")
     with pytest.raises(Invalid):
         users.reset_password(db, people.admin, people.tech.id or 0, "short")
     users.reset_password(db, people.admin, people.tech.id or 0, "a-new-long-password", "forgotten")
     after = _user(db, people.tech.id)
-    assert after.session_version == before.session_version + 1
+    assert _ended(db, open_session.id) == "password reset"
     assert users.authenticate(db, "tech", PASSWORDS["tech"]) is None
     assert users.authenticate(db, "tech", "a-new-long-password") is not None
     event = _events(db, people.tech.id)[-1]
-    assert (event.action, event.after, event.reason) == ("password", {"password": "reset"}, "forgotten")
+    assert (event.action, event.after, event.reason) == (
+        "password",
+        {"password": "reset", "sessions_ended": 1},
+        "forgotten",
+    )
     assert after.password_hash not in str(event.before) + str(event.after)

@@ -3,9 +3,6 @@ passwords; a deactivated user is signed out and cannot sign in, and their signat
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-
-import pytest
 from fastapi.testclient import TestClient
 from sqlmodel import select
 
@@ -14,12 +11,6 @@ from server.db.tables import User
 from tests.conftest import PASSWORDS, People
 from tests.support.http import csrf_of, post_form, sign_in
 from tests.workflow.flows import Lab
-
-
-@pytest.fixture
-def second_client(app_client: TestClient) -> Iterator[TestClient]:
-    with TestClient(app_client.app, base_url="http://testserver") as other:
-        yield other
 
 
 def _user(db: Database, username: str) -> User | None:

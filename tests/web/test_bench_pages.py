@@ -31,9 +31,7 @@ def _stored(db: Database, test_id: int) -> LabTest:
 
 def _save_fields(client: TestClient, test_id: int, changes: list[dict[str, str]]) -> Response:
     token = csrf_of(client.get(f"/tests/{test_id}"))
-    return client.post(
-        f"/tests/{test_id}/fields", json={"changes": changes}, headers={"X-CSRF-Token": token}
-    )
+    return client.post(f"/tests/{test_id}/fields", json={"changes": changes}, headers={"X-CSRF-Token": token})
 
 
 def test_every_method_of_the_engine_has_a_bench_page_with_its_title(

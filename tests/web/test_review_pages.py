@@ -6,7 +6,6 @@ from __future__ import annotations
 
 import copy
 import re
-from collections.abc import Iterator
 
 import pytest
 from fastapi.testclient import TestClient
@@ -17,13 +16,6 @@ from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
 from tests.support.scenario import ATTERBERG
 from tests.workflow.flows import EXPIRED_BALANCE, Lab, load, version
-
-
-@pytest.fixture
-def second_client(app_client: TestClient) -> Iterator[TestClient]:
-    """Another browser on the same app (another reviewer at another desk)."""
-    with TestClient(app_client.app, base_url="http://testserver") as other:
-        yield other
 
 
 def _three(db: Database, people: People) -> tuple[Lab, int, int, int]:

@@ -13,7 +13,9 @@ and the routes call the same services the pages call, with the same role rules:
   desk); elsewhere the service decides (a technician may enter readings and submit; the review
   service refuses what a role or the segregation of duties does not allow).
 
-Each token has a rate limit (``Settings.api_rate_limit``, counted with the ``limits`` library
+Unrecognised tokens count against the caller's address (``Settings.token_throttle_address``,
+``server.auth.throttle``): past it, 429 before any token is looked up, so tokens cannot be
+guessed. Each token has a rate limit (``Settings.api_rate_limit``, counted with the ``limits`` library
 in this process's memory): past it, 429 with ``Retry-After``.
 """
 
@@ -32,6 +34,7 @@ from limits.strategies import MovingWindowRateLimiter
 
 from server.api.v1.problems import ApiProblem
 from server.auth.sessions import database
+from server.auth.throttle import client_address, throttles
 from server.db.tables import ApiToken, User
 from server.services import tokens
 from server.workflow.states import CHECKERS, Role
@@ -86,11 +89,21 @@ def caller(
             "send a personal API token: Authorization: Bearer <token>",
             headers={"WWW-Authenticate": REALM},
         )
+    address, guesses = client_address(request), throttles(request).token_address
+    held = guesses.wait(address)
+    if held:
+        raise ApiProblem(
+            429,
+            f"too many unrecognised tokens were sent from this address; retry after {held} s",
+            headers={"Retry-After": str(held)},
+        )
     try:
         user, token = tokens.authenticate(database(request), credentials.credentials)
     except tokens.TokenRefused as exc:
         if exc.token is not None:
             request.state.api_token = exc.token  # a refused use of a known token is logged too
+        else:
+            guesses.fail(address)  # only a token that names nothing is a guess
         words = str(exc).replace('"', "'")
         raise ApiProblem(
             401,
