@@ -15,6 +15,7 @@ from pathlib import Path
 from limits import parse_many
 from pydantic import Field, model_validator
 from pydantic_settings import BaseSettings, SettingsConfigDict
+from sqlalchemy.engine import make_url
 
 ROOT = Path(__file__).resolve().parents[1]
 """The repository root: templates/, static/ and migrations/ live beside the package."""
@@ -65,7 +66,23 @@ class Settings(BaseSettings):
             self.migrate_database_url = self.database_url
         if self.environment != "development" and self.secret_key and len(self.secret_key) < 32:
             raise ValueError("CLAYBENCH_SECRET_KEY must be at least 32 characters outside development")
+        if self.production:
+            self._refuse_defaults()
         return self
+
+    def _refuse_defaults(self) -> None:
+        """A live server starts only with secrets of its own: a key set by its operator (not one
+        generated into a data folder that every replica would generate differently) and database
+        passwords that are not an example's."""
+        if not self.secret_key or _is_placeholder(self.secret_key):
+            raise ValueError("CLAYBENCH_SECRET_KEY must be set to a random value of your own in production")
+        for name, url in (
+            ("DATABASE_URL", self.database_url),
+            ("CLAYBENCH_MIGRATE_DATABASE_URL", self.migrate_database_url),
+        ):
+            password = make_url(url).password
+            if password is not None and _is_placeholder(str(password)):
+                raise ValueError(f"{name} has an example password: set one of your own in production")
 
     @property
     def production(self) -> bool:
@@ -84,6 +101,16 @@ class Settings(BaseSettings):
         path.write_text(key)
         path.chmod(0o600)
         return key
+
+
+PLACEHOLDERS = ("change-me", "changeme", "change_me", "replace-me", "example", "secret", "password")
+"""Words of example secrets (ours in docker-compose.yml and the README, and the usual ones):
+a secret that starts with one, or is a bare role name, is nobody's own (common practice)."""
+
+
+def _is_placeholder(secret: str) -> bool:
+    low = secret.strip().lower()
+    return low in ("", "postgres", "claybench", "admin") or low.startswith(PLACEHOLDERS)
 
 
 @lru_cache
