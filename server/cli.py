@@ -16,7 +16,16 @@ from server.config import get_settings
 def _serve(host: str, port: int) -> None:
     import uvicorn
 
-    uvicorn.run("server.main:create_app", factory=True, host=host, port=port, proxy_headers=True)
+    from server.access_log import log_config
+
+    uvicorn.run(
+        "server.main:create_app",
+        factory=True,
+        host=host,
+        port=port,
+        proxy_headers=True,
+        log_config=log_config(),  # share and API tokens never reach the access log
+    )
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
@@ -52,13 +61,15 @@ def cmd_create_user(args: argparse.Namespace) -> int:
 
 def cmd_calc(args: argparse.Namespace) -> int:
     """The calculation contract on the command line: JSON in, JSON out, exit 2 when refused."""
+    from pathlib import Path
+
     from server.services.calculations import calculate
     from server.services.errors import Invalid
 
-    raw = open(args.file, encoding="utf-8").read() if args.file else sys.stdin.read()
+    raw = Path(args.file).read_text(encoding="utf-8") if args.file else sys.stdin.read()
     try:
         request: Any = json.loads(raw)
-    except json.JSONDecodeError as exc:
+    except ValueError as exc:  # JSONDecodeError, or an integer of more digits than Python reads
         json.dump(
             {"detail": [{"loc": ["body"], "msg": f"not valid JSON: {exc}", "type": "invalid"}]}, sys.stdout
         )

@@ -39,6 +39,7 @@ from server.web import (
     signin,
     turnaround,
 )
+from server.web.security_headers import SecurityHeaders
 from server.web.templating import render
 
 
@@ -60,6 +61,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         same_site="lax",
         https_only=settings.https_only_cookies,
     )
+    app.add_middleware(SecurityHeaders, production=settings.production)  # CSP and friends, every response
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
     api_v1.install(app)  # before the pages, so that no page route reads an /api/v1 path

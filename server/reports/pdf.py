@@ -32,8 +32,16 @@ from weasyprint.urls import URLFetcher
 
 from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
 
-__all__ = ["check_url", "content_fingerprint", "canonical_json", "html_to_pdf", "qr_svg",
-           "render_report_html", "render_report_pdf", "render_template"]
+__all__ = [
+    "check_url",
+    "content_fingerprint",
+    "canonical_json",
+    "html_to_pdf",
+    "qr_svg",
+    "render_report_html",
+    "render_report_pdf",
+    "render_template",
+]
 
 TEMPLATES = Path(__file__).resolve().parents[2] / "templates"
 TEMPLATE = "reports/report.html"
@@ -82,10 +90,12 @@ def render_template(name: str, **context: Any) -> str:
     return _environment().get_template(name).render(**context)
 
 
-def render_report_html(data: ReportData, *, preview: bool = False) -> str:
+def render_report_html(data: ReportData, *, preview: bool = False, style_nonce: str = "") -> str:
     """The report as one self-contained HTML document (autoescaped; charts and QR inline).
 
-    ``preview`` marks every page as not issued (a look at a report before issuing it)."""
+    ``preview`` marks every page as not issued (a look at a report before issuing it);
+    ``style_nonce`` is put on its one ``<style>`` when a browser shows it, whose
+    Content-Security-Policy allows no other inline style (server/web/security_headers.py)."""
     view = build_view(data)
     fingerprint = content_fingerprint(data)
     qr = Markup(qr_svg(check_url(data, fingerprint))) if data.verify_url else Markup("")
@@ -96,6 +106,7 @@ def render_report_html(data: ReportData, *, preview: bool = False) -> str:
         fingerprint=fingerprint,
         qr=qr,
         preview=preview,
+        style_nonce=style_nonce,
     )
 
 

@@ -20,11 +20,13 @@ from server.db.queries import frozen_ags4_digests
 from server.db.session import Database
 from server.db.tables import Client, Job, LinkAccess, Report, ShareLink, User, utcnow
 from server.services import audit
-from server.services.errors import Forbidden, NotFound, invalid
+from server.services.errors import Forbidden, NotFound
+from server.services.fields import Checks
 from server.services.review import required_reason
 from server.workflow.states import CHECKERS, Role
 
 MAX_DAYS = 366
+LABEL_MAX = 200  # the column of server.db.tables.ShareLink
 TOKEN_BYTES = 32  # 256 bits (at least 128 asked for)
 
 
@@ -60,8 +62,11 @@ def create_link(
     client), valid for ``days_valid`` days."""
     if Role(actor.role) not in CHECKERS:
         raise Forbidden("only a reviewer or admin creates client links")
+    checks = Checks()
     if not 1 <= days_valid <= MAX_DAYS:
-        raise invalid("days_valid", f"a link is valid for 1 to {MAX_DAYS} days")
+        checks.add("days_valid", f"a link is valid for 1 to {MAX_DAYS} days")
+    label = checks.text("label", label, "the label", LABEL_MAX)
+    checks.done()
     token = secrets.token_urlsafe(TOKEN_BYTES)
     with db.transaction() as s:
         job = s.get(Job, job_id)
@@ -71,7 +76,7 @@ def create_link(
             client_id=job.client_id,
             job_id=None if whole_client else job_id,
             token_hash=token_hash(token),
-            label=label.strip()[:200],
+            label=label,
             created_by_id=actor.id or 0,
             expires_at=utcnow() + timedelta(days=days_valid),
         )

@@ -27,6 +27,7 @@ from server.db.tables import Container, Equipment, Laboratory, User, utcnow
 from server.engine import FieldError
 from server.services import audit, jobs
 from server.services.errors import Conflict, Invalid, NotFound, invalid
+from server.services.fields import Checks
 
 EQUIPMENT_KINDS: dict[str, str] = {
     "balance": "Balance",
@@ -46,6 +47,10 @@ IN_CALIBRATION, DUE_SOON, PAST_DUE = "in calibration", "due within 30 days", "pa
 STATE_MARK = {IN_CALIBRATION: "✔", DUE_SOON: "⚠", PAST_DUE: "✖"}
 
 MAX_TARE_G = 5000.0  # a dish heavier than 5 kg is a typing or unit slip (common practice)
+LAB_NAME_MAX = 200  # the columns of server.db.tables.Laboratory and Equipment
+LAB_ADDRESS_MAX = 500
+LAB_ACCREDITATION_MAX = 200
+EQUIPMENT_DESCRIPTION_MAX = 200
 MAX_CAPACITY_G = 1_000_000.0  # 1 t: more than any laboratory balance weighs (common practice)
 _CODE = re.compile(r"^[A-Z0-9][A-Z0-9._/-]{0,31}$")
 
@@ -68,6 +73,14 @@ def _tare(tare_g: float) -> float:
     if tare_g > MAX_TARE_G:
         raise invalid("tare_g", f"tare {tare_g:g} g is above {MAX_TARE_G:g} g; check the units (grams)")
     return float(tare_g)
+
+
+def _description(description: str) -> str:
+    """An instrument's description, refused when longer than its column holds."""
+    checks = Checks()
+    text = checks.text("description", description, "the description", EQUIPMENT_DESCRIPTION_MAX)
+    checks.done()
+    return text
 
 
 def _kind(kind: str) -> str:
@@ -199,7 +212,7 @@ def add_equipment(
         item = Equipment(
             code=code,
             kind=kind,
-            description=description.strip()[:200],
+            description=_description(description),
             calibration_due=calibration_due,
             capacity_g=_capacity(kind, capacity_g),
         )
@@ -225,7 +238,7 @@ def update_equipment(
         item = _get(s, Equipment, equipment_id, "equipment")
         capacity = item.capacity_g if isinstance(capacity_g, Keep) else _capacity(item.kind, capacity_g)
         before = item.model_dump(mode="json")
-        item.description, item.calibration_due, item.capacity_g = description.strip()[:200], due, capacity
+        item.description, item.calibration_due, item.capacity_g = _description(description), due, capacity
         s.add(item)
         s.flush()
         audit.record(
@@ -268,12 +281,14 @@ def set_equipment_active(
 
 def set_laboratory(db: Database, actor: User, name: str, address: str, accreditation: str) -> Laboratory:
     """The laboratory's name, address and accreditation as printed on every report."""
-    name = name.strip()
-    if not name:
-        raise invalid("name", "the laboratory's name is required (it is printed on every report)")
-    if len(name) > 200 or len(address) > 500 or len(accreditation) > 200:
-        raise invalid("name", "name and accreditation take up to 200 characters, the address up to 500")
-    return jobs.set_laboratory(db, actor, name, address.strip(), accreditation.strip())
+    checks = Checks()
+    if not name.strip():
+        checks.add("name", "the laboratory's name is required (it is printed on every report)")
+    name = checks.text("name", name, "the laboratory's name", LAB_NAME_MAX)
+    address = checks.text("address", address, "the address", LAB_ADDRESS_MAX)
+    accreditation = checks.text("accreditation", accreditation, "the accreditation", LAB_ACCREDITATION_MAX)
+    checks.done()
+    return jobs.set_laboratory(db, actor, name, address, accreditation)
 
 
 def laboratory(db: Database) -> Laboratory | None:

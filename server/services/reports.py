@@ -415,15 +415,17 @@ def preview_report_html(
     job_id: int,
     base_url: str,
     sample_ids: Collection[int] | None = None,
+    style_nonce: str = "",
 ) -> str:
     """The HTML of the report that issuing now would give, every page marked as a preview.
-    Nothing is stored; the charts are the same SVG the PDF would carry."""
+    Nothing is stored; the charts are the same SVG the PDF would carry. ``style_nonce``: as
+    ``render_report_html``'s."""
     _check_role(actor)
     with db.session() as s:
         data, _ = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
     from server.reports.pdf import render_report_html
 
-    return render_report_html(data, preview=True)
+    return render_report_html(data, preview=True, style_nonce=style_nonce)
 
 
 def _latest(rows: Sequence[TestRow]) -> dict[tuple[int, str], TestRow]:

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Depends, Form, Path, Request
+from fastapi import APIRouter, Depends, Form, Request
 from fastapi.responses import RedirectResponse
 from starlette.responses import Response
 
@@ -15,13 +15,13 @@ from server.auth.sessions import csrf_protect, current_session, database, lifeti
 from server.db.tables import User
 from server.services import sessions, tokens, users
 from server.services.errors import Invalid, ServiceError, http_status
+from server.web.params import IdPath, PageRoute
 from server.web.refusals import refusals_as_http
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 
-IdPath = Annotated[int, Path(ge=1, le=2**31 - 1)]
 
 DAY_CHOICES = {"7": "7 days", "30": "30 days", "90": "90 days", "366": "a year"}
 

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Depends, Path, Request
+from fastapi import APIRouter, Depends, Request
 from fastapi.responses import RedirectResponse
 from starlette.responses import Response
 
@@ -14,12 +14,12 @@ from server.auth.sessions import csrf_protect, current_session, database, lifeti
 from server.db import audit_queries
 from server.db.tables import User
 from server.services import sessions, tokens
+from server.web.params import IdPath, PageRoute
 from server.web.refusals import refusals_as_http
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Admin = Annotated[User, Depends(require_roles("admin"))]
-IdPath = Annotated[int, Path(ge=1, le=2**31 - 1)]
 
 
 @router.get("/admin/access")

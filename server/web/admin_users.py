@@ -15,10 +15,11 @@ from server.db import audit_queries
 from server.db.tables import LabTest, User
 from server.services import users
 from server.services.errors import Invalid, ServiceError, http_status
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.states import Role
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Admin = Annotated[User, Depends(require_roles("admin"))]
 
 ROLES = [r.value for r in Role]
@@ -93,7 +94,7 @@ def _person_page(
 
 
 @router.get("/admin/users/{user_id}")
-def person(request: Request, user_id: int, user: Admin, done: str = "") -> Response:
+def person(request: Request, user_id: IdPath, user: Admin, done: str = "") -> Response:
     messages = {
         "saved": "Saved.",
         "deactivated": "Deactivated: the account cannot sign in; its signatures stand.",
@@ -114,7 +115,7 @@ def _act(request: Request, user_id: int, done: str, call: Any) -> Response:
 @router.post("/admin/users/{user_id}")
 def update(
     request: Request,
-    user_id: int,
+    user_id: IdPath,
     user: Admin,
     full_name: Annotated[str, Form()] = "",
     role: Annotated[str, Form()] = "",
@@ -132,7 +133,7 @@ def update(
 @router.post("/admin/users/{user_id}/active")
 def set_active(
     request: Request,
-    user_id: int,
+    user_id: IdPath,
     user: Admin,
     active: Annotated[str, Form()] = "",
     reason: Annotated[str, Form()] = "",
@@ -150,7 +151,7 @@ def set_active(
 @router.post("/admin/users/{user_id}/password")
 def reset_password(
     request: Request,
-    user_id: int,
+    user_id: IdPath,
     user: Admin,
     password: Annotated[str, Form()] = "",
     reason: Annotated[str, Form()] = "",

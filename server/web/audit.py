@@ -16,9 +16,10 @@ from server.auth.sessions import csrf_protect, database, require_roles
 from server.db import audit_queries
 from server.db.tables import Job, Location, Sample, User
 from server.services import audit
+from server.web.params import Count, IdPath, IdQuery, PageRoute
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 
@@ -59,7 +60,7 @@ def _sample(request: Request, sample_id: int) -> tuple[Sample, Location, Job]:
 
 
 @router.get("/jobs/{job_id}/trail")
-def job_trail(request: Request, job_id: int, user: Checker, offset: int = 0) -> Response:
+def job_trail(request: Request, job_id: IdPath, user: Checker, offset: Count = 0) -> Response:
     job = _job(request, job_id)
     with database(request).session() as s:
         trail = audit_queries.job_trail(s, job_id, max(offset, 0))
@@ -75,7 +76,7 @@ def job_trail(request: Request, job_id: int, user: Checker, offset: int = 0) -> 
 
 
 @router.get("/jobs/{job_id}/trail.csv")
-def job_trail_csv(request: Request, job_id: int, user: Checker) -> Response:
+def job_trail_csv(request: Request, job_id: IdPath, user: Checker) -> Response:
     job = _job(request, job_id)
     with database(request).session() as s:
         trail = audit_queries.job_trail(s, job_id, 0, None)
@@ -83,7 +84,7 @@ def job_trail_csv(request: Request, job_id: int, user: Checker) -> Response:
 
 
 @router.get("/samples/{sample_id}/trail")
-def sample_trail(request: Request, sample_id: int, user: Checker, offset: int = 0) -> Response:
+def sample_trail(request: Request, sample_id: IdPath, user: Checker, offset: Count = 0) -> Response:
     sample, location, job = _sample(request, sample_id)
     with database(request).session() as s:
         trail = audit_queries.sample_trail(s, sample_id, max(offset, 0))
@@ -100,7 +101,7 @@ def sample_trail(request: Request, sample_id: int, user: Checker, offset: int = 
 
 
 @router.get("/samples/{sample_id}/trail.csv")
-def sample_trail_csv(request: Request, sample_id: int, user: Checker) -> Response:
+def sample_trail_csv(request: Request, sample_id: IdPath, user: Checker) -> Response:
     sample, _location, job = _sample(request, sample_id)
     with database(request).session() as s:
         trail = audit_queries.sample_trail(s, sample_id, 0, None)
@@ -108,6 +109,6 @@ def sample_trail_csv(request: Request, sample_id: int, user: Checker) -> Respons
 
 
 @router.get("/audit/job")
-def open_job_trail(request: Request, user: Checker, job_id: int) -> Response:
+def open_job_trail(request: Request, user: Checker, job_id: IdQuery) -> Response:
     """The job chosen on the audit page (a plain form works without script)."""
     return RedirectResponse(f"/jobs/{job_id}/trail", status_code=303)

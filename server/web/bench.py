@@ -49,10 +49,11 @@ from server.web.bench_forms import (
     input_at,
 )
 from server.web.forms import dotted, errors_by_path, form_fields, text_of
+from server.web.params import Count, IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.states import is_editable
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 
 
@@ -337,7 +338,9 @@ def _page(
 
 
 @router.get("/tests/{test_id}")
-def bench_page(request: Request, test_id: int, user: Staff, saved: int = 0, handed_in: int = 0) -> Response:
+def bench_page(
+    request: Request, test_id: IdPath, user: Staff, saved: Count = 0, handed_in: Count = 0
+) -> Response:
     row = load_row(request, test_id)
     readings = row.test.readings or {}
     ev = bench.preview(row.test.method, readings)
@@ -356,7 +359,7 @@ def _changes_from_form(method: str, items: list[tuple[str, Any]]) -> list[bench.
 
 
 @router.post("/tests/{test_id}/preview")
-async def bench_preview(request: Request, test_id: int, user: Staff) -> Response:
+async def bench_preview(request: Request, test_id: IdPath, user: Staff) -> Response:
     """Results for what is on the screen, without storing anything (htmx, as the technician types)."""
     row = load_row(request, test_id)
     changes = _changes_from_form(row.test.method, (await request.form()).multi_items())
@@ -385,7 +388,7 @@ class FieldsIn(BaseModel):
 
 
 @router.post("/tests/{test_id}/fields")
-def save_fields(request: Request, test_id: int, user: Staff, body: FieldsIn) -> Response:
+def save_fields(request: Request, test_id: IdPath, user: Staff, body: FieldsIn) -> Response:
     """Save typed fields of the draft, each against the value the page last saw there (JSON).
 
     200 with the stored values of the whole sheet; 409 with both values of every field changed
@@ -449,7 +452,7 @@ class DiscardIn(BaseModel):
 
 
 @router.post("/tests/{test_id}/offline-discard")
-def discard_offline(request: Request, test_id: int, user: Staff, body: DiscardIn) -> Response:
+def discard_offline(request: Request, test_id: IdPath, user: Staff, body: DiscardIn) -> Response:
     """Record that the signed-in person discards entries another person left unsent here (JSON).
 
     200 once the audit event is written (the tablet then removes the entries); 422 without a
@@ -474,7 +477,7 @@ def discard_offline(request: Request, test_id: int, user: Staff, body: DiscardIn
 
 
 @router.post("/tests/{test_id}/readings")
-async def save_readings(request: Request, test_id: int, user: Staff) -> Response:
+async def save_readings(request: Request, test_id: IdPath, user: Staff) -> Response:
     """Save the whole sheet as a draft (no script) and, when asked (``then=submit``), hand it in.
 
     With ``autosaved=1`` the page has saved every field already: the stored draft is handed in.
@@ -508,7 +511,7 @@ async def save_readings(request: Request, test_id: int, user: Staff) -> Response
 
 def _refused(
     request: Request,
-    test_id: int,
+    test_id: IdPath,
     changes: list[bench.Change],
     exc: ServiceError,
     what: str,

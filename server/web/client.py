@@ -19,9 +19,10 @@ from server.db.tables import Report, ReportAgs4, User
 from server.exchange.downloads import AGS4_MEDIA_TYPE
 from server.services import reports
 from server.services.links import ClientView, open_link
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 
-router = APIRouter(include_in_schema=False)
+router = APIRouter(route_class=PageRoute, include_in_schema=False)
 MAX_VERIFY_BYTES = 50 * 1024 * 1024
 
 REFUSALS = {
@@ -125,7 +126,7 @@ def share_page(request: Request, token: str) -> Response:
 
 
 @router.get("/share/{token}/reports/{report_id}.pdf")
-def share_pdf(request: Request, token: str, report_id: int) -> Response:
+def share_pdf(request: Request, token: str, report_id: IdPath) -> Response:
     view = _open(request, token, f"/reports/{report_id}.pdf")
     if view.refused:
         return _refused(request, view.refused)
@@ -139,7 +140,7 @@ def share_pdf(request: Request, token: str, report_id: int) -> Response:
 
 
 @router.get("/share/{token}/reports/{report_id}.ags")
-def share_ags4(request: Request, token: str, report_id: int) -> Response:
+def share_ags4(request: Request, token: str, report_id: IdPath) -> Response:
     view = _open(request, token, f"/reports/{report_id}.ags")
     if view.refused:
         return _refused(request, view.refused)
@@ -149,12 +150,12 @@ def share_ags4(request: Request, token: str, report_id: int) -> Response:
 
 
 @router.get("/reports/{report_id}.ags")
-def staff_ags4(request: Request, report_id: int, user: Annotated[User, Depends(require_user)]) -> Response:
+def staff_ags4(request: Request, report_id: IdPath, user: Annotated[User, Depends(require_user)]) -> Response:
     return ags4_response(request, report_id)
 
 
 @router.get("/reports/{report_id}.pdf")
-def staff_pdf(request: Request, report_id: int, user: Annotated[User, Depends(require_user)]) -> Response:
+def staff_pdf(request: Request, report_id: IdPath, user: Annotated[User, Depends(require_user)]) -> Response:
     with database(request).session() as s:
         report = s.get(Report, report_id)
     if report is None:

@@ -17,8 +17,9 @@ from server.db.tables import User, utcnow
 from server.exchange import downloads
 from server.services.errors import Invalid, NotFound
 from server.web.job_page import job_page_response
+from server.web.params import IdPath, PageRoute
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 
 # The results are the laboratory's and its client's: kept out of shared caches.
@@ -41,18 +42,18 @@ def _download(request: Request, job_id: int, fmt: downloads.Format) -> Response:
 
 
 @router.get("/jobs/{job_id}/export.csv")
-def export_csv(request: Request, job_id: int, user: Staff) -> Response:
+def export_csv(request: Request, job_id: IdPath, user: Staff) -> Response:
     """The summary of the approved results, one row per sample."""
     return _download(request, job_id, "csv")
 
 
 @router.get("/jobs/{job_id}/export.xlsx")
-def export_xlsx(request: Request, job_id: int, user: Staff) -> Response:
+def export_xlsx(request: Request, job_id: IdPath, user: Staff) -> Response:
     """The summary, and one sheet per method with each test's readings and results."""
     return _download(request, job_id, "xlsx")
 
 
 @router.get("/jobs/{job_id}/export.ags")
-def export_ags4(request: Request, job_id: int, user: Staff) -> Response:
+def export_ags4(request: Request, job_id: IdPath, user: Staff) -> Response:
     """The approved results as an AGS4 file dated today, for the client's ground model."""
     return _download(request, job_id, "ags4")

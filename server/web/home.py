@@ -11,11 +11,12 @@ from server.auth.sessions import csrf_protect, database, require_user
 from server.db.register_queries import my_bench, unassigned_requests
 from server.db.tables import User
 from server.engine import METHODS
+from server.web.params import PageRoute
 from server.web.templating import render
 
 SUMMARY_ORDER = ("returned", "draft", "requested", "submitted")  # most urgent first
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 
 

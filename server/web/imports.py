@@ -27,10 +27,11 @@ from server.services import imports, staging
 from server.services.errors import ServiceError, http_status
 from server.services.imports import FILE_MAX_BYTES, ImportPlan, ImportRefused, Target
 from server.web.forms import record_id, refusal_of
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
@@ -147,7 +148,7 @@ def new_job_import_page(request: Request, user: Checker) -> Response:
 
 
 @router.get("/jobs/{job_id}/import")
-def job_import_page(request: Request, job_id: int, user: Checker) -> Response:
+def job_import_page(request: Request, job_id: IdPath, user: Checker) -> Response:
     with database(request).session() as s:
         job = s.get(Job, job_id)
     if job is None:

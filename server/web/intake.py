@@ -23,10 +23,11 @@ from server.services.errors import ServiceError, http_status
 from server.services.fields import refuse
 from server.web.forms import record_id, refusal_of
 from server.web.job_page import done_message, job_page_response
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES, STANDARDS
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 Text = Annotated[str, Form()]
 
@@ -126,7 +127,7 @@ def add_client(request: Request, user: Checker, fields: Annotated[ClientFields, 
 
 
 @router.get("/clients/{client_id}")
-def client_page(request: Request, client_id: int, user: Checker, done: str = "") -> Response:
+def client_page(request: Request, client_id: IdPath, user: Checker, done: str = "") -> Response:
     client = _get(request, Client, client_id)
     return _client_form(request, client, client.model_dump(), done=done)
 
@@ -149,7 +150,7 @@ def _client_form(request: Request, client: Client, form: dict[str, Any], **extra
 
 @router.post("/clients/{client_id}")
 def save_client(
-    request: Request, client_id: int, user: Checker, fields: Annotated[ClientFields, Form()]
+    request: Request, client_id: IdPath, user: Checker, fields: Annotated[ClientFields, Form()]
 ) -> Response:
     client = _get(request, Client, client_id)
     try:
@@ -212,13 +213,15 @@ def create_job(request: Request, user: Checker, fields: Annotated[JobFields, For
 
 
 @router.get("/jobs/{job_id}/edit")
-def edit_job_page(request: Request, job_id: int, user: Checker) -> Response:
+def edit_job_page(request: Request, job_id: IdPath, user: Checker) -> Response:
     job = _get(request, Job, job_id)
     return _job_form_page(request, job, _job_form_of(job))
 
 
 @router.post("/jobs/{job_id}/edit")
-def save_job(request: Request, job_id: int, user: Checker, fields: Annotated[JobFields, Form()]) -> Response:
+def save_job(
+    request: Request, job_id: IdPath, user: Checker, fields: Annotated[JobFields, Form()]
+) -> Response:
     return _save_job(request, user, fields, _get(request, Job, job_id))
 
 
@@ -227,7 +230,7 @@ def save_job(request: Request, job_id: int, user: Checker, fields: Annotated[Job
 
 @router.post("/jobs/{job_id}/locations")
 def add_location(
-    request: Request, job_id: int, user: Checker, fields: Annotated[LocationFields, Form()]
+    request: Request, job_id: IdPath, user: Checker, fields: Annotated[LocationFields, Form()]
 ) -> Response:
     _get(request, Job, job_id)
     try:
@@ -246,7 +249,7 @@ def add_location(
 
 
 @router.get("/locations/{location_id}/edit")
-def edit_location_page(request: Request, location_id: int, user: Checker) -> Response:
+def edit_location_page(request: Request, location_id: IdPath, user: Checker) -> Response:
     loc = _get(request, Location, location_id)
     return _location_form(request, loc, loc.model_dump())
 
@@ -268,7 +271,7 @@ def _location_form(request: Request, loc: Location, form: dict[str, Any], **extr
 
 @router.post("/locations/{location_id}/edit")
 def save_location(
-    request: Request, location_id: int, user: Checker, fields: Annotated[LocationFields, Form()]
+    request: Request, location_id: IdPath, user: Checker, fields: Annotated[LocationFields, Form()]
 ) -> Response:
     loc = _get(request, Location, location_id)
     try:
@@ -286,7 +289,7 @@ def save_location(
 
 @router.post("/jobs/{job_id}/samples")
 def add_sample(
-    request: Request, job_id: int, user: Checker, fields: Annotated[NewSampleFields, Form()]
+    request: Request, job_id: IdPath, user: Checker, fields: Annotated[NewSampleFields, Form()]
 ) -> Response:
     _get(request, Job, job_id)
     try:
@@ -344,14 +347,14 @@ def _sample_form(request: Request, sample: Sample, form: dict[str, Any], **extra
 
 
 @router.get("/samples/{sample_id}/edit")
-def edit_sample_page(request: Request, sample_id: int, user: Checker) -> Response:
+def edit_sample_page(request: Request, sample_id: IdPath, user: Checker) -> Response:
     sample = _get(request, Sample, sample_id)
     return _sample_form(request, sample, sample.model_dump())
 
 
 @router.post("/samples/{sample_id}/edit")
 def save_sample(
-    request: Request, sample_id: int, user: Checker, fields: Annotated[SampleFields, Form()]
+    request: Request, sample_id: IdPath, user: Checker, fields: Annotated[SampleFields, Form()]
 ) -> Response:
     sample = _get(request, Sample, sample_id)
     try:
@@ -366,7 +369,7 @@ def save_sample(
 
 
 @router.post("/samples/{sample_id}/withdraw")
-def withdraw_sample(request: Request, sample_id: int, user: Checker, reason: Text = "") -> Response:
+def withdraw_sample(request: Request, sample_id: IdPath, user: Checker, reason: Text = "") -> Response:
     sample = _get(request, Sample, sample_id)
     try:
         samples.withdraw_sample(database(request), user, sample_id, reason)

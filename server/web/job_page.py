@@ -9,11 +9,12 @@ from fastapi import APIRouter, Depends, HTTPException, Request
 from sqlmodel import col, select
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_user
+from server.auth.sessions import csrf_protect, database, require_user, signed_in_user
 from server.db.queries import job_sheet, test_rows, users_by_id
 from server.db.tables import Job, LabTest, LinkAccess, Location, Sample, User
 from server.engine import METHODS
 from server.services.reports import REPORT_MEANING
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.vocabulary import (
     CONDITIONS,
@@ -23,8 +24,9 @@ from server.workflow.vocabulary import (
     STANDARDS,
 )
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
+LINK_LOG_ROLES = ("reviewer", "admin")  # who sees when and from where a client link was used
 
 DONE = {
     "client-added": "Client registered.",
@@ -71,7 +73,10 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
         sheet = job_sheet(s, job_id)
         if sheet is None:
             raise HTTPException(404, "no such job")
-        link_ids = [link.id for link in sheet.links]
+        viewer = signed_in_user(request)
+        # Who opened a client's link, and from which address, is the client's business: shown to
+        # reviewers and admins, who manage the links, and never fetched for a technician.
+        link_ids = [link.id for link in sheet.links] if viewer and viewer.role in LINK_LOG_ROLES else []
         accesses = (
             list(
                 s.exec(
@@ -98,6 +103,7 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
         people=people,
         new_link=extra.get("new_link"),
         error=extra.get("error"),
+        link_errors=extra.get("link_errors", {}),
         message=extra.get("message"),
         issue_form=extra.get("issue_form", {"choice": "all", "sample": [], "overlap_decision": ""}),
         issue_errors=extra.get("issue_errors", {}),
@@ -118,12 +124,12 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
 
 
 @router.get("/jobs/{job_id}")
-def job_page(request: Request, job_id: int, user: Staff, done: str = "") -> Response:
+def job_page(request: Request, job_id: IdPath, user: Staff, done: str = "") -> Response:
     return job_page_response(request, job_id, message=done_message(done))
 
 
 @router.get("/samples/{sample_id}")
-def sample_page(request: Request, sample_id: int, user: Staff, done: str = "") -> Response:
+def sample_page(request: Request, sample_id: IdPath, user: Staff, done: str = "") -> Response:
     with database(request).session() as s:
         sample = s.get(Sample, sample_id)
         if sample is None:

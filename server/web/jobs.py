@@ -13,9 +13,10 @@ from starlette.responses import Response
 from server.auth.sessions import csrf_protect, database, require_user
 from server.db.job_list import STATUS_CHOICES, JobFilter, job_page
 from server.db.tables import User, utcnow
+from server.web.params import PageRoute
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 
 # A page number longer than this is past any real list: it is read as "the last page".

@@ -17,7 +17,7 @@ from datetime import UTC, datetime
 from typing import Annotated, Any
 from urllib.parse import urlencode
 
-from fastapi import APIRouter, Depends, Form, HTTPException, Query, Request
+from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import RedirectResponse
 from sqlmodel import Session, col, select
 from starlette.responses import Response
@@ -30,10 +30,11 @@ from server.services import receipt
 from server.services.errors import ServiceError, http_status
 from server.services.fields import refuse
 from server.web.forms import record_id, refusal_of
+from server.web.params import IdPath, IdsQuery, PageRoute
 from server.web.templating import is_htmx, render
 from server.workflow.vocabulary import CONDITIONS, LOCATION_KINDS, SAMPLE_TYPES
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 Text = Annotated[str, Form()]
 
@@ -133,7 +134,7 @@ def _blank_row(user: User, sticky: dict[str, str]) -> dict[str, str]:
 
 def _page(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     form: dict[str, str],
     status_code: int = 200,
     fragment: bool = False,
@@ -155,7 +156,7 @@ def _page(
 
 
 @router.get("/jobs/{job_id}/receive")
-def receive_page(request: Request, job_id: int, user: Staff, saved: str = "") -> Response:
+def receive_page(request: Request, job_id: IdPath, user: Staff, saved: str = "") -> Response:
     """The receipt sheet; after a row posted without JavaScript, the query carries the delivery
     facts to keep and the code just saved."""
     sticky = {k: v for k, v in request.query_params.items() if k in STICKY}
@@ -170,7 +171,7 @@ def receive_page(request: Request, job_id: int, user: Staff, saved: str = "") ->
 @router.post("/jobs/{job_id}/receive")
 def receive_row(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     user: Staff,
     code: Text = "",
     location: Text = "",
@@ -278,14 +279,14 @@ def _layout(layout: str) -> str:
 @router.get("/jobs/{job_id}/labels.pdf")
 def job_labels(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     user: Staff,
     layout: str = "sheet",
-    sample: Annotated[list[str] | None, Query()] = None,
+    sample: IdsQuery = None,
 ) -> Response:
     """Labels of the chosen samples of a job (``sample=id``, repeated), or of every sample not
     withdrawn when none is chosen."""
-    chosen = {i for i in (record_id(x) for x in (sample or [])) if i is not None}
+    chosen = set(sample or [])
     with database(request).session() as s:
         job = _job(s, job_id)
         stmt = select(Sample).where(Sample.job_id == job_id).order_by(col(Sample.code))
@@ -304,7 +305,7 @@ def job_labels(
 
 
 @router.get("/samples/{sample_id}/label.pdf")
-def sample_label(request: Request, sample_id: int, user: Staff, layout: str = "single") -> Response:
+def sample_label(request: Request, sample_id: IdPath, user: Staff, layout: str = "single") -> Response:
     """One sample's label (for a label printer by default)."""
     with database(request).session() as s:
         found = s.get(Sample, sample_id)

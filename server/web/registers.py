@@ -26,9 +26,10 @@ from server.db.tables import User
 from server.services import registers
 from server.services.errors import NotFound, ServiceError, http_status, invalid
 from server.web.forms import errors_by_path, refusal_of
+from server.web.params import Count, IdPath, PageRoute
 from server.web.templating import is_htmx, render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Staff = Annotated[User, Depends(require_user)]
 Admin = Annotated[User, Depends(require_roles("admin"))]
 
@@ -118,7 +119,7 @@ _NOT_GRAMS = "tare must be a number of grams, such as 15.32"
 
 
 @router.get("/registers")
-def registers_page(request: Request, user: Admin, saved: int = 0) -> Response:
+def registers_page(request: Request, user: Admin, saved: Count = 0) -> Response:
     return _registers_page(request, message="Laboratory details saved." if saved else None)
 
 
@@ -210,7 +211,7 @@ EQUIPMENT_DONE = {
 
 
 @router.get("/registers/admin/containers")
-def containers_page(request: Request, user: Admin, done: str = "", id: int = 0) -> Response:
+def containers_page(request: Request, user: Admin, done: str = "", id: Count = 0) -> Response:
     return _containers_page(request, done=(done, id))
 
 
@@ -239,7 +240,7 @@ def add_container(
 @router.post("/registers/admin/containers/{container_id}/tare")
 def reweigh_container(
     request: Request,
-    container_id: int,
+    container_id: IdPath,
     user: Admin,
     tare_g: Annotated[str, Form()] = "",
 ) -> Response:
@@ -258,7 +259,7 @@ def reweigh_container(
 
 @router.post("/registers/admin/containers/{container_id}/active")
 def container_active(
-    request: Request, container_id: int, user: Admin, active: Annotated[str, Form()] = "0"
+    request: Request, container_id: IdPath, user: Admin, active: Annotated[str, Form()] = "0"
 ) -> Response:
     try:
         made = registers.set_container_active(database(request), user, container_id, active == "1")
@@ -326,7 +327,7 @@ def _capacity_or_refuse(raw: str) -> float | None:
 
 
 @router.get("/registers/admin/equipment")
-def equipment_page(request: Request, user: Admin, done: str = "", id: int = 0) -> Response:
+def equipment_page(request: Request, user: Admin, done: str = "", id: Count = 0) -> Response:
     return _equipment_page(request, done=(done, id))
 
 
@@ -374,7 +375,7 @@ def add_equipment(
 @router.post("/registers/admin/equipment/{equipment_id}")
 def update_equipment(
     request: Request,
-    equipment_id: int,
+    equipment_id: IdPath,
     user: Admin,
     description: Annotated[str, Form()] = "",
     calibration_due: Annotated[str, Form()] = "",
@@ -402,7 +403,7 @@ def update_equipment(
 
 @router.post("/registers/admin/equipment/{equipment_id}/active")
 def equipment_active(
-    request: Request, equipment_id: int, user: Admin, active: Annotated[str, Form()] = "0"
+    request: Request, equipment_id: IdPath, user: Admin, active: Annotated[str, Form()] = "0"
 ) -> Response:
     try:
         made = registers.set_equipment_active(database(request), user, equipment_id, active == "1")

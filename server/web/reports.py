@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, Depends, Form, HTTPException, Query, Request
+from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
 from starlette.responses import Response
 
@@ -14,10 +14,12 @@ from server.services import links, reports
 from server.services.errors import ServiceError, http_status
 from server.web.forms import record_id, refusal_of
 from server.web.job_page import job_page_response
+from server.web.params import IdPath, IdsQuery, PageRoute
 from server.web.refusals import refusals_as_http
+from server.web.security_headers import csp_with_style_nonce, style_nonce
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 
@@ -28,7 +30,7 @@ def _base_url(request: Request) -> str:
 @router.post("/jobs/{job_id}/reports")
 def issue_report(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     user: Checker,
     choice: Annotated[str, Form()] = "all",
     sample: Annotated[list[str] | None, Form()] = None,
@@ -63,7 +65,7 @@ def issue_report(
 
 @router.post("/reports/{report_id}/reissue")
 def reissue_report(
-    request: Request, report_id: int, user: Checker, password: Annotated[str, Form()] = ""
+    request: Request, report_id: IdPath, user: Checker, password: Annotated[str, Form()] = ""
 ) -> Response:
     """Revision n + 1 of an issued report after an amendment, signed with the issuer's password;
     revision n is marked superseded."""
@@ -87,47 +89,50 @@ def reissue_report(
 @router.get("/jobs/{job_id}/reports/preview")
 def preview_report(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     user: Checker,
     choice: str = "all",
-    sample: Annotated[list[int] | None, Query()] = None,
+    sample: IdsQuery = None,
 ) -> Response:
     """The report as it would be issued now, as a web page marked "preview, not issued" (nothing
     is stored). Charts are the same SVG the PDF carries."""
     chosen = (sample or []) if choice == "chosen" else None
+    nonce = style_nonce()
     try:
-        html = reports.preview_report_html(database(request), user, job_id, _base_url(request), chosen)
+        html = reports.preview_report_html(
+            database(request), user, job_id, _base_url(request), chosen, style_nonce=nonce
+        )
     except ServiceError as exc:
         if http_status(exc) == 422:
             return job_page_response(request, job_id, error=str(exc))
         raise HTTPException(http_status(exc), str(exc)) from exc
-    return HTMLResponse(html, headers={"Cache-Control": "private, no-store"})
+    headers = {"Cache-Control": "private, no-store", "Content-Security-Policy": csp_with_style_nonce(nonce)}
+    return HTMLResponse(html, headers=headers)
 
 
 @router.post("/jobs/{job_id}/links")
 def create_link(
     request: Request,
-    job_id: int,
+    job_id: IdPath,
     user: Checker,
     days_valid: Annotated[str, Form()] = "30",
     label: Annotated[str, Form()] = "",
     scope: Annotated[str, Form()] = "job",
 ) -> Response:
     """A new client link, shown once; ``scope`` "client" opens every job of the job's client."""
-    try:
-        days = int(days_valid.strip())
-    except ValueError:
-        return job_page_response(request, job_id, error="Valid for: enter a whole number of days.")
+    typed = days_valid.strip()
+    days = int(typed) if typed.isdigit() and len(typed) <= 4 else 0  # past 9999: refused as out of range
     try:
         made = links.create_link(database(request), user, job_id, days, label, whole_client=scope == "client")
     except ServiceError as exc:
-        return job_page_response(request, job_id, error=str(exc))
+        errors, _ = refusal_of(exc)
+        return job_page_response(request, job_id, http_status(exc), error=str(exc), link_errors=errors)
     url = f"{_base_url(request).rstrip('/')}/share/{made.token}"
     return job_page_response(request, job_id, new_link=url)
 
 
 @router.get("/jobs/{job_id}/links")
-def job_links_page(request: Request, job_id: int, user: Checker) -> Response:
+def job_links_page(request: Request, job_id: IdPath, user: Checker) -> Response:
     """Every link that opens this job, its state, and the full log of its use."""
     return _job_links(request, job_id)
 
@@ -141,7 +146,7 @@ def _job_links(request: Request, job_id: int, status_code: int = 200, **extra: o
 @router.post("/links/{link_id}/revoke")
 def revoke_link(
     request: Request,
-    link_id: int,
+    link_id: IdPath,
     user: Checker,
     job_id: Annotated[int | None, Form()] = None,
     reason: Annotated[str, Form()] = "",

@@ -18,18 +18,18 @@ from server.db.tables import Job, User
 from server.engine import METHODS
 from server.services import jobs
 from server.services.errors import ServiceError, http_status
-from server.web.forms import errors_by_path
+from server.web.forms import errors_by_path, record_id
+from server.web.params import OptionalIdQuery, PageRoute
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 
 def _int(raw: str | None) -> int | None:
-    try:
-        return int(raw) if raw not in (None, "") else None
-    except ValueError:
-        return None
+    """An id the query or form names, or None for anything that cannot be one (a number past
+    the database's integers included, which would fail in the database instead)."""
+    return record_id(raw or "")
 
 
 @dataclass
@@ -113,7 +113,7 @@ def requests_page(
     methods: Annotated[list[str] | None, Query()] = None,
     assign_to: str | None = None,
     preview: str | None = None,
-    created: int | None = None,
+    created: OptionalIdQuery = None,
 ) -> Response:
     choice = Choice(
         _int(job_id),

@@ -22,36 +22,30 @@ from server.services import amendments, bench, review
 from server.services.errors import Invalid, ServiceError, http_status, invalid
 from server.web.bench import sheet_view
 from server.web.bench_forms import SHEETS
+from server.web.params import Count, FormVersion, IdPath, PageRoute, lenient_number
 from server.web.templating import is_htmx, render
 from server.workflow.states import Action, can
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 Staff = Annotated[User, Depends(require_user)]
 
 AGE_CHOICES = (1, 2, 7)
+AGE_MAX_DAYS = 36500  # a hundred years: a longer wait is a typing slip (timedelta ends at 999,999,999 days)
 
 
 # -- the queue ---------------------------------------------------------------------------------
-
-
-def _int(value: str | None) -> int | None:
-    try:
-        return int(value) if value not in (None, "") else None
-    except ValueError:
-        return None
 
 
 def queue_filter(
     job: str | None, method: str | None, person: str | None, age: str | None, flags: str | None
 ) -> review_queries.QueueFilter:
     """The filter the query string asks for; a value that makes no sense narrows nothing."""
-    older = _int(age)
     return review_queries.QueueFilter(
-        job_id=_int(job),
+        job_id=lenient_number("job", job),
         method=(method or "").strip() or None,
-        author_id=_int(person),
-        older_than_days=older if older is not None and older >= 0 else None,
+        author_id=lenient_number("person", person),
+        older_than_days=lenient_number("age", age, AGE_MAX_DAYS, low=0, what="a number of days"),
         flags=flags if flags in review_queries.FLAG_CHOICES else None,
     )
 
@@ -101,7 +95,7 @@ def queue(
     person: str | None = None,
     age: str | None = None,
     flags: str | None = None,
-    approved: int = 0,
+    approved: Count = 0,
 ) -> Response:
     """Handed-in tests: errors first, then warnings, then the rest, the longest waiting first."""
     message = f"{approved} test(s) approved and signed." if approved > 0 else None
@@ -249,33 +243,43 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
 
 
 def _review_page(
-    request: Request, user: User, test_id: int, *, status_code: int = 200, problem: str | None = None
+    request: Request,
+    user: User,
+    test_id: int,
+    *,
+    status_code: int = 200,
+    problem: str | None = None,
+    errors: dict[str, str] | None = None,
 ) -> Response:
     return render(
         request,
         "pages/review.html",
         status_code=status_code,
         problem=problem,
+        errors=errors or {},
         **review_context(request, user, test_id),
     )
 
 
 @router.get("/review/{test_id}")
-def review_page(request: Request, test_id: int, user: Checker) -> Response:
+def review_page(request: Request, test_id: IdPath, user: Checker) -> Response:
     return _review_page(request, user, test_id)
 
 
 def _refused(request: Request, user: User, test_id: int, exc: ServiceError, what: str) -> Response:
     detail = "; ".join(e.message for e in exc.errors) if isinstance(exc, Invalid) else str(exc)
-    return _review_page(request, user, test_id, status_code=http_status(exc), problem=f"{what}: {detail}")
+    errors = {str(e.loc[0]): e.message for e in exc.errors if e.loc} if isinstance(exc, Invalid) else {}
+    return _review_page(
+        request, user, test_id, status_code=http_status(exc), problem=f"{what}: {detail}", errors=errors
+    )
 
 
 @router.post("/review/{test_id}/approve")
 def approve(
     request: Request,
-    test_id: int,
+    test_id: IdPath,
     user: Checker,
-    version: Annotated[int, Form()],
+    version: FormVersion,
     password: Annotated[str, Form()] = "",
     meaning: Annotated[str, Form()] = review.DEFAULT_MEANING,
 ) -> Response:
@@ -297,9 +301,9 @@ def approve(
 @router.post("/review/{test_id}/return")
 def return_test(
     request: Request,
-    test_id: int,
+    test_id: IdPath,
     user: Checker,
-    version: Annotated[int, Form()],
+    version: FormVersion,
     reason: Annotated[str, Form()] = "",
 ) -> Response:
     try:
@@ -312,9 +316,9 @@ def return_test(
 @router.post("/review/{test_id}/amend")
 def amend(
     request: Request,
-    test_id: int,
+    test_id: IdPath,
     user: Checker,
-    version: Annotated[int, Form()],
+    version: FormVersion,
     reason: Annotated[str, Form()] = "",
 ) -> Response:
     """Open the next revision; the bench page of the new draft comes next."""
@@ -329,7 +333,7 @@ def amend(
 
 
 @router.get("/jobs/{job_id}/reissue")
-def job_reissue(request: Request, job_id: int, user: Staff) -> Response:
+def job_reissue(request: Request, job_id: IdPath, user: Staff) -> Response:
     """The job's issued reports that carry an amended test (a fragment the job page loads)."""
     with database(request).session() as s:
         job = s.get(Job, job_id)

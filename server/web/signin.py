@@ -11,9 +11,10 @@ from starlette.responses import Response
 from server.auth.sessions import csrf_protect, database, sign_in, sign_out, signed_in_user
 from server.auth.throttle import client_address, throttles
 from server.services.users import USERNAME_MAX, authenticate, record_refused_sign_in
+from server.web.params import PageRoute
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 
 
 def _safe_next(target: str | None) -> str:

@@ -12,9 +12,10 @@ from starlette.responses import Response
 from server.auth.sessions import csrf_protect, database, require_roles
 from server.db import review_queries
 from server.db.tables import Job, User, utcnow
+from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 
-router = APIRouter(dependencies=[Depends(csrf_protect)], include_in_schema=False)
+router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
 
 
@@ -49,7 +50,7 @@ def overview(request: Request, user: Checker) -> Response:
 
 
 @router.get("/jobs/{job_id}/turnaround")
-def job_turnaround(request: Request, job_id: int, user: Checker) -> Response:
+def job_turnaround(request: Request, job_id: IdPath, user: Checker) -> Response:
     """Times per test of one job, with the job's totals."""
     with database(request).session() as s:
         if s.get(Job, job_id) is None:

@@ -49,8 +49,10 @@ def _texts(db: Database, test_id: int) -> dict[str, str]:
 
 
 def _events_by(db: Database, user: User) -> list[AuditEvent]:
+    """What the user did to the laboratory's records (their own sign-ins left out)."""
     with db.session() as s:
-        return list(s.exec(select(AuditEvent).where(col(AuditEvent.actor_id) == user.id)))
+        query = select(AuditEvent).where(col(AuditEvent.actor_id) == user.id, AuditEvent.entity != "session")
+        return list(s.exec(query))
 
 
 def _saves_seen(page: Page) -> list[str]:

@@ -102,7 +102,8 @@ def test_the_audit_page_shows_the_newest_events_and_leads_to_a_jobs_trail(
     reply = app_client.get("/audit")
     events = reply.context["events"]  # type: ignore[attr-defined]
     assert [e.id for e in events] == sorted((e.id for e in events), reverse=True)
-    assert events[0].entity == "lab_test" and events[0].action == "submit"  # the last thing done
+    assert (events[0].entity, events[0].action, events[0].actor) == ("session", "sign-in", "admin")
+    assert events[1].entity == "lab_test" and events[1].action == "submit"  # the last thing done before
     jump = app_client.get(f"/audit/job?job_id={lab.job.id}", follow_redirects=False)
     assert jump.status_code == 303 and jump.headers["location"] == f"/jobs/{lab.job.id}/trail"
 

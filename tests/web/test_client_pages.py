@@ -269,3 +269,25 @@ def test_withdrawing_a_link_needs_a_reason_of_real_words_which_the_audit_keeps(
     with db.session() as s:
         event = s.exec(select(AuditEvent).where(AuditEvent.entity == "share_link")).all()[-1]
     assert (event.action, event.reason) == ("revoke", reason)
+
+
+def test_who_used_a_link_and_from_where_is_shown_to_reviewers_never_to_technicians(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    two = two_approved_samples(db, people)
+    reports.issue_report(db, people.review, two.job_id, BASE, password=PASSWORDS["review"])
+    made = links.create_link(db, people.review, two.job_id, 7, "design office")
+    app_client.get(_share_path(made.token))  # TestClient's address: "testclient"
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+    job_page = app_client.get(f"/jobs/{two.job_id}")
+    assert job_page.status_code == 200 and "Recent link use" not in job_page.text
+    assert "testclient" not in job_page.text
+    assert app_client.get(f"/jobs/{two.job_id}/links").status_code == 403
+    with db.session() as s:
+        job = s.get(Job, two.job_id)
+    assert job is not None
+    assert app_client.get(f"/clients/{job.client_id}").status_code == 403  # contact details
+    assert app_client.get("/clients").status_code == 403
+    sign_in(app_client, "review", PASSWORDS["review"])
+    job_page = app_client.get(f"/jobs/{two.job_id}")
+    assert "Recent link use" in job_page.text and "testclient" in job_page.text
