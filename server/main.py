@@ -27,6 +27,7 @@ from server.web import (
     client,
     exports,
     home,
+    http_errors,
     imports,
     intake,
     job_page,
@@ -66,6 +67,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
     app.include_router(api_calculations.router)
     api_v1.install(app)  # before the pages, so that no page route reads an /api/v1 path
     busy.install(app)  # a write that waited its whole turn: 503 with Retry-After
+    http_errors.install(app)  # 404, 403, 409 ... as a page, a fragment, JSON or a problem
     for module in (
         signin,
         intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}

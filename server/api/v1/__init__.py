@@ -10,12 +10,11 @@ from __future__ import annotations
 from typing import Any
 
 from fastapi import APIRouter, FastAPI
-from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from server.api.schemas import readings_components
 from server.api.v1 import jobs, lab_tests, reports
 from server.api.v1.auth import RateLimit, Reader
-from server.api.v1.problems import Problem, ProblemRoute, problems, unmatched
+from server.api.v1.problems import Problem, ProblemRoute, problems
 from server.api.v1.schemas import MeOut, TokenInfo
 
 me_router = APIRouter(prefix="/api/v1", route_class=ProblemRoute, tags=["tokens"])
@@ -37,11 +36,12 @@ ROUTERS = (me_router, jobs.router, lab_tests.router, reports.router)
 
 
 def install(app: FastAPI) -> None:
-    """Wire the API v1 into the app (the routers, the problem answers, the OpenAPI additions)."""
+    """Wire the API v1 into the app (the routers, the problem answers, the OpenAPI additions).
+    Unmatched /api/v1 paths and methods are answered by ``problems.unmatched`` through the app's
+    one ``HTTPException`` handler (``server/web/http_errors.py``)."""
     app.state.api_rate_limit = RateLimit(app.state.settings.api_rate_limit)  # refuses a bad rate at start
     for router in ROUTERS:
         app.include_router(router)
-    app.add_exception_handler(StarletteHTTPException, unmatched)
     generate = app.openapi
 
     def openapi() -> dict[str, Any]:
