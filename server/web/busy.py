@@ -26,6 +26,7 @@ from starlette.responses import Response
 
 from server.auth.sessions import csrf_token
 from server.db.session import DatabaseBusy
+from server.web.http_errors import wants_json
 from server.web.templating import is_htmx, templates
 
 STATUS = HTTPStatus.SERVICE_UNAVAILABLE
@@ -47,11 +48,6 @@ back and send it again{% endif %} in {{ wait }} s.</p>
 )
 
 
-def _wants_json(request: Request) -> bool:
-    sent = request.headers.get("content-type", "").split(";")[0].strip()
-    return sent == "application/json" or request.headers.get("accept", "").startswith("application/json")
-
-
 def busy(request: Request, exc: Exception) -> Response:
     """503 with Retry-After, as a problem, JSON, a fragment or a page (module docstring)."""
     assert isinstance(exc, DatabaseBusy)
@@ -66,7 +62,7 @@ def busy(request: Request, exc: Exception) -> Response:
             "instance": request.url.path,
         }
         return JSONResponse(body, status_code=STATUS, headers=headers, media_type=PROBLEM)
-    if _wants_json(request):
+    if wants_json(request):
         body = {"detail": str(exc), "busy": True, "retry_after_s": wait}
         return JSONResponse(body, status_code=STATUS, headers=headers)
     if is_htmx(request):

@@ -27,7 +27,8 @@ from server.web.templating import is_htmx, render
 TITLES = {404: "Not found", 403: "Not allowed", 405: "Not here", 409: "Changed meanwhile", 410: "Gone"}
 
 
-def _wants_json(request: Request) -> bool:
+def wants_json(request: Request) -> bool:
+    """The request sends or asks for JSON: a script of ours, which reads a JSON answer."""
     sent = request.headers.get("content-type", "").split(";")[0].strip()
     return sent == "application/json" or request.headers.get("accept", "").startswith("application/json")
 
@@ -37,7 +38,7 @@ async def http_error(request: Request, exc: Exception) -> Response:
     assert isinstance(exc, StarletteHTTPException)
     if request.url.path.startswith("/api/"):
         return await unmatched(request, exc)
-    if _wants_json(request) or exc.status_code < 400:
+    if wants_json(request) or exc.status_code < 400:
         return await http_exception_handler(request, exc)
     detail = str(exc.detail) if exc.detail else HTTPStatus(exc.status_code).phrase
     headers = dict(exc.headers or {})

@@ -98,28 +98,38 @@ def free_port() -> int:
 
 
 def start_server(folder: Path, url: str, port: int, workers: int) -> subprocess.Popen[bytes]:
+    """The app under uvicorn, configured through the environment as a laboratory's server is."""
     env = {
-        **os.environ,
         "DATABASE_URL": url,
         "CLAYBENCH_DATA_DIR": str(folder / "data"),
         "CLAYBENCH_SECRET_KEY": "b" * 48,
         "CLAYBENCH_PUBLIC_BASE_URL": f"http://127.0.0.1:{port}",
     }
-    command = [sys.executable, "-m", "uvicorn", "server.main:create_app", "--factory", "--host", "127.0.0.1"]
+    return start_uvicorn(folder, "server.main:create_app", env, port, workers)
+
+
+def start_uvicorn(
+    folder: Path, factory: str, env: dict[str, str], port: int, workers: int = 1, name: str = "server"
+) -> subprocess.Popen[bytes]:
+    """An app factory under uvicorn on a loopback port (no access log), once /healthz answers;
+    its output goes to ``folder / f"{name}.log"``."""
+    command = [sys.executable, "-m", "uvicorn", factory, "--factory", "--host", "127.0.0.1"]
     command += ["--port", str(port), "--workers", str(workers), "--log-level", "warning", "--no-access-log"]
-    log = (folder / "server.log").open("wb")
-    server = subprocess.Popen(command, cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
+    log_path = folder / f"{name}.log"
+    server = subprocess.Popen(
+        command, cwd=ROOT, env={**os.environ, **env}, stdout=log_path.open("wb"), stderr=subprocess.STDOUT
+    )
     deadline = time.monotonic() + 30
     while time.monotonic() < deadline:
         if server.poll() is not None:
-            raise SystemExit(f"the server stopped while starting:\n{(folder / 'server.log').read_text()}")
+            raise SystemExit(f"the {name} stopped while starting:\n{log_path.read_text()}")
         try:
             if httpx.get(f"http://127.0.0.1:{port}/healthz", timeout=2).status_code == 200:
                 return server
         except httpx.HTTPError:
             time.sleep(0.1)
     server.terminate()
-    raise SystemExit("the server did not answer /healthz within 30 s")
+    raise SystemExit(f"the {name} did not answer /healthz within 30 s")
 
 
 @dataclass

@@ -35,7 +35,6 @@ import os
 import subprocess
 import sys
 import tempfile
-import time
 import uuid
 from dataclasses import dataclass
 from pathlib import Path
@@ -51,12 +50,12 @@ from server.db.session import Database  # noqa: E402
 from server.db.tables import User  # noqa: E402
 from tests.benchmarks.bench_concurrent_saves import (  # noqa: E402
     FIELD,
-    ROOT,
     Saver,
     free_port,
     open_sheet,
     seed,
     start_server,
+    start_uvicorn,
 )
 
 PG_ENV = "CLAYBENCH_TEST_POSTGRES_URL"
@@ -165,22 +164,9 @@ def _lua_table(people: list[dict[str, str]]) -> str:
 
 def start_floor(folder: Path, url: str, port: int) -> subprocess.Popen[bytes]:
     """The floor app under uvicorn, as the app runs (one worker, no access log)."""
-    env = {**os.environ, "DATABASE_URL": url}
-    command = [sys.executable, "-m", "uvicorn", "tests.benchmarks.floor_app:create_floor", "--factory"]
-    command += ["--host", "127.0.0.1", "--port", str(port), "--log-level", "warning", "--no-access-log"]
-    log = (folder / "floor.log").open("wb")
-    server = subprocess.Popen(command, cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT)
-    deadline = time.monotonic() + 30
-    while time.monotonic() < deadline:
-        if server.poll() is not None:
-            raise SystemExit(f"the floor stopped while starting:\n{(folder / 'floor.log').read_text()}")
-        try:
-            if httpx.get(f"http://127.0.0.1:{port}/healthz", timeout=2).status_code == 200:
-                return server
-        except httpx.HTTPError:
-            time.sleep(0.1)
-    server.terminate()
-    raise SystemExit("the floor did not answer /healthz within 30 s")
+    return start_uvicorn(
+        folder, "tests.benchmarks.floor_app:create_floor", {"DATABASE_URL": url}, port, name="floor"
+    )
 
 
 def _stop(server: subprocess.Popen[bytes]) -> None:
