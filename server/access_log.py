@@ -6,16 +6,18 @@ logged, but a client may put one in the query string. Whoever reads the server's
 operators, a log collector) must not be able to open a client's link or call the API as
 someone, so both are replaced by "…" before the line is written, as the laboratory's own log
 of link use does (``server/web/client.py``).
+
+``claybench serve`` logs one JSON object per line (``server/observability/logs.py``); the access
+line of each request is the app's own (``server/observability/middleware.py``, which redacts its
+path before logging it), and this filter sits on the one handler as well, so that a token reaches
+no output whichever logger carries it.
 """
 
 from __future__ import annotations
 
-import copy
 import logging
 import re
 from typing import Any
-
-from uvicorn.config import LOGGING_CONFIG
 
 REDACTED = "…"
 
@@ -29,21 +31,44 @@ def redact(line: str) -> str:
 
 
 class RedactTokens(logging.Filter):
-    """Rewrites the path argument of uvicorn's access records (client, method, path, version,
-    status) and, for any other record, its message, so that no token reaches a handler."""
+    """Rewrites a record's text arguments (the path of uvicorn's access records: client, method,
+    path, version, status), its ``path`` field and, when a token is still in the message made of
+    them (an argument that is not text, such as a URL object), the message itself, so that no
+    token reaches a handler."""
 
     def filter(self, record: logging.LogRecord) -> bool:
-        args = record.args
-        if isinstance(args, tuple) and len(args) == 5 and isinstance(args[2], str):
-            record.args = (args[0], args[1], redact(args[2]), args[3], args[4])
-        elif isinstance(record.msg, str) and not args:
-            record.msg = redact(record.msg)
+        if isinstance(record.args, tuple):
+            record.args = tuple(redact(a) if isinstance(a, str) else a for a in record.args)
+        message = record.getMessage()
+        if redact(message) != message:
+            record.msg, record.args = redact(message), None
+        path = getattr(record, "path", None)
+        if isinstance(path, str):
+            record.path = redact(path)
         return True
 
 
 def log_config() -> dict[str, Any]:
-    """uvicorn's own logging set-up with ``RedactTokens`` on the access handler."""
-    config = copy.deepcopy(LOGGING_CONFIG)
-    config["filters"] = {"redact_tokens": {"()": RedactTokens}}
-    config["handlers"]["access"]["filters"] = ["redact_tokens"]
-    return config
+    """The logging set-up of ``claybench serve``: every logger (the app's, uvicorn's) through one
+    handler on standard output, one JSON object per line, with ``RedactTokens`` on it."""
+    return {
+        "version": 1,
+        "disable_existing_loggers": False,
+        "filters": {"redact_tokens": {"()": RedactTokens}},
+        "formatters": {"json": {"()": "server.observability.logs.JsonFormatter"}},
+        "handlers": {
+            "stdout": {
+                "class": "logging.StreamHandler",
+                "stream": "ext://sys.stdout",
+                "formatter": "json",
+                "filters": ["redact_tokens"],
+            }
+        },
+        "loggers": {
+            # uvicorn's loggers come with handlers of their own by default: here they pass theirs up.
+            "uvicorn": {"handlers": [], "level": "INFO", "propagate": True},
+            "uvicorn.error": {"handlers": [], "level": "INFO", "propagate": True},
+            "uvicorn.access": {"handlers": [], "level": "INFO", "propagate": True},
+        },
+        "root": {"handlers": ["stdout"], "level": "INFO"},
+    }

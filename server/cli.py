@@ -1,5 +1,5 @@
-"""The ``claybench`` command: serve, demo, migrate, create-user, create-token, calc, import, export,
-audit verify."""
+"""The ``claybench`` command: serve, worker, demo, migrate, create-user, create-token, calc, import, export,
+audit verify, backup, restore."""
 
 from __future__ import annotations
 
@@ -7,6 +7,7 @@ import argparse
 import getpass
 import json
 import os
+import subprocess
 import sys
 from typing import Any
 
@@ -14,22 +15,70 @@ from server.config import get_settings
 
 
 def _serve(host: str, port: int) -> None:
+    """The app on ``host:port``, its metrics on a port of their own, JSON log lines on stdout."""
+    import logging.config
+
     import uvicorn
 
     from server.access_log import log_config
+    from server.main import create_app
+    from server.observability.metrics import start_exporter
 
+    logging.config.dictConfig(log_config())  # before the app: share and API tokens never logged
+    settings = get_settings()
+    app = create_app(settings)
+    start_exporter(app.state.metrics.registry, settings.metrics_host, settings.metrics_port)
     uvicorn.run(
-        "server.main:create_app",
-        factory=True,
+        app,
         host=host,
         port=port,
         proxy_headers=True,
-        log_config=log_config(),  # share and API tokens never reach the access log
+        log_config=None,  # configured above
+        access_log=False,  # the app writes each request's line itself (server/observability/middleware.py)
     )
 
 
+def _with_worker(settings_url: str, wanted: bool | None) -> bool:
+    """Whether serve starts a render worker of its own: by default on SQLite (one machine, the
+    worker beside the app), not on PostgreSQL, where workers run apart (``claybench worker``)."""
+    return wanted if wanted is not None else settings_url.startswith("sqlite")
+
+
+def _start_worker() -> subprocess.Popen[bytes]:
+    """``claybench worker`` as a child process of serve: the same task code, another interpreter,
+    so that a render never holds the web process."""
+    return subprocess.Popen(
+        [sys.executable, "-c", "from server.cli import main; raise SystemExit(main(['worker']))"]
+    )
+
+
+def _serve_and_render(host: str, port: int, worker_wanted: bool | None) -> None:
+    """The web app, and on SQLite (or when asked) a render worker beside it for as long."""
+    worker = _start_worker() if _with_worker(get_settings().database_url, worker_wanted) else None
+    try:
+        _serve(host, port)
+    finally:
+        if worker is not None:
+            worker.terminate()  # the worker ends after the render in hand, or is killed
+            try:
+                worker.wait(30)
+            except subprocess.TimeoutExpired:
+                worker.kill()
+
+
 def cmd_serve(args: argparse.Namespace) -> int:
-    _serve(args.host, args.port)
+    _serve_and_render(args.host, args.port, args.worker)
+    return 0
+
+
+def cmd_worker(args: argparse.Namespace) -> int:
+    """Render issued reports until stopped (SIGTERM or Ctrl-C ends it after the render in hand)."""
+    import logging
+
+    from server.tasks.worker import run_worker
+
+    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s %(message)s")
+    run_worker(get_settings())
     return 0
 
 
@@ -250,6 +299,43 @@ def cmd_audit_verify(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_backup(args: argparse.Namespace) -> int:
+    """Every table into DIR with a manifest to check it by (server/ops/backup.py), as the schema's
+    owner, while the app keeps running; exit 2 naming the refusal."""
+    from pathlib import Path
+
+    from server.ops.backup import backup
+    from server.ops.errors import BackupRefused
+
+    try:
+        written = backup(get_settings().migrate_database_url, Path(args.dir))
+    except BackupRefused as exc:
+        print(f"refused: {exc}", file=sys.stderr)
+        return 2
+    print(written.summary())
+    return 0
+
+
+def cmd_restore(args: argparse.Namespace) -> int:
+    """The backup in DIR into the empty database of the settings, as the schema's owner: exit 2
+    when refused (nothing written), 1 when the restored rows do not match the manifest."""
+    from pathlib import Path
+
+    from server.ops.backup import restore
+    from server.ops.errors import BackupRefused, RestoreMismatch
+
+    try:
+        restored = restore(get_settings().migrate_database_url, Path(args.dir))
+    except BackupRefused as exc:
+        print(f"refused: {exc}", file=sys.stderr)
+        return 2
+    except RestoreMismatch as exc:
+        print(f"failed: {exc}", file=sys.stderr)
+        return 1
+    print(restored.summary())
+    return 0
+
+
 def cmd_demo(args: argparse.Namespace) -> int:
     from server.demo import load_demo
 
@@ -258,7 +344,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
     print(info.summary())
     if args.no_serve:
         return 0
-    _serve(args.host, args.port)
+    _serve_and_render(args.host, args.port, None)
     return 0
 
 
@@ -269,7 +355,16 @@ def parser() -> argparse.ArgumentParser:
     s = sub.add_parser("serve", help="run the web app")
     s.add_argument("--host", default="127.0.0.1")
     s.add_argument("--port", type=int, default=8000)
+    s.add_argument(
+        "--worker",
+        action=argparse.BooleanOptionalAction,
+        default=None,
+        help="start a render worker beside the app (default: on SQLite yes, on PostgreSQL no)",
+    )
     s.set_defaults(fn=cmd_serve)
+
+    w = sub.add_parser("worker", help="render issued reports (the queue of the database in DATABASE_URL)")
+    w.set_defaults(fn=cmd_worker)
 
     d = sub.add_parser("demo", help="create a demo database with a fictional job, then serve it")
     d.add_argument("--host", default="127.0.0.1")
@@ -326,6 +421,14 @@ def parser() -> argparse.ArgumentParser:
         "verify", help="walk the hash chain; exit 1 naming the first event changed or after a removal"
     )
     v.set_defaults(fn=cmd_audit_verify)
+
+    b = sub.add_parser("backup", help="copy every table (issued PDFs included) into DIR with a manifest")
+    b.add_argument("dir", help="a new or empty folder")
+    b.set_defaults(fn=cmd_backup)
+
+    r = sub.add_parser("restore", help="restore the backup in DIR into the configured, empty database")
+    r.add_argument("dir", help="a folder written by claybench backup")
+    r.set_defaults(fn=cmd_restore)
     return p
 
 

@@ -50,6 +50,14 @@ class Settings(BaseSettings):
     signin_throttle_address: str = "20/minute;60/hour"
     token_throttle_address: str = "20/minute;100/hour"
     throttle_storage: str = "memory://"
+    # Where `claybench serve` exports Prometheus metrics: a port of its own, never the app's, on
+    # loopback unless told otherwise; port 0 turns it off (server/observability/metrics.py).
+    metrics_host: str = "127.0.0.1"
+    metrics_port: int = Field(default=9464, ge=0, le=65535)
+    # A report render stops after this long or past this much memory (address space) and is
+    # shown as failed, to be retried: a runaway render must not hold a worker or the machine.
+    render_time_limit_s: float = Field(default=600.0, gt=0, le=86400)
+    render_memory_limit_mb: int = Field(default=2048, ge=256, le=1024 * 1024)
 
     @model_validator(mode="after")
     def _fill_defaults(self) -> Settings:

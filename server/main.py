@@ -7,7 +7,6 @@ from urllib.parse import urlencode
 from fastapi import FastAPI, Request
 from fastapi.responses import JSONResponse, RedirectResponse
 from fastapi.staticfiles import StaticFiles
-from sqlalchemy import text
 from starlette.middleware.sessions import SessionMiddleware
 from starlette.responses import Response
 
@@ -17,6 +16,8 @@ from server.api import v1 as api_v1
 from server.auth.sessions import CsrfRefused, RoleRequired, SignInRequired
 from server.config import ROOT, Settings, get_settings
 from server.db.session import Database
+from server.observability.metrics import Metrics
+from server.observability.middleware import RequestObserver
 from server.web import (
     account,
     admin_access,
@@ -26,6 +27,7 @@ from server.web import (
     busy,
     client,
     exports,
+    health,
     home,
     http_errors,
     imports,
@@ -63,12 +65,15 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         https_only=settings.https_only_cookies,
     )
     app.add_middleware(SecurityHeaders, production=settings.production)  # CSP and friends, every response
+    app.state.metrics = Metrics(app.state.db)  # exported by `claybench serve` on a port of its own
+    app.add_middleware(RequestObserver, metrics=app.state.metrics)  # outermost: request id, access line
     app.mount("/static", StaticFiles(directory=ROOT / "static"), name="static")
     app.include_router(api_calculations.router)
     api_v1.install(app)  # before the pages, so that no page route reads an /api/v1 path
     busy.install(app)  # a write that waited its whole turn: 503 with Retry-After
     http_errors.install(app)  # 404, 403, 409 ... as a page, a fragment, JSON or a problem
     for module in (
+        health,  # /healthz and /readyz
         signin,
         intake,  # before jobs: /jobs/new must not be read as /jobs/{job_id}
         job_page,
@@ -90,17 +95,6 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         account,
     ):
         app.include_router(module.router)
-
-    @app.get("/healthz", include_in_schema=False)
-    def healthz(request: Request) -> JSONResponse:
-        try:
-            with request.app.state.db.session() as s:
-                s.exec(text("SELECT 1"))
-        except Exception as exc:  # noqa: BLE001 - any database failure means "not healthy"
-            return JSONResponse(
-                {"status": "database unavailable", "error": type(exc).__name__}, status_code=503
-            )
-        return JSONResponse({"status": "ok", "version": __version__})
 
     @app.exception_handler(SignInRequired)
     def _signin(request: Request, exc: SignInRequired) -> Response:

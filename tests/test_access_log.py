@@ -1,11 +1,12 @@
 """``claybench serve`` writes its access log without share-link or API tokens in it.
 
-Run as a laboratory runs it: the real command on a free loopback port, the real uvicorn access
-log on its standard output, a real share link opened through it.
+Run as a laboratory runs it: the real command on a free loopback port, its JSON log lines on
+standard output, its metrics on a loopback port of their own, a real share link opened through it.
 """
 
 from __future__ import annotations
 
+import json
 import os
 import signal
 import socket
@@ -16,6 +17,7 @@ import urllib.error
 import urllib.request
 
 import pytest
+from prometheus_client.parser import text_string_to_metric_families
 
 from server.access_log import redact
 from server.db.session import Database
@@ -49,9 +51,10 @@ def _free_port() -> int:
         return int(s.getsockname()[1])
 
 
-def _get(url: str) -> int:
+def _get(url: str, request_id: str = "") -> int:
+    headers = {"X-Request-ID": request_id} if request_id else {}
     try:
-        with urllib.request.urlopen(url, timeout=10) as answer:
+        with urllib.request.urlopen(urllib.request.Request(url, headers=headers), timeout=10) as answer:
             return int(answer.status)
     except urllib.error.HTTPError as refused:
         return int(refused.code)
@@ -62,7 +65,13 @@ def test_the_served_access_log_never_holds_a_share_token(db: Database, people: P
     two = two_approved_samples(db, people)
     made = links.create_link(db, people.review, two.job_id, 7)
     port = _free_port()
-    env = {**os.environ, "DATABASE_URL": db.url, "PYTHONUNBUFFERED": "1"}
+    metrics_port = _free_port()
+    env = {
+        **os.environ,
+        "DATABASE_URL": db.url,
+        "PYTHONUNBUFFERED": "1",
+        "CLAYBENCH_METRICS_PORT": str(metrics_port),
+    }
     server = subprocess.Popen(
         [sys.executable, "-m", "server.cli", "serve", "--host", "127.0.0.1", "--port", str(port)],
         env=env,
@@ -80,12 +89,31 @@ def test_the_served_access_log_never_holds_a_share_token(db: Database, people: P
             except (urllib.error.URLError, ConnectionError):
                 assert time.monotonic() < deadline and server.poll() is None, "the server did not start"
                 time.sleep(0.2)
-        assert _get(f"{base}/share/{made.token}") == 200
-        assert _get(f"{base}/share/{made.token}/reports/999.pdf") == 404
-        assert _get(f"{base}/api/v1/jobs?access_token=not-a-header-{made.token}") == 401
+        assert _get(f"{base}/share/{made.token}", "client-1") == 200
+        assert _get(f"{base}/share/{made.token}/reports/999.pdf", "client-2") == 404
+        assert _get(f"{base}/api/v1/jobs?access_token=not-a-header-{made.token}", "client-3") == 401
+        with urllib.request.urlopen(f"http://127.0.0.1:{metrics_port}/metrics", timeout=10) as answer:
+            metrics = answer.read().decode()
     finally:
         server.send_signal(signal.SIGINT)
         log, _ = server.communicate(timeout=30)
-    assert made.token not in log
-    assert '"GET /share/… HTTP/1.1" 200' in log and '"GET /share/…/reports/999.pdf HTTP/1.1" 404' in log
-    assert "access_token=…" in log
+    assert made.token not in log and made.token not in metrics
+    lines = [json.loads(line) for line in log.splitlines() if line.startswith("{")]
+    access = {line["request_id"]: line for line in lines if line["logger"] == "claybench.access"}
+    assert (access["client-1"]["path"], access["client-1"]["status"]) == ("/share/…", 200)
+    assert (access["client-2"]["path"], access["client-2"]["status"]) == ("/share/…/reports/999.pdf", 404)
+    assert (
+        access["client-3"]["path"] == "/api/v1/jobs?access_token=…" and access["client-3"]["method"] == "GET"
+    )
+    assert any(
+        line["logger"] == "uvicorn.error" and "Uvicorn running on" in line["message"] for line in lines
+    )
+    assert "INFO:     " not in log  # uvicorn's own text format is not used
+    share_200 = [
+        s.value
+        for family in text_string_to_metric_families(metrics)
+        for s in family.samples
+        if s.name == "claybench_http_requests_total" and s.labels["route"] == "/share/{token}"
+        if s.labels["status"] == "200"
+    ]
+    assert share_200 == [1.0]

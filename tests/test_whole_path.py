@@ -18,6 +18,7 @@ from pypdf import PdfReader
 from server.db.session import Database
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
+from tests.support.renders import run_queued
 from tests.support.scenario import ATTERBERG, form_fields, small_job
 
 
@@ -68,7 +69,8 @@ def test_atterberg_test_goes_from_bench_to_client_download(
     job_path = f"/jobs/{job.job_id}"
     signed = {"password": PASSWORDS["review"]}  # issuing is a signature (S7 point 4)
     issued = post_form(app_client, job_path, f"{job_path}/reports", signed, follow_redirects=False)
-    assert issued.status_code == 303, issued.text
+    assert issued.status_code == 303 and "done=rendering" in issued.headers["location"], issued.text
+    assert len(run_queued(db)) == 1  # the render worker's task code renders and stores it
     made = post_form(app_client, job_path, f"{job_path}/links", {"days_valid": "14", "label": "designer"})
     link = re.search(r"http://testserver(/share/[\w-]+)", made.text).group(1)  # type: ignore[union-attr]
     app_client.cookies.clear()

@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import and_, false, func, or_
+from sqlalchemy import and_, false, func, or_, union_all
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
@@ -43,17 +43,20 @@ def _is(entity: str, ids: Any) -> Any:
     return and_(col(AuditEvent.entity) == entity, col(AuditEvent.entity_id).in_(ids))
 
 
+def _of(entity: str, ids: Any) -> Any:
+    """The ids of the events of these records (one index range of ``(entity, entity_id)``)."""
+    return select(col(AuditEvent.id)).where(_is(entity, ids))
+
+
 def _job_condition(session: Session, job_id: int) -> Any:
+    """The events of a job, as ``id IN (one union of the kinds of record)``: each part reads the
+    ``(entity, entity_id)`` index, where one OR of them all would read the whole trail."""
     job = session.get(Job, job_id)
     if job is None:
         return false()
     locations = select(Location.id).where(Location.job_id == job_id)
-    samples = (
-        select(Sample.id)
-        .join(Location, col(Location.id) == Sample.location_id)
-        .where(Location.job_id == job_id)
-    )
-    tests = select(LabTest.id).where(col(LabTest.sample_id).in_(samples))
+    samples = select(Sample.id).where(Sample.job_id == job_id)
+    tests = select(LabTest.id).join(Sample, col(Sample.id) == LabTest.sample_id).where(Sample.job_id == job_id)
     reports = select(Report.id).where(Report.job_id == job_id)
     # A link opens one job, or every job of its client (job_id empty): both concern this job.
     links = select(ShareLink.id).where(
@@ -62,21 +65,25 @@ def _job_condition(session: Session, job_id: int) -> Any:
             and_(col(ShareLink.job_id).is_(None), col(ShareLink.client_id) == job.client_id),
         )
     )
-    return or_(
-        _is("job", [job_id]),
-        _is("client", [job.client_id]),
-        _is("location", locations),
-        _is("sample", samples),
-        _is("lab_test", tests),
-        _is("report", reports),
-        _is("share_link", links),
+    return col(AuditEvent.id).in_(
+        union_all(
+            _of("job", [job_id]),
+            _of("client", [job.client_id]),
+            _of("location", locations),
+            _of("sample", samples),
+            _of("lab_test", tests),
+            _of("report", reports),
+            _of("share_link", links),
+        )
     )
 
 
 def _sample_condition(sample_id: int) -> Any:
-    return or_(
-        _is("sample", [sample_id]),
-        _is("lab_test", select(LabTest.id).where(LabTest.sample_id == sample_id)),
+    return col(AuditEvent.id).in_(
+        union_all(
+            _of("sample", [sample_id]),
+            _of("lab_test", select(LabTest.id).where(LabTest.sample_id == sample_id)),
+        )
     )
 
 
@@ -145,13 +152,24 @@ def entity_events(session: Session, entity: str, entity_id: int) -> list[AuditEv
     return events
 
 
-def recent(session: Session, limit: int = 100) -> list[AuditEvent]:
-    """The newest events of the whole laboratory, newest first."""
-    return list(session.exec(select(AuditEvent).order_by(col(AuditEvent.id).desc()).limit(limit)).all())
+def recent(session: Session, limit: int = 100, before: int | None = None) -> list[AuditEvent]:
+    """The newest events of the whole laboratory, newest first; with ``before``, the newest of
+    those older than that event (a keyset page: the primary key's index, at any depth)."""
+    stmt = select(AuditEvent).order_by(col(AuditEvent.id).desc()).limit(limit)
+    if before is not None:
+        stmt = stmt.where(col(AuditEvent.id) < before)
+    return list(session.exec(stmt).all())
 
 
-def jobs(session: Session) -> list[Job]:
-    return list(session.exec(select(Job).order_by(col(Job.code))).all())
+def has_older(session: Session, oldest: int) -> bool:
+    """Whether events older than event ``oldest`` exist (the audit page's "older events" link)."""
+    return session.exec(select(AuditEvent.id).where(col(AuditEvent.id) < oldest).limit(1)).first() is not None
+
+
+def recent_jobs(session: Session, limit: int = 50) -> list[Job]:
+    """The jobs registered last (the audit page offers their trails; any other job's trail is a
+    link on its own page)."""
+    return list(session.exec(select(Job).order_by(col(Job.id).desc()).limit(limit)).all())
 
 
 def refused_sign_ins(session: Session, limit: int = 100) -> list[AuditEvent]:

@@ -1,8 +1,10 @@
-"""The jobs list at real size (issue S6 point 7): search, a status filter and pages.
+"""The jobs list at real size (issue S6 point 7): search, a status filter and pages; and a job's
+own page at real size (issue S11: a job of a thousand samples), its samples a page at a time.
 
 A laboratory keeps every job it ever had, so the list cannot load them all: it asks the
-database for one page, and always with the same two queries (the count of matching jobs, then
-the page itself with its counts as correlated subqueries), whatever the number of jobs.
+database for one page, and always with the same three queries (the count of matching jobs, the
+ids of the page's jobs in order, then those jobs with their counts as correlated subqueries),
+whatever the number of jobs and however deep the page.
 
 Statuses are derived, never stored, so they cannot drift from the reports:
 
@@ -32,9 +34,11 @@ from typing import Any, Final, Literal
 
 from sqlalchemy import ColumnElement, Select, and_, case, func, literal, or_, union
 from sqlalchemy import select as sa_select
+from sqlalchemy.orm import load_only
 from sqlmodel import Session, col, select
 
-from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Report, Sample
+from server.db.queries import JobSheet, frozen_ags4_digests, job_reports
+from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Report, Sample, ShareLink
 from server.workflow.states import Status
 
 DerivedStatus = Literal["open", "overdue", "reported"]
@@ -157,7 +161,7 @@ def _row_counts() -> tuple[Any, Any]:
 
 
 def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = PER_PAGE) -> JobListPage:
-    """One page of the jobs matching ``wanted``, in two queries whatever the number of jobs."""
+    """One page of the jobs matching ``wanted``, in three queries whatever the number of jobs."""
     per_page = max(1, per_page)
     issued = _issued()
     reported = issued.c.n.is_not(None)
@@ -176,24 +180,28 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
     pages = max(1, math.ceil(total / per_page))
     page = min(max(1, wanted.page), pages)
 
-    samples, to_approve = _row_counts()
     open_due = case((reported, None), else_=col(Job.due_date))
     reported_due = case((reported, col(Job.due_date)), else_=None)
-    stmt = (
-        matching(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
-        .order_by(
-            case((reported, 1), else_=0),
-            open_due.is_(None),
-            open_due.asc(),
-            reported_due.is_(None),
-            reported_due.desc(),
-            col(Job.code),
-        )
-        .offset((page - 1) * per_page)
-        .limit(per_page)
+    # The page's jobs first, by id alone: the counts are then made for those rows only, where
+    # counting in the ordered query would count every job the offset skips.
+    ids = list(
+        session.execute(
+            matching(col(Job.id))
+            .order_by(
+                case((reported, 1), else_=0),
+                open_due.is_(None),
+                open_due.asc(),
+                reported_due.is_(None),
+                reported_due.desc(),
+                col(Job.code),
+            )
+            .offset((page - 1) * per_page)
+            .limit(per_page)
+        ).scalars()
     )
-    rows = [
-        JobRow(
+    samples, to_approve = _row_counts()
+    found = {
+        job.id: JobRow(
             job,
             client,
             int(n_samples),
@@ -201,8 +209,15 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
             int(n_issued),
             derived_status(job.due_date, n_issued, today),
         )
-        for job, client, n_samples, n_open, n_issued in session.execute(stmt).all()
-    ]
+        for job, client, n_samples, n_open, n_issued in session.execute(
+            sa_select(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
+            .select_from(Job)
+            .join(Client, col(Client.id) == col(Job.client_id))
+            .outerjoin(issued, issued.c.job_id == col(Job.id))
+            .where(col(Job.id).in_(ids))
+        ).all()
+    } if ids else {}
+    rows = [found[i] for i in ids if i in found]
     return JobListPage(rows=rows, total=total, page=page, pages=pages, per_page=per_page)
 
 
@@ -297,3 +312,107 @@ def jobs_after(
         )
         for job, client, n_samples, n_open, n_issued in session.execute(stmt).all()
     ]
+
+
+# --- one job's page: its samples a page at a time ----------------------------------------------
+
+SAMPLES_PER_PAGE: Final = 100
+
+
+@dataclass(frozen=True)
+class Reportable:
+    """A sample the issue form offers: not withdrawn, with an approved current test."""
+
+    sample_id: int
+    location: str
+    code: str
+
+
+@dataclass(frozen=True)
+class JobSheetPage:
+    """The job page's records: the job's sheet with one page of its samples (by location code,
+    depth and code) and their current tests, read without readings or results; the number of
+    samples of each location; and every sample a report may be issued for."""
+
+    sheet: JobSheet
+    sample_counts: dict[int, int]  # by location id, every page
+    reportable: list[Reportable]
+    total: int  # samples of the job
+    page: int  # clamped to 1..pages
+    pages: int
+    per_page: int
+
+    @property
+    def first(self) -> int:
+        """The position of the page's first sample in the job (from 1; 0 when there is none)."""
+        return (self.page - 1) * self.per_page + 1 if self.total else 0
+
+    @property
+    def last(self) -> int:
+        return min(self.total, self.page * self.per_page)
+
+
+def job_sheet_page(
+    session: Session, job_id: int, page: int = 1, per_page: int = SAMPLES_PER_PAGE
+) -> JobSheetPage | None:
+    """The job page's records in a fixed number of queries, whatever the number of samples."""
+    job = session.get(Job, job_id)
+    if job is None:
+        return None
+    client = session.get(Client, job.client_id)
+    assert client is not None
+    locations = list(session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code))))
+    sample_counts = {
+        int(loc): int(n)
+        for loc, n in session.execute(
+            sa_select(col(Sample.location_id), func.count())
+            .where(col(Sample.job_id) == job_id)
+            .group_by(col(Sample.location_id))
+        )
+    }
+    total = sum(sample_counts.values())
+    per_page = max(1, per_page)
+    pages = max(1, math.ceil(total / per_page))
+    page = min(max(1, page), pages)
+    samples: dict[int, list[Sample]] = {}
+    for sample in session.exec(
+        select(Sample)
+        .join(Location, col(Location.id) == col(Sample.location_id))
+        .where(col(Sample.job_id) == job_id)
+        .order_by(col(Location.code), col(Sample.depth_from_m), col(Sample.code))
+        .offset((page - 1) * per_page)
+        .limit(per_page)
+    ):
+        samples.setdefault(sample.location_id, []).append(sample)
+    ids = [x.id for xs in samples.values() for x in xs]
+    tests: dict[int, list[LabTest]] = {}
+    if ids:
+        for test in session.exec(
+            select(LabTest)
+            .where(col(LabTest.sample_id).in_(ids), col(LabTest.status) != Status.superseded.value)
+            .options(load_only(LabTest.id, LabTest.sample_id, LabTest.method, LabTest.status, LabTest.revision))  # type: ignore[arg-type]
+            .order_by(col(LabTest.method))
+        ):
+            tests.setdefault(test.sample_id, []).append(test)
+    reportable = [
+        Reportable(int(i), loc, code)
+        for i, loc, code in session.execute(
+            sa_select(col(Sample.id), col(Location.code), col(Sample.code))
+            .join(Location, col(Location.id) == col(Sample.location_id))
+            .where(
+                col(Sample.job_id) == job_id,
+                col(Sample.withdrawn_at).is_(None),
+                col(Sample.id).in_(
+                    sa_select(col(LabTest.sample_id)).where(col(LabTest.status) == Status.approved.value)
+                ),
+            )
+            .order_by(col(Location.code), col(Sample.depth_from_m), col(Sample.code))
+        )
+    ]
+    links = list(
+        session.exec(select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc()))
+    )
+    reports = job_reports(session, job_id)
+    ags4 = frozen_ags4_digests(session, [r.id or 0 for r in reports])
+    sheet = JobSheet(job, client, locations, samples, tests, reports, links, ags4)
+    return JobSheetPage(sheet, sample_counts, reportable, total, page, pages, per_page)

@@ -8,12 +8,16 @@ the moment a later revision of the report replaces it.
 
 from __future__ import annotations
 
+import math
+import weakref
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, timedelta
 from typing import Any
 
-from sqlalchemy import func, literal_column
+from sqlalchemy import Engine, and_, case, exists, func, literal, literal_column, or_
+from sqlalchemy import cast as sa_cast
+from sqlalchemy.dialects.postgresql import JSONB
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
@@ -125,6 +129,8 @@ def last_event(session: Session, entity: str, entity_id: int) -> tuple[AuditEven
 # -- the review queue --------------------------------------------------------------------------
 
 FLAG_CHOICES = ("any", "error", "warning", "none")
+QUEUE_PAGE = 50  # tests a page of the queue shows
+JOB_CHOICES = 100  # jobs the job filter offers: those with the most tests waiting
 
 
 @dataclass(frozen=True)
@@ -163,11 +169,25 @@ class Counts:
 
 @dataclass
 class Queue:
+    """One page of the queue, the counts of the whole queue, and the choices of its filters."""
+
     rows: list[QueueRow]
     counts: Counts
-    jobs: list[Job]
+    jobs: list[Job]  # the jobs with the most tests waiting (at most JOB_CHOICES), by number
     methods: list[str]
     people: list[User]
+    page: int = 1  # clamped to 1..pages
+    pages: int = 1
+    per_page: int = 50
+    more_jobs: int = 0  # jobs with tests waiting that the job filter does not offer
+
+    @property
+    def previous_page(self) -> int | None:
+        return self.page - 1 if self.page > 1 else None
+
+    @property
+    def next_page(self) -> int | None:
+        return self.page + 1 if self.page < self.pages else None
 
 
 def worst_flag(flags: Sequence[dict[str, Any]] | None) -> str | None:
@@ -177,23 +197,51 @@ def worst_flag(flags: Sequence[dict[str, Any]] | None) -> str | None:
     return "warning" if severities else None
 
 
-def _keeps(item: QueueRow, wanted: QueueFilter) -> bool:
-    test = item.row.test
-    if wanted.job_id is not None and item.row.job.id != wanted.job_id:
-        return False
-    if wanted.method and test.method != wanted.method:
-        return False
-    if wanted.author_id is not None and wanted.author_id not in {u.id for u in item.authors}:
-        return False
-    if wanted.older_than_days is not None and item.waited < timedelta(days=wanted.older_than_days):
-        return False
-    if wanted.flags == "any":
-        return item.worst is not None
-    if wanted.flags in ("error", "warning"):
-        return item.worst == wanted.flags
-    if wanted.flags == "none":
-        return item.worst is None
-    return True
+def _has_severity(session: Session, severity: str) -> Any:
+    """A condition: the test carries a flag of this severity (in the ``flags`` JSON list).
+
+    PostgreSQL: jsonb containment (``@>``); SQLite: its JSON1 ``json_each`` (sqlite.org/json1.html).
+    """
+    if session.get_bind().dialect.name == "postgresql":
+        flags = func.coalesce(sa_cast(col(LabTest.flags), JSONB), sa_cast(literal("[]"), JSONB))
+        return flags.contains([{"severity": severity}])
+    each = func.json_each(col(LabTest.flags)).table_valued("value")
+    return exists(select(literal(1)).select_from(each).where(func.json_extract(each.c.value, "$.severity") == severity))
+
+
+def _waiting_since() -> Any:
+    return func.coalesce(col(LabTest.submitted_at), col(LabTest.updated_at))
+
+
+def _author_pairs(waiting: Any) -> Any:
+    """(test id, author id) of every handed-in test in ``waiting`` (a subquery of test ids):
+    the rule of ``authors_by_test`` in SQL, for counting and narrowing the whole queue at once."""
+    start = (
+        select(col(LabTest.id).label("start_id"), col(LabTest.id).label("id"), col(LabTest.previous_revision_id).label("prev"))
+        .where(col(LabTest.id).in_(select(waiting.c.id)))
+        .cte("queue_chain", recursive=True)
+    )
+    chain = start.union_all(
+        select(start.c.start_id, col(LabTest.id), col(LabTest.previous_revision_id)).join(
+            start, col(LabTest.id) == start.c.prev
+        )
+    )
+    return (
+        select(chain.c.start_id.label("test_id"), col(AuditEvent.actor_id).label("author_id"))
+        .join(
+            AuditEvent,
+            and_(col(AuditEvent.entity) == "lab_test", col(AuditEvent.entity_id) == chain.c.id),
+        )
+        .where(
+            col(AuditEvent.actor_id).is_not(None),
+            or_(
+                col(AuditEvent.action) == "readings",
+                and_(col(AuditEvent.action) == "amend", chain.c.id == chain.c.start_id),
+            ),
+        )
+        .distinct()
+        .subquery("queue_authors")
+    )
 
 
 def review_queue(
@@ -202,12 +250,98 @@ def review_queue(
     wanted: QueueFilter,
     now: datetime,
     *,
+    page: int = 1,
+    per_page: int = QUEUE_PAGE,
     self_approval_forbidden: bool = True,
 ) -> Queue:
-    """Handed-in tests: errors first, then warnings, then the rest; the longest waiting first."""
-    rows = test_rows(session, col(LabTest.status) == "submitted", order=(col(LabTest.submitted_at),))
+    """Handed-in tests: errors first, then warnings, then the rest; the longest waiting first.
+
+    The database counts, narrows, orders and pages the whole queue (a fixed number of queries,
+    whatever its length); only the page's tests are loaded, without their readings and results.
+    """
+    error, warning = _has_severity(session, "error"), _has_severity(session, "warning")
+    rank = case((error, 0), (warning, 1), else_=2)
+    since = _waiting_since()
+    two_days = now - timedelta(days=2)
+    handed_in = col(LabTest.status) == "submitted"
+    waiting = select(col(LabTest.id)).where(handed_in).subquery("waiting")
+    c = session.execute(
+        select(
+            func.count(),
+            func.coalesce(func.sum(case((error, 1), else_=0)), 0),
+            func.coalesce(func.sum(case((and_(~error, warning), 1), else_=0)), 0),
+            func.coalesce(func.sum(case((and_(~error, ~warning), 1), else_=0)), 0),
+            func.coalesce(func.sum(case((since <= two_days, 1), else_=0)), 0),
+        ).where(handed_in)
+    ).one()
+    counts = Counts(
+        waiting=int(c[0]),
+        with_error=int(c[1]),
+        with_warning_only=int(c[2]),
+        without_flags=int(c[3]),
+        older_than_two_days=int(c[4]),
+    )
+    counts.by_job = {
+        int(j): int(n)
+        for j, n in session.execute(
+            select(col(Sample.job_id), func.count())
+            .join(LabTest, col(LabTest.sample_id) == col(Sample.id))
+            .where(handed_in)
+            .group_by(col(Sample.job_id))
+        )
+    }
+    counts.by_method = dict(
+        session.execute(select(col(LabTest.method), func.count()).where(handed_in).group_by(col(LabTest.method))).all()
+    )
+    pairs = _author_pairs(waiting)
+    counts.by_author = {
+        int(a): int(n)
+        for a, n in session.execute(select(pairs.c.author_id, func.count()).group_by(pairs.c.author_id))
+    }
+    conditions: list[Any] = [handed_in]
+    if wanted.job_id is not None:
+        conditions.append(col(Sample.job_id) == wanted.job_id)
+    if wanted.method:
+        conditions.append(col(LabTest.method) == wanted.method)
+    if wanted.author_id is not None:
+        conditions.append(col(LabTest.id).in_(select(pairs.c.test_id).where(pairs.c.author_id == wanted.author_id)))
+    if wanted.older_than_days is not None:
+        conditions.append(since <= now - timedelta(days=wanted.older_than_days))
+    if wanted.flags == "any":
+        conditions.append(rank < 2)
+    elif wanted.flags in ("error", "warning"):
+        conditions.append(rank == (0 if wanted.flags == "error" else 1))
+    elif wanted.flags == "none":
+        conditions.append(rank == 2)
+    counts.shown = int(
+        session.execute(
+            select(func.count())
+            .select_from(LabTest)
+            .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+            .where(*conditions)
+        ).scalar_one()
+    )
+    per_page = max(1, per_page)
+    pages = max(1, math.ceil(counts.shown / per_page))
+    page = min(max(1, page), pages)
+    found = session.exec(
+        select(LabTest, Sample, Location, Job)
+        .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+        .join(Location, col(Location.id) == col(Sample.location_id))
+        .join(Job, col(Job.id) == col(Sample.job_id))
+        .where(*conditions)
+        .options(defer(LabTest.readings), defer(LabTest.results))  # type: ignore[arg-type]
+        .order_by(rank, since, col(LabTest.id))
+        .offset((page - 1) * per_page)
+        .limit(per_page)
+    ).all()
+    rows = [TestRow(t, smp, loc, j) for t, smp, loc, j in found]
     authors = authors_by_test(session, [r.test.id or 0 for r in rows])
-    people = users_by_id(session, [a for ids in authors.values() for a in ids])
+    offered = sorted(counts.by_job, key=lambda j: (-counts.by_job[j], j))[:JOB_CHOICES]
+    if wanted.job_id is not None and wanted.job_id in counts.by_job and wanted.job_id not in offered:
+        offered.append(wanted.job_id)
+    jobs = list(session.exec(select(Job).where(col(Job.id).in_(offered)).order_by(col(Job.code)))) if offered else []
+    people = users_by_id(session, [*counts.by_author, *(a for ids in authors.values() for a in ids)])
     items: list[QueueRow] = []
     for r in rows:
         ids = authors.get(r.test.id or 0, set())
@@ -223,27 +357,16 @@ def review_queue(
                 batchable=worst is None and not (own and self_approval_forbidden),
             )
         )
-    rank = {"error": 0, "warning": 1, None: 2}
-    items.sort(key=lambda q: (rank[q.worst], -q.waited.total_seconds(), q.row.test.id or 0))
-    counts = Counts(waiting=len(items))
-    for q in items:
-        counts.with_error += q.worst == "error"
-        counts.with_warning_only += q.worst == "warning"
-        counts.without_flags += q.worst is None
-        counts.older_than_two_days += q.waited >= timedelta(days=2)
-        counts.by_job[q.row.job.id or 0] = counts.by_job.get(q.row.job.id or 0, 0) + 1
-        counts.by_method[q.row.test.method] = counts.by_method.get(q.row.test.method, 0) + 1
-        for u in q.authors:
-            counts.by_author[u.id or 0] = counts.by_author.get(u.id or 0, 0) + 1
-    shown = [q for q in items if _keeps(q, wanted)]
-    counts.shown = len(shown)
-    jobs = {q.row.job.id: q.row.job for q in items}
     return Queue(
-        rows=shown,
+        rows=items,
         counts=counts,
-        jobs=sorted(jobs.values(), key=lambda j: j.code),
+        jobs=jobs,
         methods=sorted(counts.by_method),
-        people=sorted(people.values(), key=lambda u: u.full_name),
+        people=sorted((people[a] for a in counts.by_author if a in people), key=lambda u: u.full_name),
+        page=page,
+        pages=pages,
+        per_page=per_page,
+        more_jobs=len(counts.by_job) - len(jobs),
     )
 
 
@@ -371,10 +494,11 @@ class JobTimes:
     last_issued: datetime | None
     open_tests: int
     days_late: int  # whole days past the due date with work still open; 0 when not late
+    test_count: int = 0  # current tests (``tests`` lists them on a job's own page only)
 
     @property
     def complete(self) -> bool:
-        return bool(self.tests) and self.open_tests == 0
+        return self.test_count > 0 and self.open_tests == 0
 
     @property
     def overdue(self) -> bool:
@@ -447,6 +571,174 @@ def turnaround(session: Session, today: date, *, job_id: int | None = None) -> l
                 last_issued=_latest(t.issued for t in tests),
                 open_tests=open_tests,
                 days_late=(today - job.due_date).days if late and job.due_date else 0,
+                test_count=len(tests),
             )
         )
     return out
+
+
+# -- the turnaround overview, a page of each section at a time ----------------------------------
+
+TURNAROUND_PAGE = 50  # jobs a section of the overview shows at a time
+SECTIONS = ("late", "open", "done")
+
+
+@dataclass(frozen=True)
+class Rollup:
+    """A job's counts that decide its section: current tests, and those on no report yet."""
+
+    job_id: int
+    code: str
+    due: date | None
+    tests: int
+    open_tests: int
+
+    def days_late(self, today: date) -> int:
+        late = self.due is not None and self.due < today and (self.open_tests > 0 or self.tests == 0)
+        return (today - self.due).days if late and self.due else 0
+
+    def section(self, today: date) -> str:
+        if self.days_late(today) > 0:
+            return "late"
+        return "done" if self.tests > 0 and self.open_tests == 0 else "open"
+
+
+@dataclass
+class Section:
+    name: str
+    jobs: list[JobTimes]
+    total: int
+    page: int
+    pages: int
+
+
+# The rollups of every job, kept per database with the newest audit event id they were read at:
+# every change writes an audit event in its own transaction (DESIGN.md section 4), so while the
+# newest id is the same, nothing a rollup counts has changed, and reading them again (a scan of
+# every current test) would only give the same answer.
+_ROLLUPS: weakref.WeakKeyDictionary[Engine, tuple[int, list[Rollup]]] = weakref.WeakKeyDictionary()
+
+
+def _newest_event_id(session: Session) -> int:
+    return int(session.execute(select(func.max(col(AuditEvent.id)))).scalar_one() or 0)
+
+
+def rollups(session: Session) -> list[Rollup]:
+    """Every job's rollup (one aggregate over the current tests, or none when the trail has not
+    moved since the last one; two queries at most)."""
+    engine = session.get_bind().engine
+    newest = _newest_event_id(session)
+    kept = _ROLLUPS.get(engine)
+    if kept is not None and kept[0] == newest:
+        return kept[1]
+    on_report = select(col(ReportTest.test_id)).distinct().subquery("on_report")
+    per_job = (
+        select(
+            col(Sample.job_id).label("job_id"),
+            func.count(col(LabTest.id)).label("tests"),
+            func.sum(case((on_report.c.test_id.is_(None), 1), else_=0)).label("open_tests"),
+        )
+        .join(LabTest, col(LabTest.sample_id) == col(Sample.id))
+        .outerjoin(on_report, on_report.c.test_id == col(LabTest.id))
+        .where(col(LabTest.status) != "superseded")
+        .group_by(col(Sample.job_id))
+        .subquery("per_job")
+    )
+    found = [
+        Rollup(int(i), code, due, int(n), int(o))
+        for i, code, due, n, o in session.execute(
+            select(
+                col(Job.id),
+                col(Job.code),
+                col(Job.due_date),
+                func.coalesce(per_job.c.tests, 0),
+                func.coalesce(per_job.c.open_tests, 0),
+            ).outerjoin(per_job, per_job.c.job_id == col(Job.id))
+        )
+    ]
+    _ROLLUPS[engine] = (newest, found)
+    return found
+
+
+def turnaround_overview(session: Session, today: date, pages: dict[str, int], per_page: int = TURNAROUND_PAGE) -> list[Section]:
+    """The late jobs (the most overdue first), the open ones and the done ones (by number), a
+    page of each: the rollups decide the sections, then the page's jobs get their times (a fixed
+    number of queries, whatever the number of jobs)."""
+    by_section: dict[str, list[Rollup]] = {name: [] for name in SECTIONS}
+    for r in rollups(session):
+        by_section[r.section(today)].append(r)
+    by_section["late"].sort(key=lambda r: (-r.days_late(today), r.code))
+    by_section["open"].sort(key=lambda r: r.code)
+    by_section["done"].sort(key=lambda r: r.code)
+    chosen: dict[str, tuple[list[Rollup], int, int]] = {}
+    for name, found in by_section.items():
+        n_pages = max(1, math.ceil(len(found) / per_page))
+        page = min(max(1, pages.get(name, 1)), n_pages)
+        chosen[name] = (found[(page - 1) * per_page : page * per_page], page, n_pages)
+    ids = [r.job_id for rows, _, _ in chosen.values() for r in rows]
+    times = _job_times(session, ids)
+    jobs = {
+        j.id: (j, c)
+        for j, c in session.exec(select(Job, Client).join(Client, col(Client.id) == Job.client_id).where(col(Job.id).in_(ids)))
+    } if ids else {}
+    out = []
+    for name in SECTIONS:
+        rows, page, n_pages = chosen[name]
+        listed = []
+        for r in rows:
+            job, client = jobs[r.job_id]
+            submitted, approved, issued = times.get(r.job_id, (None, None, None))
+            listed.append(
+                JobTimes(
+                    job=job,
+                    client=client,
+                    tests=[],
+                    received=job.received_at,
+                    due=job.due_date,
+                    last_submitted=submitted,
+                    last_approved=approved,
+                    last_issued=issued,
+                    open_tests=r.open_tests,
+                    days_late=r.days_late(today),
+                    test_count=r.tests,
+                )
+            )
+        out.append(Section(name, listed, len(by_section[name]), page, n_pages))
+    return out
+
+
+def _job_times(session: Session, job_ids: list[int]) -> dict[int, tuple[Any, Any, Any]]:
+    """The last hand-in, approval and first issue of the current tests of these jobs."""
+    if not job_ids:
+        return {}
+    first_issue = (
+        select(col(ReportTest.test_id).label("test_id"), func.min(col(Report.issued_at)).label("at"))
+        .join(Report, col(Report.id) == col(ReportTest.report_id))
+        .join(LabTest, col(LabTest.id) == col(ReportTest.test_id))
+        .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+        .where(col(Sample.job_id).in_(job_ids))
+        .group_by(col(ReportTest.test_id))
+        .subquery("first_issue")
+    )
+    rows = session.execute(
+        select(
+            col(Sample.job_id),
+            func.max(col(LabTest.submitted_at)),
+            func.max(col(LabTest.approved_at)),
+            func.max(first_issue.c.at),
+        )
+        .join(LabTest, col(LabTest.sample_id) == col(Sample.id))
+        .outerjoin(first_issue, first_issue.c.test_id == col(LabTest.id))
+        .where(col(Sample.job_id).in_(job_ids), col(LabTest.status) != "superseded")
+        .group_by(col(Sample.job_id))
+    ).all()
+    return {int(j): (_aware(s), _aware(a), _aware(i)) for j, s, a, i in rows}
+
+
+def _aware(value: Any) -> datetime | None:
+    """A time from an aggregate (max() gives the stored naive UTC value back untyped)."""
+    if value is None:
+        return None
+    if isinstance(value, str):  # SQLite hands an aggregate of a timestamp back as its text
+        value = datetime.fromisoformat(value)
+    return value if value.tzinfo else value.replace(tzinfo=UTC)

@@ -31,7 +31,7 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
-from sqlalchemy import Engine, create_engine, event
+from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import OperationalError
 from sqlmodel import Session
@@ -186,10 +186,20 @@ class Database:
         self.is_sqlite = self.engine.dialect.name == "sqlite"
         self.write_budget_s = write_budget_s
         self._writers = _queue_for(self.engine.url.database) if self.is_sqlite else None
+        self._reader = (
+            self.engine if self.is_sqlite else self.engine.execution_options(isolation_level="AUTOCOMMIT")
+        )
 
     def session(self) -> Session:
         """A session for reading; it must not be used to commit changes."""
         return Session(self.engine, expire_on_commit=False)
+
+    def read(self) -> Connection:
+        """A connection for one plain Core read on the hot path (the session lookup of every
+        request): no ORM session around it, and on PostgreSQL no BEGIN and ROLLBACK either
+        (autocommit: one statement sees what is committed, as at READ COMMITTED). Use it with
+        ``with``; it must not write."""
+        return self._reader.connect()
 
     @contextmanager
     def transaction(self) -> Iterator[Session]:
@@ -198,27 +208,7 @@ class Database:
         On SQLite it first waits its turn among this process's writers, then for SQLite's write
         lock, both within ``write_budget_s``; ``DatabaseBusy`` when either does not come in time.
         """
-        if self._writers is None:
-            with self._unit_of_work({}) as session:
-                yield session
-            return
-        started = time.monotonic()
-        if not self._writers.acquire(self.write_budget_s):
-            raise DatabaseBusy(time.monotonic() - started)
-        try:
-            left_ms = max(0.0, self.write_budget_s - (time.monotonic() - started)) * 1000
-            with self._unit_of_work({_WAIT_MS: left_ms}) as session:
-                yield session
-        except OperationalError as exc:
-            if _is_busy(exc):
-                raise DatabaseBusy(time.monotonic() - started) from exc
-            raise
-        finally:
-            self._writers.release()
-
-    @contextmanager
-    def _unit_of_work(self, options: dict[str, Any]) -> Iterator[Session]:
-        with Session(self.engine, expire_on_commit=False) as session:
+        with self._turn() as options, Session(self.engine, expire_on_commit=False) as session:
             session.connection(execution_options={_IMMEDIATE: True, **options})
             try:
                 yield session
@@ -226,6 +216,35 @@ class Database:
             except BaseException:
                 session.rollback()
                 raise
+
+    @contextmanager
+    def write(self) -> Iterator[Connection]:
+        """The same unit of work as ``transaction`` on a bare connection, for Core statements on
+        the hot path (a bench save): no ORM session to set up, flush and close around them."""
+        with self._turn() as options, self.engine.connect() as conn:
+            conn = conn.execution_options(**{_IMMEDIATE: True, **options})
+            with conn.begin():
+                yield conn
+
+    @contextmanager
+    def _turn(self) -> Iterator[dict[str, Any]]:
+        """This process's turn to write (SQLite; PostgreSQL needs none): the options that give
+        BEGIN IMMEDIATE what is left of the budget, and ``DatabaseBusy`` when it runs out."""
+        if self._writers is None:
+            yield {}
+            return
+        started = time.monotonic()
+        if not self._writers.acquire(self.write_budget_s):
+            raise DatabaseBusy(time.monotonic() - started)
+        try:
+            left_ms = max(0.0, self.write_budget_s - (time.monotonic() - started)) * 1000
+            yield {_WAIT_MS: left_ms}
+        except OperationalError as exc:
+            if _is_busy(exc):
+                raise DatabaseBusy(time.monotonic() - started) from exc
+            raise
+        finally:
+            self._writers.release()
 
     def dispose(self) -> None:
         self.engine.dispose()

@@ -210,6 +210,10 @@ class LabTest(SQLModel, table=True):
     """
 
     __tablename__ = "lab_test"
+    # A sample's current tests without the wide rows (migration 0010).
+    __table_args__ = (
+        sa.Index("ix_lab_test_sample_status", "sample_id", "status", postgresql_include=["id"]),
+    )
 
     id: int | None = Field(default=None, primary_key=True)
     sample_id: int = Field(foreign_key="sample.id", index=True)
@@ -274,10 +278,62 @@ class ReportAgs4(SQLModel, table=True):
     data: bytes = Field(sa_type=sa.LargeBinary)
 
 
+class ReportRender(SQLModel, table=True):
+    """A report revision signed and waiting for, or being given, its PDF by a worker.
+
+    Issuing is a signature made in the request (password, meaning, the test revisions shown);
+    the render takes seconds to minutes, so it runs in a worker process and this row carries
+    everything the worker needs to make exactly the report that was signed: the issue time and
+    number, the test revisions with their versions (a change since is refused, not rendered),
+    and a digest of the signer's password hash (a password changed since voids the signature).
+    The report itself is stored, with this row marked done, in one transaction: a failed or
+    killed render leaves no report behind, and can be retried."""
+
+    __tablename__ = "report_render"
+
+    id: int | None = Field(default=None, primary_key=True)
+    job_id: int = Field(foreign_key="job.id", index=True)
+    kind: str = Field(max_length=16)  # "issue" or "reissue"
+    previous_report_id: int | None = Field(default=None, foreign_key="report.id")
+    number: str = Field(max_length=40)
+    revision: int = 1
+    requested_by_id: int = Field(foreign_key="user.id")
+    requested_at: datetime = Field(sa_type=UTCDateTime)  # the signature's time, printed as the issue time
+    base_url: str = Field(max_length=300)
+    sample_ids: list[int] | None = _json()
+    tests: list[list[int]] = _json(nullable=False)  # [[test id, version], ...] as signed
+    overlap_decision: str = Field(default="", max_length=1000)
+    signature_meaning: str = Field(max_length=300)
+    signer_check: str = Field(max_length=64)
+    status: str = Field(default="queued", max_length=16, index=True)  # queued, rendering, done, failed
+    attempts: int = 0
+    worker: str = Field(default="", max_length=120)
+    started_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    finished_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    error: str = Field(default="", max_length=1000)
+    report_id: int | None = Field(default=None, foreign_key="report.id")
+
+
+class WorkerHeartbeat(SQLModel, table=True):
+    """A render worker that is alive: it writes ``seen_at`` every few seconds, so /readyz can
+    say whether issued reports will be rendered, and a render whose worker stopped can be told
+    from one still running."""
+
+    __tablename__ = "worker_heartbeat"
+
+    name: str = Field(primary_key=True, max_length=120)
+    queue: str = Field(max_length=20)  # "sqlite" (the table polled) or "procrastinate"
+    host: str = Field(default="", max_length=200)
+    pid: int = 0
+    started_at: datetime = Field(sa_type=UTCDateTime)
+    seen_at: datetime = Field(sa_type=UTCDateTime, index=True)
+
+
 class ReportTest(SQLModel, table=True):
     """Which test revisions a report carries."""
 
     __tablename__ = "report_test"
+    __table_args__ = (sa.Index("ix_report_test_test_id", "test_id"),)  # the reports of a test (0010)
 
     report_id: int = Field(foreign_key="report.id", primary_key=True)
     test_id: int = Field(foreign_key="lab_test.id", primary_key=True)
@@ -395,4 +451,8 @@ class AuditEvent(SQLModel, table=True):
     prev_sha256: str = Field(default="", max_length=64)
     sha256: str = Field(default="", max_length=64)
 
-    __table_args__ = (sa.Index("ix_audit_event_entity", "entity", "entity_id"),)
+    __table_args__ = (
+        sa.Index("ix_audit_event_entity", "entity", "entity_id"),
+        # Who entered or amended a record, from the index alone (migration 0010).
+        sa.Index("ix_audit_event_authors", "entity", "entity_id", "action", "actor_id"),
+    )

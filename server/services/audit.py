@@ -11,20 +11,23 @@ import json
 from collections.abc import Iterable
 from dataclasses import dataclass
 from datetime import datetime
-from typing import Any
+from typing import Any, cast
 
-from sqlalchemy.orm import SessionTransaction
+from sqlalchemy import Connection, Table, Transaction, insert
 from sqlmodel import Session
 
-from server.db.tables import AuditEvent, User
+from server.db.queries import loaded
+from server.db.tables import AuditEvent, User, utcnow
 from server.services import audit_chain
 
 _CHAIN = "claybench_audit_chain"
-"""Where a session keeps the hash of the last event it added, with the transaction it belongs to."""
+"""Where a connection keeps the hash of the last event it added, with the transaction it belongs to."""
+
+_INSERT = insert(cast(Table, AuditEvent.__table__))  # type: ignore[attr-defined]
 
 
 def record(
-    session: Session,
+    session: Session | Connection,
     actor: User | None,
     entity: str,
     entity_id: int,
@@ -35,31 +38,37 @@ def record(
     reason: str | None = None,
     typed_at: datetime | None = None,
 ) -> AuditEvent:
-    """Add one event to the session; it commits (or not) with the change it describes.
-    ``typed_at`` is when the person typed the change, given when it reached the server later
-    (an entry kept on an offline tablet); the event's own time is its arrival.
+    """Write one event in the caller's transaction (an ORM session's, or a bare connection's on
+    the hot path); it commits (or not) with the change it describes. ``typed_at`` is when the
+    person typed the change, given when it reached the server later (an entry kept on an offline
+    tablet); the event's own time is its arrival.
 
     The event is sealed into the hash chain here (``audit_chain`` says what the hash covers): it
     links to the newest event, read once per transaction under the chain's lock, and later events
-    of the same transaction link to the one before them in this session. ``before`` and ``after``
-    are stored as copies, so a caller that changes its dict afterwards cannot make the stored
-    value differ from the hashed one.
+    of the same transaction link to the one before them. ``before`` and ``after`` are stored as
+    copies, so a caller that changes its dict afterwards cannot make the stored value differ from
+    the hashed one. One Core INSERT, at once: the returned event carries its id, in no session.
     """
-    event = AuditEvent(
-        actor_id=actor.id if actor else None,
-        actor=actor.username if actor else "system",
-        entity=entity,
-        entity_id=entity_id,
-        action=action,
-        before=_copy(before),
-        after=_copy(after),
-        reason=reason,
-        typed_at=typed_at,
+    conn = session.connection() if isinstance(session, Session) else session
+    values: dict[str, Any] = {
+        "at": utcnow(),
+        "actor_id": actor.id if actor else None,
+        "actor": actor.username if actor else "system",
+        "entity": entity,
+        "entity_id": entity_id,
+        "action": action,
+        "before": _copy(before),
+        "after": _copy(after),
+        "reason": reason,
+        "typed_at": typed_at,
+        "prev_sha256": _previous_sha256(conn),
+    }
+    event = loaded(AuditEvent, values)
+    values["sha256"] = event.__dict__["sha256"] = audit_chain.chain_hash(
+        audit_chain.content_of(event), event.prev_sha256
     )
-    event.prev_sha256 = _previous_sha256(session)
-    event.sha256 = audit_chain.chain_hash(audit_chain.content_of(event), event.prev_sha256)
-    session.add(event)
-    session.info[_CHAIN] = (_innermost(session), event.sha256)
+    (event.__dict__["id"],) = conn.execute(_INSERT, values).inserted_primary_key or (None,)
+    conn.info[_CHAIN] = (_innermost(conn), event.sha256)
     return event
 
 
@@ -68,20 +77,20 @@ def _copy(value: dict[str, Any] | None) -> dict[str, Any] | None:
     return None if value is None else dict(json.loads(json.dumps(value)))
 
 
-def _innermost(session: Session) -> SessionTransaction | None:
+def _innermost(conn: Connection) -> Transaction | None:
     """The transaction (or savepoint) events are being added in: a remembered hash is only good
     inside the one it was remembered in, since a commit or a rolled-back savepoint ends it."""
-    return session.get_nested_transaction() or session.get_transaction()
+    return conn.get_nested_transaction() or conn.get_transaction()
 
 
-def _previous_sha256(session: Session) -> str:
-    """The hash the next event links to: the session's last event of this transaction, or else
-    the newest stored event (one SELECT, under the lock that keeps writers from forking)."""
-    remembered = session.info.get(_CHAIN)
-    current = _innermost(session)
+def _previous_sha256(conn: Connection) -> str:
+    """The hash the next event links to: this connection's last event of this transaction, or
+    else the newest stored event (one SELECT, under the lock that keeps writers from forking)."""
+    remembered = conn.info.get(_CHAIN)
+    current = _innermost(conn)
     if remembered is not None and current is not None and remembered[0] is current:
         return str(remembered[1])
-    return audit_chain.head(session)
+    return audit_chain.head(conn)
 
 
 # -- reading the trail back ---------------------------------------------------------------------

@@ -31,9 +31,10 @@ import json
 from collections.abc import Mapping
 from dataclasses import dataclass
 from datetime import UTC, datetime
-from typing import Any, Literal, Protocol
+from typing import Any, Literal, Protocol, cast
 
-from sqlalchemy import text
+from sqlalchemy import Connection, Table, text
+from sqlalchemy import select as core_select
 from sqlmodel import Session, col, select
 
 from server.db.session import Database
@@ -47,6 +48,10 @@ LOCK_KEY = int.from_bytes(b"cb-audit", "big")
 read as one 64-bit integer; any fixed key would do, as long as every writer uses the same one)."""
 
 _BATCH = 1000
+
+_AUDIT = cast(Table, AuditEvent.__table__)  # type: ignore[attr-defined]
+_LOCK = text("SELECT pg_advisory_xact_lock(:key)")
+_NEWEST = core_select(_AUDIT.c.sha256).order_by(_AUDIT.c.id.desc()).limit(1)
 
 
 class EventFields(Protocol):
@@ -122,7 +127,7 @@ def chain_hash(content: Mapping[str, Any], prev_sha256: str) -> str:
     return hashlib.sha256(canonical_text(content, prev_sha256).encode("ascii")).hexdigest()
 
 
-def head(session: Session) -> str:
+def head(session: Session | Connection) -> str:
     """The hash a new event links to: the newest event's, read inside the caller's transaction.
 
     Two writers that read the same head would fork the chain, so the read happens under a lock
@@ -134,10 +139,11 @@ def head(session: Session) -> str:
     write lock before anything is read; a session that began without it is refused its first
     write (SQLITE_BUSY) when another writer committed after its read, so it fails, not forks.
     """
-    if session.connection().dialect.name == "postgresql":
-        session.execute(text("SELECT pg_advisory_xact_lock(:key)"), {"key": LOCK_KEY})
-    newest = session.exec(select(AuditEvent.sha256).order_by(col(AuditEvent.id).desc()).limit(1)).first()
-    return GENESIS if newest is None else newest
+    conn = session.connection() if isinstance(session, Session) else session
+    if conn.dialect.name == "postgresql":
+        conn.execute(_LOCK, {"key": LOCK_KEY})
+    newest = conn.execute(_NEWEST).scalar()
+    return GENESIS if newest is None else str(newest)
 
 
 # -- the walk -----------------------------------------------------------------------------------

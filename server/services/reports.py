@@ -1,11 +1,13 @@
-"""Issuing and re-issuing a report: gather approved tests, render the PDF once, store it with its hash.
+"""Issuing and re-issuing a report: gather approved tests, plan the report, store the rendered PDF
+with its hash.
 
-The PDF is rendered outside the write transaction (it takes seconds for a big job and the
-SQLite write lock must not be held that long); the transaction then checks that every test is
-still the approved revision that was rendered, and stores the bytes, SHA-256, content
-fingerprint and audit event together, with the AGS4 file of the same test revisions (made
-in the same read as the PDF's data) and its SHA-256. A stored report is never rendered again:
-downloads serve the stored bytes.
+Issuing is a signature made in the request; the PDF is rendered afterwards by a worker process
+(``services/renders.py`` queues it, ``server/tasks`` renders it), never in the web request and
+never inside the write transaction. Storing then checks that every test is still the approved
+revision that was signed and rendered, and stores the bytes, SHA-256, content fingerprint and
+audit event together, with the AGS4 file of the same test revisions (made in the same read as
+the PDF's data) and its SHA-256. A stored report is never rendered again: downloads serve the
+stored bytes.
 
 A re-issue after an amendment is revision n + 1 of the same report number, carrying the
 current approved revisions of the same samples and methods; the earlier revision is marked
@@ -26,7 +28,18 @@ from sqlmodel import Session, col, func, select
 
 from server.db.queries import TestRow, current_tests, users_by_id
 from server.db.session import Database
-from server.db.tables import Client, Job, Laboratory, LabTest, Report, ReportAgs4, ReportTest, User, utcnow
+from server.db.tables import (
+    Client,
+    Job,
+    Laboratory,
+    LabTest,
+    Report,
+    ReportAgs4,
+    ReportRender,
+    ReportTest,
+    User,
+    utcnow,
+)
 from server.engine import METHODS
 from server.exchange.ags4_write import ags4_text
 from server.exchange.job_export import job_export
@@ -41,7 +54,7 @@ from server.reports.context import (
 )
 from server.services import audit
 from server.services.errors import Conflict, Forbidden, NotFound, invalid
-from server.services.review import Signature, check_signature, required_reason, signer_in
+from server.services.review import Signature, required_reason, signer_in
 from server.workflow.states import CHECKERS, Role
 
 REPORT_MEANING = (
@@ -196,7 +209,10 @@ def frozen_ags4(session: Session, job_id: int, rows: Sequence[TestRow], data: Re
 
 
 @dataclass
-class _Prepared:
+class Prepared:
+    """A planned report revision: its data, the test rows it carries, the signature and the
+    frozen AGS4 file; what the render needs and what storing checks."""
+
     job_id: int
     rows: list[TestRow]
     data: ReportData
@@ -206,11 +222,17 @@ class _Prepared:
     overlap_decision: str = ""
 
 
-def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report:
-    """Store the rendered report, if nothing it carries changed while it was rendered."""
+def store_rendered(db: Database, render_id: int, attempt: int, prepared: Prepared, pdf: bytes) -> Report:
+    """Store the rendered report and mark its render done, in one transaction, if nothing it
+    carries changed while it was rendered and this attempt still owns the render (a render
+    given up for lost and retried elsewhere must not be stored twice)."""
     data, rows = prepared.data, prepared.rows
     with db.transaction() as s:
+        render = s.get(ReportRender, render_id, with_for_update=True)
+        if render is None or render.status != "rendering" or render.attempts != attempt:
+            raise Conflict("this render was given up and retried meanwhile; its result was not stored")
         signer = signer_in(s, prepared.signature)
+        actor = signer
         found = {
             tid: (version, status)
             for tid, version, status in s.exec(
@@ -281,13 +303,9 @@ def _store(db: Database, actor: User, prepared: _Prepared, pdf: bytes) -> Report
         audit.record(
             s, actor, "report", report.id or 0, action, after=after, reason=prepared.overlap_decision or None
         )
+        render.status, render.report_id, render.finished_at, render.error = "done", report.id, utcnow(), ""
+        s.add(render)
         return report
-
-
-def _render(data: ReportData) -> bytes:
-    from server.reports.pdf import render_report_pdf  # WeasyPrint loads only when a report is issued
-
-    return render_report_pdf(data)
 
 
 def _reportable(rows: Sequence[TestRow]) -> list[TestRow]:
@@ -338,6 +356,27 @@ def new_report_data(
     return report_data(session, job, rows, issuer, number, 1, issued_at, base_url, scope=scope), rows
 
 
+def plan_issue(
+    session: Session,
+    job_id: int,
+    issuer: User,
+    issued_at: datetime,
+    base_url: str,
+    sample_ids: Collection[int] | None,
+    signature: Signature,
+    *,
+    overlap_decision: str = "",
+    number: str | None = None,
+) -> Prepared:
+    """Revision 1 of a new report carrying every approved test of the job, or of the chosen
+    samples only. A test revision that another current report carries already is refused
+    unless the issuer records why both reports should carry it (``overlap_decision``)."""
+    data, rows = new_report_data(session, job_id, issuer, issued_at, base_url, sample_ids, number=number)
+    decision = _overlap_decision(session, rows, overlap_decision)
+    ags4 = frozen_ags4(session, job_id, rows, data)
+    return Prepared(job_id, rows, data, signature, ags4, overlap_decision=decision)
+
+
 def issue_report(
     db: Database,
     actor: User,
@@ -348,19 +387,16 @@ def issue_report(
     password: str,
     overlap_decision: str = "",
 ) -> Report:
-    """Issue revision 1 of a new report carrying every approved test of the job, or of the
-    chosen samples only. Issuing is a signature: the issuer's password is entered again and
-    the signature's meaning (``REPORT_MEANING``) is recorded with the report; without it
-    nothing is issued. A test revision that another current report carries already is
-    refused unless the issuer records why both reports should carry it (``overlap_decision``)."""
-    _check_role(actor)
-    signature = check_signature(db, actor, password, REPORT_MEANING)
-    with db.session() as s:
-        data, rows = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
-        decision = _overlap_decision(s, rows, overlap_decision)
-        ags4 = frozen_ags4(s, job_id, rows, data)
-    prepared = _Prepared(job_id, rows, data, signature, ags4, overlap_decision=decision)
-    return _store(db, actor, prepared, _render(data))
+    """Issue a report and render it here and now, through the same queue and task code a worker
+    runs: for the command line, the demo and tests. The web pages queue the render instead
+    (``services.renders.request_issue``) and return at once."""
+    from server.services import renders
+    from server.tasks.render import render_now
+
+    queued = renders.request_issue(
+        db, actor, job_id, base_url, sample_ids, password=password, overlap_decision=overlap_decision
+    )
+    return render_now(db, queued.id or 0)
 
 
 def unreported_sample_ids(db: Database, job_id: int) -> list[int]:
@@ -437,73 +473,80 @@ def _latest(rows: Sequence[TestRow]) -> dict[tuple[int, str], TestRow]:
     return latest
 
 
-def reissue_report(db: Database, actor: User, report_id: int, base_url: str, *, password: str) -> Report:
-    """Issue revision n + 1 of an issued report after an amendment.
+def plan_reissue(
+    session: Session, report_id: int, issuer: User, issued_at: datetime, base_url: str, signature: Signature
+) -> Prepared:
+    """Revision n + 1 of an issued report after an amendment.
 
     It carries the current approved revision of each sample and method of revision n; revision n
-    becomes superseded (with ``superseded_by_id``) and stays downloadable. Refused when a carried
+    becomes superseded (with ``superseded_by_id``) when it is stored. Refused when a carried
     test's newest revision is not approved yet, or when nothing was amended since revision n.
     """
-    _check_role(actor)
-    signature = check_signature(db, actor, password, REPORT_MEANING)
-    issued_at = utcnow()
-    with db.session() as s:
-        old = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
-        if old is None:
-            raise NotFound(f"report {report_id} does not exist")
-        if old.status != "issued":
-            raise Conflict(
-                f"revision {old.revision} of report {old.number} is superseded; re-issue its current revision"
-            )
-        job = s.get(Job, old.job_id)
-        assert job is not None
-        carried_ids = set(s.exec(select(ReportTest.test_id).where(ReportTest.report_id == report_id)).all())
-        carried = s.exec(select(LabTest).where(col(LabTest.id).in_(carried_ids))).all()
-        everything = current_tests(s, job.id or 0)
-        withdrawn = {r.sample.id for r in everything if r.sample.withdrawn_at is not None}
-        keys = {(t.sample_id, t.method) for t in carried if t.sample_id not in withdrawn}
-        if not keys:
-            raise invalid(
-                "tests", "every sample this report carries is withdrawn: there is nothing to re-issue"
-            )
-        latest = _latest([r for r in everything if (r.test.sample_id, r.test.method) in keys])
-        pending = [r for r in latest.values() if r.test.status != "approved"]
-        if pending:
-            r = pending[0]
-            raise invalid(
-                "tests",
-                f"{r.sample.code} ({r.test.method}) revision {r.test.revision} is {r.test.status}, "
-                "not approved: approve it before re-issuing",
-            )
-        if len(latest) < len(keys):
-            raise invalid("tests", "a test carried by this report has no current revision")
-        rows = [r for r in everything if latest.get((r.test.sample_id, r.test.method)) is r]
-        if {r.test.id for r in rows} == carried_ids:
-            raise invalid(
-                "tests",
-                f"nothing in revision {old.revision} was amended since it was issued: it stays current",
-            )
-        earlier = s.exec(
-            select(Report.revision, Report.issued_at, Report.sha256)
-            .where(Report.number == old.number)
-            .order_by(col(Report.revision))
-        ).all()
-        history = [RevisionNote(rev, when.date().isoformat(), sha) for rev, when, sha in earlier]
-        approved = _reportable(everything)
-        data = report_data(
-            s,
-            job,
-            rows,
-            actor,
-            old.number,
-            old.revision + 1,
-            issued_at,
-            base_url,
-            scope=_scope(rows, approved),
-            history=history,
+    s = session
+    old = s.get(Report, report_id, options=[defer(Report.pdf)])  # type: ignore[arg-type]
+    if old is None:
+        raise NotFound(f"report {report_id} does not exist")
+    if old.status != "issued":
+        raise Conflict(
+            f"revision {old.revision} of report {old.number} is superseded; re-issue its current revision"
         )
-        ags4 = frozen_ags4(s, old.job_id, rows, data)
-    return _store(db, actor, _Prepared(old.job_id, rows, data, signature, ags4, old.id), _render(data))
+    job = s.get(Job, old.job_id)
+    assert job is not None
+    carried_ids = set(s.exec(select(ReportTest.test_id).where(ReportTest.report_id == report_id)).all())
+    carried = s.exec(select(LabTest).where(col(LabTest.id).in_(carried_ids))).all()
+    everything = current_tests(s, job.id or 0)
+    withdrawn = {r.sample.id for r in everything if r.sample.withdrawn_at is not None}
+    keys = {(t.sample_id, t.method) for t in carried if t.sample_id not in withdrawn}
+    if not keys:
+        raise invalid("tests", "every sample this report carries is withdrawn: there is nothing to re-issue")
+    latest = _latest([r for r in everything if (r.test.sample_id, r.test.method) in keys])
+    pending = [r for r in latest.values() if r.test.status != "approved"]
+    if pending:
+        r = pending[0]
+        raise invalid(
+            "tests",
+            f"{r.sample.code} ({r.test.method}) revision {r.test.revision} is {r.test.status}, "
+            "not approved: approve it before re-issuing",
+        )
+    if len(latest) < len(keys):
+        raise invalid("tests", "a test carried by this report has no current revision")
+    rows = [r for r in everything if latest.get((r.test.sample_id, r.test.method)) is r]
+    if {r.test.id for r in rows} == carried_ids:
+        raise invalid(
+            "tests",
+            f"nothing in revision {old.revision} was amended since it was issued: it stays current",
+        )
+    earlier = s.exec(
+        select(Report.revision, Report.issued_at, Report.sha256)
+        .where(Report.number == old.number)
+        .order_by(col(Report.revision))
+    ).all()
+    history = [RevisionNote(rev, when.date().isoformat(), sha) for rev, when, sha in earlier]
+    approved = _reportable(everything)
+    data = report_data(
+        s,
+        job,
+        rows,
+        issuer,
+        old.number,
+        old.revision + 1,
+        issued_at,
+        base_url,
+        scope=_scope(rows, approved),
+        history=history,
+    )
+    ags4 = frozen_ags4(s, old.job_id, rows, data)
+    return Prepared(old.job_id, rows, data, signature, ags4, old.id)
+
+
+def reissue_report(db: Database, actor: User, report_id: int, base_url: str, *, password: str) -> Report:
+    """Re-issue a report and render it here and now (as ``issue_report``: the command line, the
+    demo and tests; the web pages queue it with ``services.renders.request_reissue``)."""
+    from server.services import renders
+    from server.tasks.render import render_now
+
+    queued = renders.request_reissue(db, actor, report_id, base_url, password=password)
+    return render_now(db, queued.id or 0)
 
 
 @dataclass

@@ -31,14 +31,28 @@ def _csv(name: str, body: str) -> Response:
     )
 
 
+RECENT_PAGE = 100  # events a page of the audit page shows
+RECENT_JOBS = 50  # jobs the audit page offers a trail of
+
+
 @router.get("/audit")
-def recent(request: Request, user: Checker) -> Response:
-    """The laboratory's newest events, newest first, with a way into each job's trail."""
+def recent(request: Request, user: Checker, before: Count = 0) -> Response:
+    """The laboratory's newest events, newest first, a page at a time (``before``: the events
+    older than that one), with a way into the trail of the jobs registered last."""
     with database(request).session() as s:
-        events = audit_queries.recent(s, 100)
+        events = audit_queries.recent(s, RECENT_PAGE, before or None)
         labels = audit_queries.labels(s, events)
-        jobs = audit_queries.jobs(s)
-    return render(request, "pages/audit.html", events=events, labels=labels, jobs=jobs)
+        jobs = audit_queries.recent_jobs(s, RECENT_JOBS)
+        older = audit_queries.has_older(s, events[-1].id or 0) if events else False
+    return render(
+        request,
+        "pages/audit.html",
+        events=events,
+        labels=labels,
+        jobs=jobs,
+        older_url=f"/audit?before={events[-1].id}" if older else None,
+        newest_url="/audit" if before else None,
+    )
 
 
 def _job(request: Request, job_id: int) -> Job:

@@ -10,10 +10,13 @@ from sqlmodel import col, select
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_user, signed_in_user
-from server.db.queries import job_sheet, test_rows, users_by_id
+from server.db.job_list import job_sheet_page
+from server.db.queries import test_rows, users_by_id
 from server.db.tables import Job, LabTest, LinkAccess, Location, Sample, User
 from server.engine import METHODS
+from server.services.renders import job_renders
 from server.services.reports import REPORT_MEANING
+from server.web.jobs import page_number
 from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 from server.workflow.vocabulary import (
@@ -39,6 +42,7 @@ DONE = {
     "sample-saved": "Sample saved.",
     "withdrawn": "Sample withdrawn; it stays listed here and is left out of reports.",
     "imported": "Schedule imported. The audit trail records the file and what it changed.",
+    "rendering": "Report signed. It is being rendered; it appears below when it is issued.",
 }
 
 
@@ -66,13 +70,16 @@ EMPTY_SAMPLE: dict[str, Any] = {
 }
 
 
-def job_page_response(request: Request, job_id: int, status_code: int = 200, **extra: Any) -> Response:
+def job_page_response(
+    request: Request, job_id: int, status_code: int = 200, *, samples_page: int = 1, **extra: Any
+) -> Response:
     """The job page, optionally with a one-time message (a new link), a refusal, or a
-    location or sample form shown again with its refused fields."""
+    location or sample form shown again with its refused fields; its samples a page at a time."""
     with database(request).session() as s:
-        sheet = job_sheet(s, job_id)
-        if sheet is None:
+        found = job_sheet_page(s, job_id, samples_page)
+        if found is None:
             raise HTTPException(404, "no such job")
+        sheet = found.sheet
         viewer = signed_in_user(request)
         # Who opened a client's link, and from which address, is the client's business: shown to
         # reviewers and admins, who manage the links, and never fetched for a technician.
@@ -89,6 +96,7 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
             if link_ids
             else []
         )
+        render_states = job_renders(s, job_id)
         people = users_by_id(
             s,
             [x.received_by_id for xs in sheet.samples.values() for x in xs]
@@ -99,6 +107,8 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
         "pages/job.html",
         status_code=status_code,
         sheet=sheet,
+        sample_page=found,
+        samples_url=f"/jobs/{job_id}?samples=",
         accesses=accesses,
         people=people,
         new_link=extra.get("new_link"),
@@ -108,6 +118,8 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
         issue_form=extra.get("issue_form", {"choice": "all", "sample": [], "overlap_decision": ""}),
         issue_errors=extra.get("issue_errors", {}),
         report_meaning=REPORT_MEANING,
+        renders=render_states,
+        job_id=job_id,
         location_form=extra.get("location_form", EMPTY_LOCATION),
         location_errors=extra.get("location_errors", {}),
         sample_form=extra.get("sample_form", EMPTY_SAMPLE),
@@ -124,8 +136,9 @@ def job_page_response(request: Request, job_id: int, status_code: int = 200, **e
 
 
 @router.get("/jobs/{job_id}")
-def job_page(request: Request, job_id: IdPath, user: Staff, done: str = "") -> Response:
-    return job_page_response(request, job_id, message=done_message(done))
+def job_page(request: Request, job_id: IdPath, user: Staff, done: str = "", samples: str = "") -> Response:
+    """The job; ``samples`` is the page of its samples (a hand-edited one shows a page anyway)."""
+    return job_page_response(request, job_id, message=done_message(done), samples_page=page_number(samples))
 
 
 @router.get("/samples/{sample_id}")

@@ -1,4 +1,5 @@
-"""Issuing and re-issuing reports of a job, and managing its client links (reviewers and admins)."""
+"""Issuing and re-issuing reports of a job (queued for a render worker; the job page follows the
+render), and managing its client links (reviewers and admins)."""
 
 from __future__ import annotations
 
@@ -8,10 +9,11 @@ from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_roles
-from server.db.tables import Report, ShareLink, User
-from server.services import links, reports
+from server.auth.sessions import csrf_protect, database, require_roles, require_user
+from server.db.tables import Job, Report, ReportRender, ShareLink, User
+from server.services import links, renders, reports
 from server.services.errors import ServiceError, http_status
+from server.tasks.queue import enqueue
 from server.web.forms import record_id, refusal_of
 from server.web.job_page import job_page_response
 from server.web.params import IdPath, IdsQuery, PageRoute
@@ -21,6 +23,7 @@ from server.web.templating import render
 
 router = APIRouter(route_class=PageRoute, dependencies=[Depends(csrf_protect)], include_in_schema=False)
 Checker = Annotated[User, Depends(require_roles("reviewer", "admin"))]
+Staff = Annotated[User, Depends(require_user)]
 
 
 def _base_url(request: Request) -> str:
@@ -45,7 +48,7 @@ def issue_report(
     elif choice == "unreported":
         chosen = reports.unreported_sample_ids(database(request), job_id)
     try:
-        report = reports.issue_report(
+        queued = renders.request_issue(
             database(request),
             user,
             job_id,
@@ -60,7 +63,8 @@ def issue_report(
         return job_page_response(
             request, job_id, http_status(exc), error=problem, issue_errors=errors, issue_form=form
         )
-    return RedirectResponse(f"/jobs/{job_id}#report-{report.id}", status_code=303)
+    enqueue(database(request), queued.id or 0)
+    return RedirectResponse(f"/jobs/{job_id}?done=rendering#renders", status_code=303)
 
 
 @router.post("/reports/{report_id}/reissue")
@@ -74,7 +78,7 @@ def reissue_report(
     if old is None:
         raise HTTPException(404, "no such report")
     try:
-        report = reports.reissue_report(
+        queued = renders.request_reissue(
             database(request), user, report_id, _base_url(request), password=password
         )
     except ServiceError as exc:
@@ -83,7 +87,38 @@ def reissue_report(
         return job_page_response(
             request, old.job_id, http_status(exc), error=f"Re-issue of {old.number}: {message}"
         )
-    return RedirectResponse(f"/jobs/{old.job_id}#report-{report.id}", status_code=303)
+    enqueue(database(request), queued.id or 0)
+    return RedirectResponse(f"/jobs/{old.job_id}?done=rendering#renders", status_code=303)
+
+
+@router.get("/jobs/{job_id}/renders")
+def job_renders_fragment(request: Request, job_id: IdPath, user: Staff) -> Response:
+    """Where the job's report renders stand, for the job page to poll while one waits. When none
+    waits any more the page reloads, to list the issued report (or show the failure)."""
+    with database(request).session() as s:
+        if s.get(Job, job_id) is None:
+            raise HTTPException(404, "no such job")
+        states = renders.job_renders(s, job_id)
+    waiting = any(st.render.status in renders.WAITING for st in states)
+    response = render(request, "partials/job_renders.html", renders=states, job_id=job_id)
+    if not waiting:
+        response.headers["HX-Refresh"] = "true"
+    return response
+
+
+@router.post("/renders/{render_id}/retry")
+def retry_render(request: Request, render_id: IdPath, user: Checker) -> Response:
+    """Queue a failed render again; it renders from the same signature."""
+    with database(request).session() as s:
+        found = s.get(ReportRender, render_id)
+    if found is None:
+        raise HTTPException(404, "no such render")
+    try:
+        renders.retry(database(request), user, render_id)
+    except ServiceError as exc:
+        return job_page_response(request, found.job_id, http_status(exc), error=str(exc))
+    enqueue(database(request), render_id)
+    return RedirectResponse(f"/jobs/{found.job_id}?done=rendering#renders", status_code=303)
 
 
 @router.get("/jobs/{job_id}/reports/preview")

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from typing import Annotated, Any
+from urllib.parse import urlencode
 
 from fastapi import APIRouter, Depends, Form, HTTPException, Request
 from fastapi.responses import RedirectResponse
@@ -22,6 +23,7 @@ from server.services import amendments, bench, review
 from server.services.errors import Invalid, ServiceError, http_status, invalid
 from server.web.bench import sheet_view
 from server.web.bench_forms import SHEETS
+from server.web.jobs import page_number
 from server.web.params import Count, FormVersion, IdPath, PageRoute, lenient_number
 from server.web.templating import is_htmx, render
 from server.workflow.states import Action, can
@@ -63,11 +65,12 @@ def _queue_page(
     status_code: int = 200,
     problem: str | None = None,
     message: str | None = None,
+    page: int = 1,
 ) -> Response:
     settings = request.app.state.settings
     with database(request).session() as s:
         queue = review_queries.review_queue(
-            s, user, wanted, utcnow(), self_approval_forbidden=settings.self_approval_forbidden
+            s, user, wanted, utcnow(), page=page, self_approval_forbidden=settings.self_approval_forbidden
         )
     return render(
         request,
@@ -83,7 +86,22 @@ def _queue_page(
         meaning=review.DEFAULT_MEANING,
         problem=problem,
         message=message,
+        previous_url=_queue_url(wanted, queue.previous_page) if queue.previous_page else None,
+        next_url=_queue_url(wanted, queue.next_page) if queue.next_page else None,
     )
+
+
+def _queue_url(wanted: review_queries.QueueFilter, page: int) -> str:
+    """The queue's address for another page, keeping what it is narrowed to."""
+    query = {
+        "job": wanted.job_id,
+        "method": wanted.method,
+        "person": wanted.author_id,
+        "age": wanted.older_than_days,
+        "flags": wanted.flags,
+        "page": page,
+    }
+    return "/review?" + urlencode({k: v for k, v in query.items() if v is not None})
 
 
 @router.get("/review")
@@ -96,10 +114,13 @@ def queue(
     age: str | None = None,
     flags: str | None = None,
     approved: Count = 0,
+    page: str = "",
 ) -> Response:
-    """Handed-in tests: errors first, then warnings, then the rest, the longest waiting first."""
+    """Handed-in tests: errors first, then warnings, then the rest, the longest waiting first,
+    a page at a time."""
     message = f"{approved} test(s) approved and signed." if approved > 0 else None
-    return _queue_page(request, user, queue_filter(job, method, person, age, flags), message=message)
+    wanted = queue_filter(job, method, person, age, flags)
+    return _queue_page(request, user, wanted, message=message, page=page_number(page))
 
 
 def _selection(values: list[str]) -> list[tuple[int, int]]:

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from datetime import date, datetime
 from typing import Annotated
+from urllib.parse import urlencode
 
 from fastapi import APIRouter, Depends, HTTPException, Request
 from starlette.responses import Response
@@ -12,6 +13,7 @@ from starlette.responses import Response
 from server.auth.sessions import csrf_protect, database, require_roles
 from server.db import review_queries
 from server.db.tables import Job, User, utcnow
+from server.web.jobs import page_number
 from server.web.params import IdPath, PageRoute
 from server.web.templating import render
 
@@ -32,20 +34,33 @@ def today() -> date:
 
 
 @router.get("/turnaround")
-def overview(request: Request, user: Checker) -> Response:
-    """Every job's turnaround; the late ones first, the most overdue at the top."""
+def overview(request: Request, user: Checker, late: str = "", open: str = "", done: str = "") -> Response:
+    """Every job's turnaround; the late ones first, the most overdue at the top; each section a
+    page at a time (``late``, ``open`` and ``done`` name the page of each)."""
+    wanted = {"late": page_number(late), "open": page_number(open), "done": page_number(done)}
     with database(request).session() as s:
-        jobs = review_queries.turnaround(s, today())
-    late = sorted((j for j in jobs if j.overdue), key=lambda j: (-j.days_late, j.job.code))
-    open_jobs = [j for j in jobs if not j.overdue and not j.complete]
-    done = [j for j in jobs if j.complete]
+        sections = {x.name: x for x in review_queries.turnaround_overview(s, today(), wanted)}
+    shown = {name: x.page for name, x in sections.items()}
+
+    def url(name: str, page: int) -> str:
+        query = {**shown, name: page}
+        return "/turnaround?" + urlencode({k: v for k, v in query.items() if v > 1}) + f"#section-{name}"
+
     return render(
         request,
         "pages/turnaround.html",
-        late=late,
-        open_jobs=open_jobs,
-        done=done,
-        spans={j.job.id: span(j.received, j.last_issued) for j in jobs},
+        sections=sections,
+        late=sections["late"].jobs,
+        open_jobs=sections["open"].jobs,
+        done=sections["done"].jobs,
+        pager={
+            name: (
+                url(name, x.page - 1) if x.page > 1 else None,
+                url(name, x.page + 1) if x.page < x.pages else None,
+            )
+            for name, x in sections.items()
+        },
+        spans={j.job.id: span(j.received, j.last_issued) for x in sections.values() for j in x.jobs},
     )
 
 

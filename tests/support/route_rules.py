@@ -69,7 +69,8 @@ DECLARED: tuple[tuple[tuple[str, str], Rule], ...] = (
     (("GET", "/docs"), PUBLIC),
     (("GET", "/docs/oauth2-redirect"), PUBLIC),
     (("GET", "/redoc"), PUBLIC),
-    (("GET", "/healthz"), PUBLIC),  # server/main.py
+    (("GET", "/healthz"), PUBLIC),  # server/web/health.py: the process lives
+    (("GET", "/readyz"), PUBLIC),  # server/web/health.py: database, schema, worker
     # server/api/calculations.py: stateless and public (DESIGN.md section 3)
     (("POST", "/api/v1/calculations"), PUBLIC),
     (("GET", "/api/v1/methods"), PUBLIC),
@@ -159,6 +160,8 @@ DECLARED: tuple[tuple[tuple[str, str], Rule], ...] = (
     (("POST", "/jobs/{job_id}/reports"), CHECKER),
     (("POST", "/reports/{report_id}/reissue"), CHECKER),
     (("GET", "/jobs/{job_id}/reports/preview"), CHECKER),
+    (("GET", "/jobs/{job_id}/renders"), STAFF),
+    (("POST", "/renders/{render_id}/retry"), CHECKER),
     (("POST", "/jobs/{job_id}/links"), CHECKER),
     (("GET", "/jobs/{job_id}/links"), CHECKER),
     (("POST", "/links/{link_id}/revoke"), CHECKER),

@@ -20,6 +20,7 @@ from server.services import jobs, links, reports, samples
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import amend_and_approve, approve, two_approved_samples
 from tests.support.http import post_form, sign_in
+from tests.support.renders import run_queued
 
 BASE = "http://testserver"
 HOSTILE = "<script>alert(1)</script> & <b>bold</b>"
@@ -176,8 +177,7 @@ def test_reviewer_issues_a_report_of_ticked_samples_and_reissues_it_after_an_ame
         follow_redirects=False,
     )
     assert issued.status_code == 303, issued.text
-    with db.session() as s:
-        (report,) = s.exec(select(Report)).all()
+    (report,) = run_queued(db)
     signed = {"password": PASSWORDS["review"]}  # a re-issue is signed (S7 point 4)
     unsigned = post_form(app_client, job_path, f"/reports/{report.id}/reissue", {})
     assert unsigned.status_code == 422 and "password does not match" in unsigned.text
@@ -186,6 +186,7 @@ def test_reviewer_issues_a_report_of_ticked_samples_and_reissues_it_after_an_ame
     amend_and_approve(db, people, two.tests[1])
     again = post_form(app_client, job_path, f"/reports/{report.id}/reissue", signed, follow_redirects=False)
     assert again.status_code == 303, again.text
+    assert [r.revision for r in run_queued(db)] == [2]
     page = app_client.get(job_path)
     rows = re.findall(r'<tr id="report-(\d+)">(.*?)</tr>', page.text, re.S)
     assert len(rows) == 2 and "⊘ superseded" in rows[1][1] and "✔ current" in rows[0][1]

@@ -14,6 +14,7 @@ from server.db.session import Database
 from server.services import amendments, bench, reports, review
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
+from tests.support.renders import run_queued
 from tests.support.scenario import ATTERBERG
 from tests.workflow.flows import EXPIRED_BALANCE, Lab, load, version
 
@@ -274,4 +275,5 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
     signed = {"password": PASSWORDS["review"]}  # a re-issue is signed (S7 point 4)
     done = post_form(app_client, fragment, f"/reports/{report.id}/reissue", signed, follow_redirects=False)
     assert done.status_code == 303
+    run_queued(db)
     assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]

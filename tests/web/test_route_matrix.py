@@ -29,10 +29,11 @@ from fastapi import FastAPI
 from fastapi.routing import iter_route_contexts
 from fastapi.testclient import TestClient
 from httpx import Response
+from sqlmodel import select
 
 from server.config import Settings
 from server.db.session import Database
-from server.db.tables import Job, Sample
+from server.db.tables import Job, ReportRender, Sample
 from server.main import create_app
 from server.services import jobs, links, registers, reports, sessions, tokens
 from tests.conftest import PASSWORDS, People
@@ -189,6 +190,7 @@ def _scenario(db: Database, people: People) -> Scenario:
         job, sample = s.get(Job, two.job_id), s.get(Sample, two.samples[1])
         assert job is not None and sample is not None
         client_id, location_id = job.client_id, sample.location_id
+        render_id = s.exec(select(ReportRender.id).where(ReportRender.report_id == report.id)).one()
     _, other_session = sessions.start(db, people.review2, "10.9.9.9", "spare browser")
     other_token = tokens.create_token(db, people.review2, people.review2, "spare")
     staff = {"tech": people.tech, "review": people.review, "admin": people.admin}
@@ -209,6 +211,7 @@ def _scenario(db: Database, people: People) -> Scenario:
         "test_id": requested.id or 0,
         "approved_test_id": two.tests[1],
         "report_id": report.id or 0,
+        "render_id": render_id or 0,
         "client_id": client_id,
         "location_id": location_id,
         "link_id": spare_link.link.id or 0,
