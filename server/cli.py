@@ -73,11 +73,12 @@ def cmd_serve(args: argparse.Namespace) -> int:
 
 def cmd_worker(args: argparse.Namespace) -> int:
     """Render issued reports until stopped (SIGTERM or Ctrl-C ends it after the render in hand)."""
-    import logging
+    import logging.config
 
+    from server.access_log import log_config
     from server.tasks.worker import run_worker
 
-    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s %(message)s")
+    logging.config.dictConfig(log_config())  # the same JSON lines as serve
     run_worker(get_settings())
     return 0
 

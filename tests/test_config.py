@@ -55,3 +55,17 @@ def test_development_keeps_working_without_any_secret(tmp_path: Path) -> None:
     settings = Settings(data_dir=tmp_path)
     assert not settings.https_only_cookies
     assert len(settings.resolved_secret_key()) >= 32  # generated once into the data folder
+
+
+def test_metrics_are_on_loopback_by_default_and_a_port_out_of_range_is_refused_by_name(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    for name in ("CLAYBENCH_METRICS_HOST", "CLAYBENCH_METRICS_PORT"):
+        monkeypatch.delenv(name, raising=False)
+    default = Settings(data_dir=tmp_path)
+    assert (default.metrics_host, default.metrics_port) == ("127.0.0.1", 9464)
+    monkeypatch.setenv("CLAYBENCH_METRICS_PORT", "70000")  # TCP ports end at 65535 (RFC 793)
+    with pytest.raises(ValidationError, match="metrics_port"):
+        Settings(data_dir=tmp_path)
+    monkeypatch.setenv("CLAYBENCH_METRICS_PORT", "0")  # off
+    assert Settings(data_dir=tmp_path).metrics_port == 0

@@ -107,6 +107,13 @@ def require_user(request: Request) -> User:
     return user
 
 
+async def session_cookie(request: Request) -> None:
+    """Refuse at once a request whose cookie names no session, reading nothing: for a route that
+    looks the session up itself (``require_user``) in the worker thread it runs in anyway."""
+    if not isinstance(request.session.get("sid"), str):
+        raise SignInRequired()
+
+
 def require_roles(*roles: str):  # type: ignore[no-untyped-def]
     """A dependency that lets only these roles through."""
 

@@ -88,11 +88,17 @@ def _sample_condition(sample_id: int) -> Any:
 
 
 def _read(session: Session, condition: Any, offset: int, limit: int | None) -> tuple[list[AuditEvent], int]:
+    """The events meeting ``condition`` in written order, a page of them, and how many there are.
+    The page is chosen among the ids alone (from the index), then only its events are read."""
     total = int(session.exec(select(func.count()).select_from(AuditEvent).where(condition)).one())
-    stmt = select(AuditEvent).where(condition).order_by(col(AuditEvent.id)).offset(offset)
+    page = select(col(AuditEvent.id)).where(condition).order_by(col(AuditEvent.id)).offset(offset)
     if limit is not None:
-        stmt = stmt.limit(limit)
-    return list(session.exec(stmt).all()), total
+        page = page.limit(limit)
+    ids = list(session.exec(page).all())
+    if not ids:
+        return [], total
+    events = session.exec(select(AuditEvent).where(col(AuditEvent.id).in_(ids)).order_by(col(AuditEvent.id)))
+    return list(events.all()), total
 
 
 def labels(session: Session, events: list[AuditEvent]) -> dict[tuple[str, int], str]:

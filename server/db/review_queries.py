@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, timedelta
 from typing import Any
 
-from sqlalchemy import Engine, and_, case, exists, func, literal, literal_column, or_
+from sqlalchemy import Engine, and_, case, exists, func, literal, literal_column, or_, union
 from sqlalchemy import cast as sa_cast
 from sqlalchemy.dialects.postgresql import JSONB
 from sqlalchemy.orm import defer
@@ -213,35 +213,33 @@ def _waiting_since() -> Any:
     return func.coalesce(col(LabTest.submitted_at), col(LabTest.updated_at))
 
 
-def _author_pairs(waiting: Any) -> Any:
-    """(test id, author id) of every handed-in test in ``waiting`` (a subquery of test ids):
-    the rule of ``authors_by_test`` in SQL, for counting and narrowing the whole queue at once."""
+def _author_pairs(handed_in: Any) -> Any:
+    """(test id, author id) of every handed-in test: the rule of ``authors_by_test`` in SQL, for
+    counting and narrowing the whole queue at once. A test's own readings and amendment come
+    straight from the index of the trail; only amended tests walk back to their earlier
+    revisions (whose readings authors are authors too), so the walk stays as short as they are few."""
+    authored = and_(col(AuditEvent.entity) == "lab_test", col(AuditEvent.actor_id).is_not(None))
+    own = (
+        select(col(LabTest.id).label("test_id"), col(AuditEvent.actor_id).label("author_id"))
+        .join(AuditEvent, and_(authored, col(AuditEvent.entity_id) == col(LabTest.id)))
+        .where(handed_in, col(AuditEvent.action).in_(AUTHOR_ACTIONS))
+    )
     start = (
-        select(col(LabTest.id).label("start_id"), col(LabTest.id).label("id"), col(LabTest.previous_revision_id).label("prev"))
-        .where(col(LabTest.id).in_(select(waiting.c.id)))
-        .cte("queue_chain", recursive=True)
+        select(col(LabTest.id).label("start_id"), col(LabTest.previous_revision_id).label("id"))
+        .where(handed_in, col(LabTest.previous_revision_id).is_not(None))
+        .cte("earlier", recursive=True)
     )
-    chain = start.union_all(
-        select(start.c.start_id, col(LabTest.id), col(LabTest.previous_revision_id)).join(
-            start, col(LabTest.id) == start.c.prev
-        )
+    earlier = start.union_all(
+        select(start.c.start_id, col(LabTest.previous_revision_id))
+        .join(start, col(LabTest.id) == start.c.id)
+        .where(col(LabTest.previous_revision_id).is_not(None))
     )
-    return (
-        select(chain.c.start_id.label("test_id"), col(AuditEvent.actor_id).label("author_id"))
-        .join(
-            AuditEvent,
-            and_(col(AuditEvent.entity) == "lab_test", col(AuditEvent.entity_id) == chain.c.id),
-        )
-        .where(
-            col(AuditEvent.actor_id).is_not(None),
-            or_(
-                col(AuditEvent.action) == "readings",
-                and_(col(AuditEvent.action) == "amend", chain.c.id == chain.c.start_id),
-            ),
-        )
-        .distinct()
-        .subquery("queue_authors")
+    before = (
+        select(earlier.c.start_id, col(AuditEvent.actor_id))
+        .join(AuditEvent, and_(authored, col(AuditEvent.entity_id) == earlier.c.id))
+        .where(col(AuditEvent.action) == "readings")
     )
+    return union(own, before).subquery("queue_authors")
 
 
 def review_queue(
@@ -264,7 +262,6 @@ def review_queue(
     since = _waiting_since()
     two_days = now - timedelta(days=2)
     handed_in = col(LabTest.status) == "submitted"
-    waiting = select(col(LabTest.id)).where(handed_in).subquery("waiting")
     c = session.execute(
         select(
             func.count(),
@@ -293,7 +290,7 @@ def review_queue(
     counts.by_method = dict(
         session.execute(select(col(LabTest.method), func.count()).where(handed_in).group_by(col(LabTest.method))).all()
     )
-    pairs = _author_pairs(waiting)
+    pairs = _author_pairs(handed_in)
     counts.by_author = {
         int(a): int(n)
         for a, n in session.execute(select(pairs.c.author_id, func.count()).group_by(pairs.c.author_id))
@@ -313,28 +310,38 @@ def review_queue(
         conditions.append(rank == (0 if wanted.flags == "error" else 1))
     elif wanted.flags == "none":
         conditions.append(rank == 2)
-    counts.shown = int(
-        session.execute(
-            select(func.count())
-            .select_from(LabTest)
-            .join(Sample, col(Sample.id) == col(LabTest.sample_id))
-            .where(*conditions)
-        ).scalar_one()
-    )
+    def narrowed(*columns: Any) -> Any:
+        stmt = select(*columns).select_from(LabTest)
+        if wanted.job_id is not None:  # the only condition on another table
+            stmt = stmt.join(Sample, col(Sample.id) == col(LabTest.sample_id))
+        return stmt.where(*conditions)
+
+    narrowing = len(conditions) > 1
+    counts.shown = int(session.execute(narrowed(func.count())).scalar_one()) if narrowing else counts.waiting
     per_page = max(1, per_page)
     pages = max(1, math.ceil(counts.shown / per_page))
     page = min(max(1, page), pages)
-    found = session.exec(
-        select(LabTest, Sample, Location, Job)
-        .join(Sample, col(Sample.id) == col(LabTest.sample_id))
-        .join(Location, col(Location.id) == col(Sample.location_id))
-        .join(Job, col(Job.id) == col(Sample.job_id))
-        .where(*conditions)
-        .options(defer(LabTest.readings), defer(LabTest.results))  # type: ignore[arg-type]
-        .order_by(rank, since, col(LabTest.id))
-        .offset((page - 1) * per_page)
-        .limit(per_page)
-    ).all()
+    # The page's test ids first, ordered from the narrow columns; then only those rows are read.
+    ids = list(
+        session.execute(
+            narrowed(col(LabTest.id))
+            .order_by(rank, since, col(LabTest.id))
+            .offset((page - 1) * per_page)
+            .limit(per_page)
+        ).scalars()
+    )
+    loaded = {
+        t.id: (t, smp, loc, j)
+        for t, smp, loc, j in session.exec(
+            select(LabTest, Sample, Location, Job)
+            .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+            .join(Location, col(Location.id) == col(Sample.location_id))
+            .join(Job, col(Job.id) == col(Sample.job_id))
+            .where(col(LabTest.id).in_(ids))
+            .options(defer(LabTest.readings), defer(LabTest.results))  # type: ignore[arg-type]
+        )
+    } if ids else {}
+    found = [loaded[i] for i in ids if i in loaded]
     rows = [TestRow(t, smp, loc, j) for t, smp, loc, j in found]
     authors = authors_by_test(session, [r.test.id or 0 for r in rows])
     offered = sorted(counts.by_job, key=lambda j: (-counts.by_job[j], j))[:JOB_CHOICES]

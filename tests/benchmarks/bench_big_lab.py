@@ -108,7 +108,7 @@ def targets(url: str) -> tuple[list[str], list[str], str]:
         f"/jobs?page={last_jobs_page}",
         "/jobs?status=overdue",
         f"/jobs/{big.id}",
-        f"/jobs/{big.id}?samples=last",
+        f"/jobs/{big.id}?samples=10",
         "/review",
         "/review?page=3",
         "/audit",
