@@ -394,6 +394,8 @@ def job_sheet_page(
             .order_by(col(LabTest.method))
         ):
             tests.setdefault(test.sample_id, []).append(test)
+    for i in ids:
+        session.get(Sample, i, populate_existing=True)
     reportable = [
         Reportable(int(i), loc, code)
         for i, loc, code in session.execute(

@@ -91,6 +91,5 @@ def test_every_listing_page_asks_as_many_questions_for_20_samples_as_for_2(
     _grow(db, people, lab, other)
     assert lab.samples == 20
     large = _statements_per_page(app_client, db, token, lab.job.id or 0)
-    print(small, large)
     assert large == small
     assert all(0 < n <= 30 for n in small.values()), small  # a page is a handful of queries
