@@ -1,7 +1,8 @@
 """Reading the audit trail: the events of a test, a sample, a job, a user, or the newest ones.
 
-Reads only: nothing here (or anywhere) updates or deletes an audit event. A trail is one query
-on ``audit_event`` with the record ids found by sub-selects, in the order events were written.
+Reads only: nothing here (or anywhere) updates or deletes an audit event. A trail is the ids of
+its events (one union of index reads, one part per kind of record), a page of them in the order
+events were written, then those events.
 """
 
 from __future__ import annotations
@@ -9,7 +10,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import and_, false, func, or_, union_all
+from sqlalchemy import and_, func, or_, union_all
+from sqlalchemy import select as sa_select
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
@@ -48,15 +50,18 @@ def _of(entity: str, ids: Any) -> Any:
     return select(col(AuditEvent.id)).where(_is(entity, ids))
 
 
-def _job_condition(session: Session, job_id: int) -> Any:
-    """The events of a job, as ``id IN (one union of the kinds of record)``: each part reads the
-    ``(entity, entity_id)`` index, where one OR of them all would read the whole trail."""
+def _job_events(session: Session, job_id: int) -> Any:
+    """The ids of a job's events, as one union of the kinds of record: each part reads the
+    ``(entity, entity_id)`` index, where one OR of them all would read the whole trail. An event
+    is of one record, so the parts never share an id."""
     job = session.get(Job, job_id)
     if job is None:
-        return false()
+        return _of("job", [])
     locations = select(Location.id).where(Location.job_id == job_id)
     samples = select(Sample.id).where(Sample.job_id == job_id)
-    tests = select(LabTest.id).join(Sample, col(Sample.id) == LabTest.sample_id).where(Sample.job_id == job_id)
+    tests = (
+        select(LabTest.id).join(Sample, col(Sample.id) == LabTest.sample_id).where(Sample.job_id == job_id)
+    )
     reports = select(Report.id).where(Report.job_id == job_id)
     # A link opens one job, or every job of its client (job_id empty): both concern this job.
     links = select(ShareLink.id).where(
@@ -65,39 +70,38 @@ def _job_condition(session: Session, job_id: int) -> Any:
             and_(col(ShareLink.job_id).is_(None), col(ShareLink.client_id) == job.client_id),
         )
     )
-    return col(AuditEvent.id).in_(
-        union_all(
-            _of("job", [job_id]),
-            _of("client", [job.client_id]),
-            _of("location", locations),
-            _of("sample", samples),
-            _of("lab_test", tests),
-            _of("report", reports),
-            _of("share_link", links),
-        )
+    return union_all(
+        _of("job", [job_id]),
+        _of("client", [job.client_id]),
+        _of("location", locations),
+        _of("sample", samples),
+        _of("lab_test", tests),
+        _of("report", reports),
+        _of("share_link", links),
     )
 
 
-def _sample_condition(sample_id: int) -> Any:
-    return col(AuditEvent.id).in_(
-        union_all(
-            _of("sample", [sample_id]),
-            _of("lab_test", select(LabTest.id).where(LabTest.sample_id == sample_id)),
-        )
+def _sample_events(sample_id: int) -> Any:
+    return union_all(
+        _of("sample", [sample_id]),
+        _of("lab_test", select(LabTest.id).where(LabTest.sample_id == sample_id)),
     )
 
 
-def _read(session: Session, condition: Any, offset: int, limit: int | None) -> tuple[list[AuditEvent], int]:
-    """The events meeting ``condition`` in written order, a page of them, and how many there are.
-    The page is chosen among the ids alone (from the index), then only its events are read."""
-    total = int(session.exec(select(func.count()).select_from(AuditEvent).where(condition)).one())
-    page = select(col(AuditEvent.id)).where(condition).order_by(col(AuditEvent.id)).offset(offset)
+def _read(session: Session, ids: Any, offset: int, limit: int | None) -> tuple[list[AuditEvent], int]:
+    """The events whose ids ``ids`` selects, in written order, a page of them, and how many there
+    are. The page is chosen among the ids alone (from the index), then only its events are read."""
+    found = ids.subquery("trail")
+    total = int(session.execute(sa_select(func.count()).select_from(found)).scalar_one())
+    page = sa_select(found.c.id).order_by(found.c.id).offset(offset)
     if limit is not None:
         page = page.limit(limit)
-    ids = list(session.exec(page).all())
-    if not ids:
+    chosen = list(session.execute(page).scalars())
+    if not chosen:
         return [], total
-    events = session.exec(select(AuditEvent).where(col(AuditEvent.id).in_(ids)).order_by(col(AuditEvent.id)))
+    events = session.exec(
+        select(AuditEvent).where(col(AuditEvent.id).in_(chosen)).order_by(col(AuditEvent.id))
+    )
     return list(events.all()), total
 
 
@@ -135,13 +139,13 @@ def labels(session: Session, events: list[AuditEvent]) -> dict[tuple[str, int], 
 
 def job_trail(session: Session, job_id: int, offset: int = 0, limit: int | None = PAGE) -> Trail:
     """Every event of a job: the job, its client, locations, samples, tests, reports and links."""
-    events, total = _read(session, _job_condition(session, job_id), offset, limit)
+    events, total = _read(session, _job_events(session, job_id), offset, limit)
     return Trail(events, total, offset, limit or total, labels(session, events))
 
 
 def sample_trail(session: Session, sample_id: int, offset: int = 0, limit: int | None = PAGE) -> Trail:
     """Every event of a sample and of every revision of every test on it."""
-    events, total = _read(session, _sample_condition(sample_id), offset, limit)
+    events, total = _read(session, _sample_events(sample_id), offset, limit)
     return Trail(events, total, offset, limit or total, labels(session, events))
 
 
@@ -149,12 +153,12 @@ def events_of_tests(session: Session, test_ids: list[int]) -> list[AuditEvent]:
     """The events of these test revisions, in the order they were written (for replay and history)."""
     if not test_ids:
         return []
-    events, _ = _read(session, _is("lab_test", test_ids), 0, None)
+    events, _ = _read(session, _of("lab_test", test_ids), 0, None)
     return events
 
 
 def entity_events(session: Session, entity: str, entity_id: int) -> list[AuditEvent]:
-    events, _ = _read(session, _is(entity, [entity_id]), 0, None)
+    events, _ = _read(session, _of(entity, [entity_id]), 0, None)
     return events
 
 

@@ -2,9 +2,9 @@
 own page at real size (issue S11: a job of a thousand samples), its samples a page at a time.
 
 A laboratory keeps every job it ever had, so the list cannot load them all: it asks the
-database for one page, and always with the same three queries (the count of matching jobs, the
-ids of the page's jobs in order, then those jobs with their counts as correlated subqueries),
-whatever the number of jobs and however deep the page.
+database for one page, and always with the same two queries (the count of matching jobs, then
+the page: its jobs chosen in order by id alone, and only those given their counts as correlated
+subqueries), whatever the number of jobs and however deep the page.
 
 Statuses are derived, never stored, so they cannot drift from the reports:
 
@@ -161,7 +161,7 @@ def _row_counts() -> tuple[Any, Any]:
 
 
 def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = PER_PAGE) -> JobListPage:
-    """One page of the jobs matching ``wanted``, in three queries whatever the number of jobs."""
+    """One page of the jobs matching ``wanted``, in two queries whatever the number of jobs."""
     per_page = max(1, per_page)
     issued = _issued()
     reported = issued.c.n.is_not(None)
@@ -182,26 +182,34 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
 
     open_due = case((reported, None), else_=col(Job.due_date))
     reported_due = case((reported, col(Job.due_date)), else_=None)
-    # The page's jobs first, by id alone: the counts are then made for those rows only, where
-    # counting in the ordered query would count every job the offset skips.
-    ids = list(
-        session.execute(
-            matching(col(Job.id))
-            .order_by(
-                case((reported, 1), else_=0),
-                open_due.is_(None),
-                open_due.asc(),
-                reported_due.is_(None),
-                reported_due.desc(),
-                col(Job.code),
-            )
-            .offset((page - 1) * per_page)
-            .limit(per_page)
-        ).scalars()
+    order = (
+        case((reported, 1), else_=0),
+        open_due.is_(None),
+        open_due.asc(),
+        reported_due.is_(None),
+        reported_due.desc(),
+        col(Job.code),
+    )
+    # The page's jobs are chosen by id and position alone; the counts are then made for those
+    # rows only (counting in the ordered query would count every job the offset skips).
+    chosen = (
+        matching(col(Job.id).label("job_id"), func.row_number().over(order_by=order).label("position"))
+        .order_by(*order)
+        .offset((page - 1) * per_page)
+        .limit(per_page)
+        .subquery("chosen")
     )
     samples, to_approve = _row_counts()
-    found = {
-        job.id: JobRow(
+    stmt = (
+        sa_select(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
+        .select_from(chosen)
+        .join(Job, col(Job.id) == chosen.c.job_id)
+        .join(Client, col(Client.id) == col(Job.client_id))
+        .outerjoin(issued, issued.c.job_id == col(Job.id))
+        .order_by(chosen.c.position)
+    )
+    rows = [
+        JobRow(
             job,
             client,
             int(n_samples),
@@ -209,15 +217,8 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
             int(n_issued),
             derived_status(job.due_date, n_issued, today),
         )
-        for job, client, n_samples, n_open, n_issued in session.execute(
-            sa_select(Job, col(Client.name), samples, to_approve, func.coalesce(issued.c.n, 0))
-            .select_from(Job)
-            .join(Client, col(Client.id) == col(Job.client_id))
-            .outerjoin(issued, issued.c.job_id == col(Job.id))
-            .where(col(Job.id).in_(ids))
-        ).all()
-    } if ids else {}
-    rows = [found[i] for i in ids if i in found]
+        for job, client, n_samples, n_open, n_issued in session.execute(stmt).all()
+    ]
     return JobListPage(rows=rows, total=total, page=page, pages=pages, per_page=per_page)
 
 
@@ -317,6 +318,14 @@ def jobs_after(
 # --- one job's page: its samples a page at a time ----------------------------------------------
 
 SAMPLES_PER_PAGE: Final = 100
+# What the job page shows of a test (a list of links), without its readings and results.
+_BRIEF_TEST: Final[list[Any]] = [
+    LabTest.id,
+    LabTest.sample_id,
+    LabTest.method,
+    LabTest.status,
+    LabTest.revision,
+]
 
 
 @dataclass(frozen=True)
@@ -361,7 +370,9 @@ def job_sheet_page(
         return None
     client = session.get(Client, job.client_id)
     assert client is not None
-    locations = list(session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code))))
+    locations = list(
+        session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code)))
+    )
     sample_counts = {
         int(loc): int(n)
         for loc, n in session.execute(
@@ -390,12 +401,10 @@ def job_sheet_page(
         for test in session.exec(
             select(LabTest)
             .where(col(LabTest.sample_id).in_(ids), col(LabTest.status) != Status.superseded.value)
-            .options(load_only(LabTest.id, LabTest.sample_id, LabTest.method, LabTest.status, LabTest.revision))  # type: ignore[arg-type]
+            .options(load_only(*_BRIEF_TEST))
             .order_by(col(LabTest.method))
         ):
             tests.setdefault(test.sample_id, []).append(test)
-    for i in ids:
-        session.get(Sample, i, populate_existing=True)
     reportable = [
         Reportable(int(i), loc, code)
         for i, loc, code in session.execute(
@@ -412,7 +421,9 @@ def job_sheet_page(
         )
     ]
     links = list(
-        session.exec(select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc()))
+        session.exec(
+            select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
+        )
     )
     reports = job_reports(session, job_id)
     ags4 = frozen_ags4_digests(session, [r.id or 0 for r in reports])

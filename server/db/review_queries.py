@@ -15,8 +15,9 @@ from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, timedelta
 from typing import Any
 
-from sqlalchemy import Engine, and_, case, exists, func, literal, literal_column, or_, union
+from sqlalchemy import Engine, and_, case, exists, func, literal, literal_column, union
 from sqlalchemy import cast as sa_cast
+from sqlalchemy import select as sa_select
 from sqlalchemy.dialects.postgresql import JSONB
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
@@ -206,7 +207,9 @@ def _has_severity(session: Session, severity: str) -> Any:
         flags = func.coalesce(sa_cast(col(LabTest.flags), JSONB), sa_cast(literal("[]"), JSONB))
         return flags.contains([{"severity": severity}])
     each = func.json_each(col(LabTest.flags)).table_valued("value")
-    return exists(select(literal(1)).select_from(each).where(func.json_extract(each.c.value, "$.severity") == severity))
+    return exists(
+        select(literal(1)).select_from(each).where(func.json_extract(each.c.value, "$.severity") == severity)
+    )
 
 
 def _waiting_since() -> Any:
@@ -219,7 +222,7 @@ def _author_pairs(handed_in: Any) -> Any:
     straight from the index of the trail; only amended tests walk back to their earlier
     revisions (whose readings authors are authors too), so the walk stays as short as they are few."""
     authored = and_(col(AuditEvent.entity) == "lab_test", col(AuditEvent.actor_id).is_not(None))
-    own = (
+    own: Any = (
         select(col(LabTest.id).label("test_id"), col(AuditEvent.actor_id).label("author_id"))
         .join(AuditEvent, and_(authored, col(AuditEvent.entity_id) == col(LabTest.id)))
         .where(handed_in, col(AuditEvent.action).in_(AUTHOR_ACTIONS))
@@ -263,7 +266,7 @@ def review_queue(
     two_days = now - timedelta(days=2)
     handed_in = col(LabTest.status) == "submitted"
     c = session.execute(
-        select(
+        sa_select(
             func.count(),
             func.coalesce(func.sum(case((error, 1), else_=0)), 0),
             func.coalesce(func.sum(case((and_(~error, warning), 1), else_=0)), 0),
@@ -288,7 +291,9 @@ def review_queue(
         )
     }
     counts.by_method = dict(
-        session.execute(select(col(LabTest.method), func.count()).where(handed_in).group_by(col(LabTest.method))).all()
+        session.execute(
+            select(col(LabTest.method), func.count()).where(handed_in).group_by(col(LabTest.method))
+        ).all()
     )
     pairs = _author_pairs(handed_in)
     counts.by_author = {
@@ -301,7 +306,9 @@ def review_queue(
     if wanted.method:
         conditions.append(col(LabTest.method) == wanted.method)
     if wanted.author_id is not None:
-        conditions.append(col(LabTest.id).in_(select(pairs.c.test_id).where(pairs.c.author_id == wanted.author_id)))
+        conditions.append(
+            col(LabTest.id).in_(select(pairs.c.test_id).where(pairs.c.author_id == wanted.author_id))
+        )
     if wanted.older_than_days is not None:
         conditions.append(since <= now - timedelta(days=wanted.older_than_days))
     if wanted.flags == "any":
@@ -310,6 +317,7 @@ def review_queue(
         conditions.append(rank == (0 if wanted.flags == "error" else 1))
     elif wanted.flags == "none":
         conditions.append(rank == 2)
+
     def narrowed(*columns: Any) -> Any:
         stmt = select(*columns).select_from(LabTest)
         if wanted.job_id is not None:  # the only condition on another table
@@ -330,35 +338,45 @@ def review_queue(
             .limit(per_page)
         ).scalars()
     )
-    loaded = {
-        t.id: (t, smp, loc, j)
-        for t, smp, loc, j in session.exec(
-            select(LabTest, Sample, Location, Job)
-            .join(Sample, col(Sample.id) == col(LabTest.sample_id))
-            .join(Location, col(Location.id) == col(Sample.location_id))
-            .join(Job, col(Job.id) == col(Sample.job_id))
-            .where(col(LabTest.id).in_(ids))
-            .options(defer(LabTest.readings), defer(LabTest.results))  # type: ignore[arg-type]
-        )
-    } if ids else {}
+    loaded = (
+        {
+            t.id: (t, smp, loc, j)
+            for t, smp, loc, j in session.exec(
+                select(LabTest, Sample, Location, Job)
+                .join(Sample, col(Sample.id) == col(LabTest.sample_id))
+                .join(Location, col(Location.id) == col(Sample.location_id))
+                .join(Job, col(Job.id) == col(Sample.job_id))
+                .where(col(LabTest.id).in_(ids))
+                .options(defer(LabTest.readings), defer(LabTest.results))  # type: ignore[arg-type]
+            )
+        }
+        if ids
+        else {}
+    )
     found = [loaded[i] for i in ids if i in loaded]
     rows = [TestRow(t, smp, loc, j) for t, smp, loc, j in found]
     authors = authors_by_test(session, [r.test.id or 0 for r in rows])
     offered = sorted(counts.by_job, key=lambda j: (-counts.by_job[j], j))[:JOB_CHOICES]
     if wanted.job_id is not None and wanted.job_id in counts.by_job and wanted.job_id not in offered:
         offered.append(wanted.job_id)
-    jobs = list(session.exec(select(Job).where(col(Job.id).in_(offered)).order_by(col(Job.code)))) if offered else []
-    people = users_by_id(session, [*counts.by_author, *(a for ids in authors.values() for a in ids)])
+    jobs = (
+        list(session.exec(select(Job).where(col(Job.id).in_(offered)).order_by(col(Job.code))))
+        if offered
+        else []
+    )
+    people = users_by_id(
+        session, [*counts.by_author, *(a for found_ids in authors.values() for a in found_ids)]
+    )
     items: list[QueueRow] = []
     for r in rows:
-        ids = authors.get(r.test.id or 0, set())
+        author_ids = authors.get(r.test.id or 0, set())
         worst = worst_flag(r.test.flags)
-        own = viewer.id in ids
+        own = viewer.id in author_ids
         items.append(
             QueueRow(
                 row=r,
                 worst=worst,
-                authors=sorted((people[i] for i in ids if i in people), key=lambda u: u.full_name),
+                authors=sorted((people[i] for i in author_ids if i in people), key=lambda u: u.full_name),
                 waited=now - (r.test.submitted_at or r.test.updated_at),
                 own=own,
                 batchable=worst is None and not (own and self_approval_forbidden),
@@ -654,7 +672,7 @@ def rollups(session: Session) -> list[Rollup]:
     found = [
         Rollup(int(i), code, due, int(n), int(o))
         for i, code, due, n, o in session.execute(
-            select(
+            sa_select(
                 col(Job.id),
                 col(Job.code),
                 col(Job.due_date),
@@ -667,7 +685,9 @@ def rollups(session: Session) -> list[Rollup]:
     return found
 
 
-def turnaround_overview(session: Session, today: date, pages: dict[str, int], per_page: int = TURNAROUND_PAGE) -> list[Section]:
+def turnaround_overview(
+    session: Session, today: date, pages: dict[str, int], per_page: int = TURNAROUND_PAGE
+) -> list[Section]:
     """The late jobs (the most overdue first), the open ones and the done ones (by number), a
     page of each: the rollups decide the sections, then the page's jobs get their times (a fixed
     number of queries, whatever the number of jobs)."""
@@ -684,10 +704,16 @@ def turnaround_overview(session: Session, today: date, pages: dict[str, int], pe
         chosen[name] = (found[(page - 1) * per_page : page * per_page], page, n_pages)
     ids = [r.job_id for rows, _, _ in chosen.values() for r in rows]
     times = _job_times(session, ids)
-    jobs = {
-        j.id: (j, c)
-        for j, c in session.exec(select(Job, Client).join(Client, col(Client.id) == Job.client_id).where(col(Job.id).in_(ids)))
-    } if ids else {}
+    jobs = (
+        {
+            j.id: (j, c)
+            for j, c in session.exec(
+                select(Job, Client).join(Client, col(Client.id) == Job.client_id).where(col(Job.id).in_(ids))
+            )
+        }
+        if ids
+        else {}
+    )
     out = []
     for name in SECTIONS:
         rows, page, n_pages = chosen[name]

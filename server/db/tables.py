@@ -213,12 +213,22 @@ class LabTest(SQLModel, table=True):
     # A sample's current tests, and the review desk's queue, without the wide rows (migration 0010).
     __table_args__ = (
         sa.Index(
-            "ix_lab_test_sample_status", "sample_id", "status", postgresql_include=["id", "submitted_at", "approved_at"]
+            "ix_lab_test_sample_status",
+            "sample_id",
+            "status",
+            postgresql_include=["id", "submitted_at", "approved_at"],
         ),
         sa.Index(
             "ix_lab_test_waiting",
             "id",
-            postgresql_include=["sample_id", "method", "submitted_at", "updated_at", "previous_revision_id", "flags"],
+            postgresql_include=[
+                "sample_id",
+                "method",
+                "submitted_at",
+                "updated_at",
+                "previous_revision_id",
+                "flags",
+            ],
             postgresql_where=sa.text("status = 'submitted'"),
             sqlite_where=sa.text("status = 'submitted'"),
         ),

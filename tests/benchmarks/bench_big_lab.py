@@ -9,8 +9,8 @@ Run from the repository root with the PostgreSQL dev server of ``/tmp/pgenv``::
                                                           # on a fresh database, 3 GETs a page
 
 Set-up (not timed): the big database is left as ``build_big_lab.py`` made it (``--build`` makes
-it first, at ``--scale``); a real uvicorn server (``start_uvicorn`` of
-``bench_concurrent_saves.py``, one worker, no access log) on a free loopback port against it,
+it first, at ``--scale``); a real uvicorn server (``start_serve`` of
+``bench_concurrent_saves.py``: ``claybench serve``, no render worker) on a free loopback port against it,
 configured through the environment as a laboratory's server is. The admin of the generated lab
 signs in through the sign-in form; an API token is made for them with ``services.tokens``.
 
@@ -47,8 +47,15 @@ from sqlmodel import col, func, select  # noqa: E402
 from server.db.session import Database  # noqa: E402
 from server.db.tables import AuditEvent, Job, Sample, User  # noqa: E402
 from server.services import tokens  # noqa: E402
-from tests.benchmarks.bench_concurrent_saves import free_port, start_uvicorn  # noqa: E402
-from tests.benchmarks.build_big_lab import BIG_JOB, DATABASE, PASSWORD, PG_ENV, build  # noqa: E402
+from tests.benchmarks.bench_concurrent_saves import free_port, start_serve  # noqa: E402
+from tests.benchmarks.build_big_lab import (  # noqa: E402
+    BIG_JOB,
+    DATABASE,
+    PASSWORD,
+    PG_ENV,
+    build,
+    drop_database,
+)
 
 TARGET_MS = 100.0
 CSRF = re.compile(r'name="csrf_token" value="([^"]+)"')
@@ -67,7 +74,9 @@ def _percentile(values: list[float], q: float) -> float:
     return ordered[min(len(ordered) - 1, max(0, round(q * (len(ordered) - 1))))]
 
 
-def timed(http: httpx.Client, path: str, warmup: int, repeat: int, headers: dict[str, str] | None = None) -> Timing:
+def timed(
+    http: httpx.Client, path: str, warmup: int, repeat: int, headers: dict[str, str] | None = None
+) -> Timing:
     statuses: set[int] = set()
     for _ in range(warmup):
         statuses.add(http.get(path, headers=headers).status_code)
@@ -83,7 +92,10 @@ def timed(http: httpx.Client, path: str, warmup: int, repeat: int, headers: dict
 def sign_in(http: httpx.Client, username: str) -> None:
     token = CSRF.search(http.get("/signin").text)
     assert token, "the sign-in page has no CSRF token"
-    reply = http.post("/signin", data={"username": username, "password": PASSWORD, "csrf_token": token.group(1), "next": "/"})
+    reply = http.post(
+        "/signin",
+        data={"username": username, "password": PASSWORD, "csrf_token": token.group(1), "next": "/"},
+    )
     if reply.status_code != 303:
         raise SystemExit(f"{username} could not sign in: {reply.status_code}")
 
@@ -92,9 +104,15 @@ def targets(url: str) -> tuple[list[str], list[str], str]:
     """The pages and API lists to time, with the ids of the big lab; and an API token."""
     db = Database(url)
     with db.session() as s:
-        big = s.exec(select(Job).where(Job.code == BIG_JOB)).first() or s.exec(
-            select(Job).join(Sample, col(Sample.job_id) == col(Job.id)).group_by(col(Job.id)).order_by(func.count().desc())
-        ).first()
+        big = (
+            s.exec(select(Job).where(Job.code == BIG_JOB)).first()
+            or s.exec(
+                select(Job)
+                .join(Sample, col(Sample.job_id) == col(Job.id))
+                .group_by(col(Job.id))
+                .order_by(func.count().desc())
+            ).first()
+        )
         assert big is not None, "the lab has no job: build it first"
         jobs = int(s.exec(select(func.count()).select_from(Job)).one())
         newest = int(s.exec(select(func.max(AuditEvent.id))).one() or 0)
@@ -132,7 +150,7 @@ def bench(url: str, warmup: int, repeat: int) -> int:
             "CLAYBENCH_PUBLIC_BASE_URL": f"http://127.0.0.1:{port}",
             "CLAYBENCH_API_RATE_LIMIT": "100000/minute",
         }
-        server = start_uvicorn(folder, "server.main:create_app", env, port)
+        server = start_serve(folder, env, port)  # as a lab runs it: claybench serve
         try:
             with httpx.Client(base_url=f"http://127.0.0.1:{port}", timeout=60) as http:
                 sign_in(http, "big-admin")
@@ -147,14 +165,18 @@ def bench(url: str, warmup: int, repeat: int) -> int:
             server.wait(timeout=30)
     floor_p50 = statistics.median(f.p50_ms for _, f in rows)
     floor_p95 = statistics.median(f.p95_ms for _, f in rows)
-    print(f"\n{repeat} GETs a page after {warmup} warm-ups; floor /healthz p50 {floor_p50:.1f} ms, p95 {floor_p95:.1f} ms")
+    print(
+        f"\n{repeat} GETs a page after {warmup} warm-ups;"
+        f" floor /healthz p50 {floor_p50:.1f} ms, p95 {floor_p95:.1f} ms"
+    )
     print(f"  {'page':<40} {'p50':>8} {'p95':>8} {'p50/floor':>10} {'p95/floor':>10}  target")
     failed = []
     for page, floor in rows:
         ok = "✔" if page.p95_ms < TARGET_MS else "✖"
         print(
             f"  {page.path[:40]:<40} {page.p50_ms:7.1f}ms {page.p95_ms:7.1f}ms"
-            f" {page.p50_ms / floor.p50_ms:10.1f} {page.p95_ms / floor.p95_ms:10.1f}  {ok} p95 < {TARGET_MS:.0f} ms"
+            f" {page.p50_ms / floor.p50_ms:10.1f} {page.p95_ms / floor.p95_ms:10.1f}"
+            f"  {ok} p95 < {TARGET_MS:.0f} ms"
         )
         if page.statuses != {200}:
             failed.append(f"{page.path} answered {sorted(page.statuses)}")
@@ -170,15 +192,20 @@ def main() -> int:
     parser.add_argument("--scale", type=float, default=1.0, help="with --build: the lab's size (default 1)")
     parser.add_argument("--repeat", type=int, default=30, help="timed GETs a page (default 30)")
     parser.add_argument("--warmup", type=int, default=3, help="untimed GETs first (default 3)")
-    parser.add_argument("--smoke", action="store_true", help="CI: a tiny lab on a fresh database, 3 GETs a page")
+    parser.add_argument(
+        "--smoke", action="store_true", help="CI: a tiny lab on a fresh database, 3 GETs a page"
+    )
     args = parser.parse_args()
     admin_url = os.environ.get(PG_ENV)
     if not admin_url:
         raise SystemExit(f"{PG_ENV} is not set: source /tmp/pgenv first")
     if args.smoke:
-        build(admin_url, database=f"{args.database}_smoke", scale=0.001)
-        url = make_url(admin_url).set(database=f"{args.database}_smoke").render_as_string(hide_password=False)
-        return bench(url, 1, 3)
+        name = f"{args.database}_smoke"
+        build(admin_url, database=name, scale=0.001)
+        try:
+            return bench(make_url(admin_url).set(database=name).render_as_string(hide_password=False), 1, 3)
+        finally:
+            drop_database(admin_url, name)
     if args.build:
         build(admin_url, database=args.database, scale=args.scale)
     url = make_url(admin_url).set(database=args.database).render_as_string(hide_password=False)

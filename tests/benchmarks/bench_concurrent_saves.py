@@ -115,6 +115,19 @@ def start_uvicorn(
     its output goes to ``folder / f"{name}.log"``."""
     command = [sys.executable, "-m", "uvicorn", factory, "--factory", "--host", "127.0.0.1"]
     command += ["--port", str(port), "--workers", str(workers), "--log-level", "warning", "--no-access-log"]
+    return start_command(folder, command, env, port, name)
+
+
+def start_serve(folder: Path, env: dict[str, str], port: int) -> subprocess.Popen[bytes]:
+    """The app as a laboratory runs it (``claybench serve``, no worker, no metrics port)."""
+    command = [sys.executable, "-m", "server.cli", "serve", "--no-worker", "--port", str(port)]
+    return start_command(folder, command, {"CLAYBENCH_METRICS_PORT": "0", **env}, port, "serve")
+
+
+def start_command(
+    folder: Path, command: list[str], env: dict[str, str], port: int, name: str
+) -> subprocess.Popen[bytes]:
+    """A server command on a loopback port, once /healthz answers; output to ``{name}.log``."""
     log_path = folder / f"{name}.log"
     server = subprocess.Popen(
         command, cwd=ROOT, env={**os.environ, **env}, stdout=log_path.open("wb"), stderr=subprocess.STDOUT

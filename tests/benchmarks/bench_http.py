@@ -3,6 +3,7 @@
 Run from the repository root (wrk from the system's packages: ``apt-get install wrk``)::
 
     python tests/benchmarks/bench_http.py [--seconds 10] [--concurrency 1,10,20] [--backend sqlite]
+                                         [--repeat 3]   # each level three times
     python tests/benchmarks/bench_http.py --smoke        # CI: 2 s at 1 and 4 technicians
 
 Set-up (not timed): a throw-away database (SQLite, and PostgreSQL when
@@ -193,8 +194,11 @@ def _user_ids(url: str, usernames: list[str]) -> list[int]:
     return [int(by_name[name] or 0) for name in usernames]
 
 
-def bench_backend(name: str, url: str, levels: list[int], seconds: float, folder: Path) -> list[str]:
-    """Both servers at every concurrency on one database; the failures seen."""
+def bench_backend(
+    name: str, url: str, levels: list[int], seconds: float, folder: Path, repeat: int = 1
+) -> list[str]:
+    """Both servers at every concurrency on one database, ``repeat`` times a level (the machine's
+    other work moves single runs; a ratio seen again is worth more); the failures seen."""
     ids = seed(url, max(levels))
     savers = [Saver(f"tech{n:02d}", test_id) for n, test_id in enumerate(ids)]
     user_ids = _user_ids(url, [s.username for s in savers])
@@ -203,7 +207,7 @@ def bench_backend(name: str, url: str, levels: list[int], seconds: float, folder
     print(
         "  conc   app req/s  floor req/s  ratio   app p50  floor p50   app p95  floor p95  p95 ratio  failed"
     )
-    for level in levels:
+    for level in [level for level in levels for _ in range(repeat)]:
         port = free_port()
         app = start_server(folder, url, port, 1)
         try:
@@ -265,6 +269,7 @@ def main() -> int:
     parser.add_argument("--seconds", type=float, default=10.0, help="length of each wrk run (default 10)")
     parser.add_argument("--concurrency", default="1,10,20", help="technicians at once (default 1,10,20)")
     parser.add_argument("--backend", choices=("sqlite", "postgresql", "both"), default="both")
+    parser.add_argument("--repeat", type=int, default=1, help="runs of each level, one after the other")
     parser.add_argument("--smoke", action="store_true", help="CI smoke run: 2 s at 1 and 4 technicians")
     args = parser.parse_args()
     levels = [1, 4] if args.smoke else [int(x) for x in args.concurrency.split(",")]
@@ -274,13 +279,13 @@ def main() -> int:
         folder = Path(tmp)
         if args.backend in ("sqlite", "both"):
             problems += bench_backend(
-                "SQLite", f"sqlite:///{folder / 'bench.sqlite3'}", levels, seconds, folder
+                "SQLite", f"sqlite:///{folder / 'bench.sqlite3'}", levels, seconds, folder, args.repeat
             )
         admin_url = os.environ.get(PG_ENV)
         if args.backend in ("postgresql", "both") and admin_url:
             url, name = _postgres_database(admin_url)
             try:
-                problems += bench_backend("PostgreSQL", url, levels, seconds, folder)
+                problems += bench_backend("PostgreSQL", url, levels, seconds, folder, args.repeat)
             finally:
                 _drop(admin_url, name)
         elif args.backend == "postgresql":

@@ -49,7 +49,7 @@ import random
 import sys
 import tempfile
 import time
-from collections.abc import Callable, Iterable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
@@ -128,7 +128,9 @@ def build_template(folder: Path) -> Template:
     reviewer2 = create_user(db, None, "tpl-review2", "Template Reviewer Two", "reviewer", PASSWORD)
     tech = create_user(db, None, "tpl-tech", "Template Technician", "technician", PASSWORD)
     client = jobs.create_client(db, admin, "Template Client (generated)")
-    job = jobs.create_job(db, admin, client.id or 0, "TPL-1", "Template job", "Nowhere", due_date=date(2026, 12, 31))
+    job = jobs.create_job(
+        db, admin, client.id or 0, "TPL-1", "Template job", "Nowhere", due_date=date(2026, 12, 31)
+    )
     location = samples.add_location(db, admin, job.id or 0, "BH1")
     approved: dict[str, int] = {}
     for n, method in enumerate([*EXAMPLES, "returned", "amended"]):
@@ -238,7 +240,13 @@ def _job_sizes(rng: random.Random, total: int) -> list[int]:
     left = total - sizes[0]
     while left > 0:
         roll = rng.random()
-        size = rng.randint(100, 400) if roll < 0.01 else rng.randint(41, 99) if roll < 0.08 else rng.randint(1, 40)
+        size = (
+            rng.randint(100, 400)
+            if roll < 0.01
+            else rng.randint(41, 99)
+            if roll < 0.08
+            else rng.randint(1, 40)
+        )
         size = min(size, left)
         sizes.append(size)
         left -= size
@@ -249,8 +257,20 @@ def _job_sizes(rng: random.Random, total: int) -> list[int]:
 RECENT_DAYS = 220  # jobs younger than this are still being tested (the rest mostly finished)
 # About 1 % of the tests wait for review (some 3,000 at full size: two or three days of a busy
 # laboratory's output, common practice), and as many again were returned.
-_RECENT_MIX = (("requested", 0.50), ("draft", 0.32), ("submitted", 0.02), ("returned", 0.01), ("approved", 0.15))
-_OPEN_MIX = (("requested", 0.04), ("draft", 0.08), ("submitted", 0.01), ("returned", 0.01), ("approved", 0.86))
+_RECENT_MIX = (
+    ("requested", 0.50),
+    ("draft", 0.32),
+    ("submitted", 0.02),
+    ("returned", 0.01),
+    ("approved", 0.15),
+)
+_OPEN_MIX = (
+    ("requested", 0.04),
+    ("draft", 0.08),
+    ("submitted", 0.01),
+    ("returned", 0.01),
+    ("approved", 0.86),
+)
 
 
 def _pick(rng: random.Random, mix: Sequence[tuple[str, float]]) -> str:
@@ -279,9 +299,19 @@ class Generator:
         self.ids[table] = self.ids.get(table, 0) + 1
         return self.ids[table]
 
-    def event(self, at: datetime, who: User | None, entity: str, entity_id: int, action: str, **kw: Any) -> None:
+    def event(
+        self, at: datetime, who: User | None, entity: str, entity_id: int, action: str, **kw: Any
+    ) -> None:
         self.lab.events.append(
-            Event(at, who.id if who else None, who.username if who else "system", entity, entity_id, action, **kw)
+            Event(
+                at,
+                who.id if who else None,
+                who.username if who else "system",
+                entity,
+                entity_id,
+                action,
+                **kw,
+            )
         )
 
     def build(self) -> Lab:
@@ -300,7 +330,14 @@ class Generator:
         row = (cid, name, f"Contact {n:03d}", f"contact{n:03d}@example.invalid", f"{n} High Street, {place}")
         self.lab.add("client", row)
         at = self.now - timedelta(days=800 - n % 60)
-        self.event(at, self.u["big-admin"], "client", cid, "create", after=dict(zip(COLUMNS["client"], row, strict=True)))
+        self.event(
+            at,
+            self.u["big-admin"],
+            "client",
+            cid,
+            "create",
+            after=dict(zip(COLUMNS["client"], row, strict=True)),
+        )
         return cid
 
     def job(self, n: int, size: int, client_id: int, tests_per_sample: float) -> None:
@@ -331,9 +368,24 @@ class Generator:
             lid = self.next_id("location")
             kind = "borehole" if rng.random() < 0.7 else "trial pit"
             lcode = f"{'BH' if kind == 'borehole' else 'TP'}{k + 1:02d}"
-            loc = (lid, jid, lcode, kind, round(rng.uniform(400000, 500000), 1), round(rng.uniform(100000, 300000), 1), round(rng.uniform(5, 90), 2))
+            loc = (
+                lid,
+                jid,
+                lcode,
+                kind,
+                round(rng.uniform(400000, 500000), 1),
+                round(rng.uniform(100000, 300000), 1),
+                round(rng.uniform(5, 90), 2),
+            )
             self.lab.add("location", loc)
-            self.event(received + timedelta(minutes=k), admin, "location", lid, "create", after=dict(zip(COLUMNS["location"], loc, strict=True)))
+            self.event(
+                received + timedelta(minutes=k),
+                admin,
+                "location",
+                lid,
+                "create",
+                after=dict(zip(COLUMNS["location"], loc, strict=True)),
+            )
             depth = 0.5
             for s in range(min(per_location, size - made)):
                 made += 1
@@ -351,12 +403,25 @@ class Generator:
                 self.lab.add("sample", smp)
                 after = dict(zip(COLUMNS["sample"], smp, strict=True))
                 after.update(received_at=got.isoformat())
-                self.event(received + timedelta(minutes=k, seconds=s + 1), admin, "sample", sid, "create", after=after)
+                self.event(
+                    received + timedelta(minutes=k, seconds=s + 1),
+                    admin,
+                    "sample",
+                    sid,
+                    "create",
+                    after=after,
+                )
                 k_tests = 3 if tests_per_sample == 3 else round(tests_per_sample)
                 k_tests = rng.choice((2, 3, 3, 4)) if k_tests == 3 else k_tests
                 for method in rng.sample(self.methods, min(k_tests, len(self.methods))):
-                    status = "approved" if phase == "reported" else _pick(rng, _RECENT_MIX if phase == "recent" else _OPEN_MIX)
-                    done = self.test(sid, method, status, received + timedelta(minutes=k, seconds=s + 2), phase)
+                    status = (
+                        "approved"
+                        if phase == "reported"
+                        else _pick(rng, _RECENT_MIX if phase == "recent" else _OPEN_MIX)
+                    )
+                    done = self.test(
+                        sid, method, status, received + timedelta(minutes=k, seconds=s + 2), phase
+                    )
                     if done is not None:
                         tid, approved_at, old_id = done
                         approved_tests.append(tid)
@@ -366,7 +431,9 @@ class Generator:
         if phase == "reported" and approved_tests:
             self.report(jid, code, [*approved_tests, *superseded], last_approval + timedelta(days=1))
 
-    def test(self, sid: int, method: str, status: str, requested: datetime, phase: str) -> tuple[int, datetime, int | None] | None:
+    def test(
+        self, sid: int, method: str, status: str, requested: datetime, phase: str
+    ) -> tuple[int, datetime, int | None] | None:
         """One test through its life up to ``status``; (id, approval time, id of the revision an
         amendment superseded) when it ended approved."""
         rng, tpl = self.rng, self.t.tests[method]
@@ -376,7 +443,14 @@ class Generator:
         tid = self.next_id("lab_test")
         latest = self.now - timedelta(minutes=5)
         step = lambda at, hours: min(at + timedelta(hours=rng.uniform(1, hours)), latest)  # noqa: E731
-        self.event(requested, admin, "lab_test", tid, "request", after={"sample_id": sid, "method": method, "status": "requested", "assigned_to_id": None})
+        self.event(
+            requested,
+            admin,
+            "lab_test",
+            tid,
+            "request",
+            after={"sample_id": sid, "method": method, "status": "requested", "assigned_to_id": None},
+        )
         values: dict[str, Any] = dict(
             id=tid, sample_id=sid, method=method, status=status, revision=1, previous_revision_id=None,
             amendment_reason=None, version=1, readings=None, results=None, flags=None,
@@ -388,19 +462,37 @@ class Generator:
         if status != "requested":
             entered = step(requested, 72)
             self.readings_event(entered, tech, tid, method, "requested")
-            values.update(version=2, readings=tpl.readings, results=tpl.results, flags=tpl.flags, updated_at=entered)
+            values.update(
+                version=2, readings=tpl.readings, results=tpl.results, flags=tpl.flags, updated_at=entered
+            )
         if status in ("submitted", "returned", "approved"):
             handed = step(values["updated_at"], 24)
             self.submit_event(handed, tech, tid, tpl.flag_reasons)
             values.update(version=3, submitted_at=handed, updated_at=handed, flag_reasons=tpl.flag_reasons)
         if status == "returned":
             back = step(values["updated_at"], 24)
-            self.event(back, signer, "lab_test", tid, "return", before={"status": "submitted"}, after={"status": "returned", "return_reason": RETURN_REASON}, reason=RETURN_REASON)
+            self.event(
+                back,
+                signer,
+                "lab_test",
+                tid,
+                "return",
+                before={"status": "submitted"},
+                after={"status": "returned", "return_reason": RETURN_REASON},
+                reason=RETURN_REASON,
+            )
             values.update(version=4, return_reason=RETURN_REASON, updated_at=back)
         if status == "approved":
             signed = step(values["updated_at"], 48)
             self.approve_event(signed, signer, tid)
-            values.update(version=4, approved_at=signed, approved_by_id=signer.id, approver_role=signer.role, signature_meaning=MEANING, updated_at=signed)
+            values.update(
+                version=4,
+                approved_at=signed,
+                approved_by_id=signer.id,
+                approver_role=signer.role,
+                signature_meaning=MEANING,
+                updated_at=signed,
+            )
             if phase != "recent" and rng.random() < 0.005:  # amended since, and the amendment approved
                 return self.amended(values, tech, signer)
         self.lab.add("lab_test", _test_row(values))
@@ -414,19 +506,77 @@ class Generator:
         opened = min(old["approved_at"] + timedelta(days=rng.uniform(3, 20)), self.now - timedelta(hours=3))
         handed, signed = opened + timedelta(hours=1), opened + timedelta(hours=2)
         tid = old["id"]
-        self.event(opened, signer, "lab_test", tid, "open_amendment", before={"status": "approved"}, after={"status": "approved", "amended_by": new_id}, reason=AMEND_REASON)
-        self.event(opened, signer, "lab_test", new_id, "amend", before={"revision_of": tid, "revision": 1}, after={"status": "draft", "revision": 2, "previous_revision_id": tid, "sample_id": old["sample_id"], "method": old["method"], "readings": old["readings"]}, reason=AMEND_REASON)
+        self.event(
+            opened,
+            signer,
+            "lab_test",
+            tid,
+            "open_amendment",
+            before={"status": "approved"},
+            after={"status": "approved", "amended_by": new_id},
+            reason=AMEND_REASON,
+        )
+        self.event(
+            opened,
+            signer,
+            "lab_test",
+            new_id,
+            "amend",
+            before={"revision_of": tid, "revision": 1},
+            after={
+                "status": "draft",
+                "revision": 2,
+                "previous_revision_id": tid,
+                "sample_id": old["sample_id"],
+                "method": old["method"],
+                "readings": old["readings"],
+            },
+            reason=AMEND_REASON,
+        )
         self.submit_event(handed, tech, new_id, old["flag_reasons"])
         self.approve_event(signed, other, new_id)
-        self.event(signed, other, "lab_test", tid, "supersede", before={"status": "approved"}, after={"status": "superseded", "superseded_by": new_id}, reason=AMEND_REASON)
-        self.lab.add("lab_test", _test_row({**old, "status": "superseded", "version": 6, "updated_at": signed}))
-        new = {**old, "id": new_id, "status": "approved", "revision": 2, "previous_revision_id": tid, "amendment_reason": AMEND_REASON, "version": 3, "created_at": opened, "updated_at": signed, "submitted_at": handed, "approved_at": signed, "approved_by_id": other.id, "approver_role": other.role}
+        self.event(
+            signed,
+            other,
+            "lab_test",
+            tid,
+            "supersede",
+            before={"status": "approved"},
+            after={"status": "superseded", "superseded_by": new_id},
+            reason=AMEND_REASON,
+        )
+        self.lab.add(
+            "lab_test", _test_row({**old, "status": "superseded", "version": 6, "updated_at": signed})
+        )
+        new = {
+            **old,
+            "id": new_id,
+            "status": "approved",
+            "revision": 2,
+            "previous_revision_id": tid,
+            "amendment_reason": AMEND_REASON,
+            "version": 3,
+            "created_at": opened,
+            "updated_at": signed,
+            "submitted_at": handed,
+            "approved_at": signed,
+            "approved_by_id": other.id,
+            "approver_role": other.role,
+        }
         self.lab.add("lab_test", _test_row(new))
         return new_id, signed, tid
 
     def readings_event(self, at: datetime, tech: User, tid: int, method: str, before_status: str) -> None:
         tpl = self.t.tests[method]
-        self.event(at, tech, "lab_test", tid, "readings", before={"status": before_status, "readings": None}, after={"status": "draft", "readings": tpl.readings, "fields": self.t.fields.get(method, [""])})
+        self.event(
+            at,
+            tech,
+            "lab_test",
+            tid,
+            "readings",
+            before={"status": before_status, "readings": None},
+            after={"status": "draft", "readings": tpl.readings, "fields": self.t.fields.get(method, [""])},
+        )
 
     def submit_event(self, at: datetime, tech: User, tid: int, reasons: dict[str, Any] | None) -> None:
         after: dict[str, Any] = {"status": "submitted"}
@@ -435,7 +585,14 @@ class Generator:
         self.event(at, tech, "lab_test", tid, "submit", before={"status": "draft"}, after=after)
 
     def approve_event(self, at: datetime, signer: User, tid: int) -> None:
-        after = {"status": "approved", "signed_by": signer.full_name, "signed_by_id": signer.id, "role": signer.role, "meaning": MEANING, "signed_at": at.isoformat()}
+        after = {
+            "status": "approved",
+            "signed_by": signer.full_name,
+            "signed_by_id": signer.id,
+            "role": signer.role,
+            "meaning": MEANING,
+            "signed_at": at.isoformat(),
+        }
         self.event(at, signer, "lab_test", tid, "approve", before={"status": "submitted"}, after=after)
 
     def report(self, jid: int, code: str, test_ids: list[int], issued: datetime) -> None:
@@ -445,10 +602,36 @@ class Generator:
         sha = hashlib.sha256(PLACEHOLDER_PDF).hexdigest()
         number = f"{code}-R01"
         fingerprint = hashlib.sha256(f"{number}:{test_ids}".encode()).hexdigest()
-        self.lab.add("report", (rid, jid, number, 1, "issued", _naive(issued), signer.id, sha, fingerprint, PLACEHOLDER_PDF, None, MEANING, ""))
+        self.lab.add(
+            "report",
+            (
+                rid,
+                jid,
+                number,
+                1,
+                "issued",
+                _naive(issued),
+                signer.id,
+                sha,
+                fingerprint,
+                PLACEHOLDER_PDF,
+                None,
+                MEANING,
+                "",
+            ),
+        )
         for tid in test_ids:
             self.lab.add("report_test", (rid, tid))
-        after = {"number": number, "revision": 1, "sha256": sha, "fingerprint": fingerprint, "ags4_sha256": None, "tests": test_ids, "signed_by": signer.username, "signature_meaning": MEANING}
+        after = {
+            "number": number,
+            "revision": 1,
+            "sha256": sha,
+            "fingerprint": fingerprint,
+            "ags4_sha256": None,
+            "tests": test_ids,
+            "signed_by": signer.username,
+            "signature_meaning": MEANING,
+        }
         self.event(issued, signer, "report", rid, "issue", after=after)
 
     def pad_readings(self) -> None:
@@ -494,7 +677,9 @@ def check_shapes(template: Template, events: Iterable[Event]) -> None:
             continue
         got = (frozenset(e.before or {}), frozenset(e.after or {}))
         if got != real:
-            raise SystemExit(f"{action}: generated keys {sorted(got[1])} differ from the real {sorted(real[1])}")
+            raise SystemExit(
+                f"{action}: generated keys {sorted(got[1])} differ from the real {sorted(real[1])}"
+            )
 
 
 def chained(events: list[Event], first_id: int, head: str) -> Iterator[tuple[Any, ...]]:
@@ -516,7 +701,21 @@ def chained(events: list[Event], first_id: int, head: str) -> Iterator[tuple[Any
         # The stored value is what the hash covers: the row's own JSON read back as PostgreSQL
         # will hand it back (a whole float as an integer is taken care of by content_of).
         sha = audit_chain.chain_hash(audit_chain.content_of(e), prev)  # type: ignore[arg-type]
-        yield (first_id + n, _naive(e.at), e.actor_id, e.actor, e.entity, e.entity_id, e.action, dumped(e.before), dumped(e.after), e.reason, None, prev, sha)
+        yield (
+            first_id + n,
+            _naive(e.at),
+            e.actor_id,
+            e.actor,
+            e.entity,
+            e.entity_id,
+            e.action,
+            dumped(e.before),
+            dumped(e.after),
+            e.reason,
+            None,
+            prev,
+            sha,
+        )
         prev = sha
 
 
@@ -535,6 +734,13 @@ def _raw(url: str) -> str:
     return make_url(url).set(drivername="postgresql").render_as_string(hide_password=False)
 
 
+def drop_database(admin_url: str, name: str) -> None:
+    engine = create_engine(admin_url, isolation_level="AUTOCOMMIT")
+    with engine.connect() as conn:
+        conn.execute(text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
+    engine.dispose()
+
+
 def fresh_database(admin_url: str, name: str) -> str:
     engine = create_engine(admin_url, isolation_level="AUTOCOMMIT")
     with engine.connect() as conn:
@@ -544,7 +750,9 @@ def fresh_database(admin_url: str, name: str) -> str:
     return make_url(admin_url).set(database=name).render_as_string(hide_password=False)
 
 
-def build(url_or_admin: str, *, database: str = DATABASE, scale: float = 1.0, seed: int = 2612) -> dict[str, Any]:
+def build(
+    url_or_admin: str, *, database: str = DATABASE, scale: float = 1.0, seed: int = 2612
+) -> dict[str, Any]:
     """Make the lab in a fresh database on the server; what it made and how long each step took."""
     timings: dict[str, float] = {}
     started = time.perf_counter()
@@ -584,7 +792,8 @@ def build(url_or_admin: str, *, database: str = DATABASE, scale: float = 1.0, se
         lap("hash chain and COPY audit events")
         with conn.cursor() as cur:
             for table in ("client", "job", "location", "sample", "lab_test", "report", "audit_event"):
-                cur.execute(f"SELECT setval(pg_get_serial_sequence('\"{table}\"', 'id'), (SELECT max(id) FROM \"{table}\"))")
+                sequence = f"pg_get_serial_sequence('\"{table}\"', 'id')"
+                cur.execute(f'SELECT setval({sequence}, (SELECT max(id) FROM "{table}"))')
         conn.commit()
         conn.autocommit = True
         with conn.cursor() as cur:

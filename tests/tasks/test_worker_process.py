@@ -69,8 +69,11 @@ def test_the_worker_process_renders_what_the_app_queued_and_the_page_follows(
     two = two_approved_samples(db, people)
     sign_in(app_client, "review", PASSWORDS["review"])
     job_path = f"/jobs/{two.job_id}"
+    assert app_client.get("/readyz").status_code == 503  # no worker: issued reports would wait
     with worker_process(database_url, tmp_path):
         _until(lambda: workers.any_alive(db), "the worker's first heartbeat")
+        ready = app_client.get("/readyz")
+        assert ready.status_code == 200 and ready.json()["checks"]["worker"]["status"] == "ok"
         issued = post_form(app_client, job_path, f"{job_path}/reports", {"password": PASSWORDS["review"]})
         assert issued.status_code == 200 and "Report signed. It is being rendered" in issued.text
         seen: set[str] = set()
