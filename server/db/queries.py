@@ -194,36 +194,6 @@ class JobSheet:
     ags4: dict[int, str]  # the SHA-256 of each report's frozen AGS4 file, by report id
 
 
-def job_sheet(session: Session, job_id: int) -> JobSheet | None:
-    job = session.get(Job, job_id)
-    if job is None:
-        return None
-    client = session.get(Client, job.client_id)
-    assert client is not None
-    locations = list(
-        session.exec(select(Location).where(Location.job_id == job_id).order_by(col(Location.code)))
-    )
-    samples: dict[int, list[Sample]] = {loc.id or 0: [] for loc in locations}
-    for sample in session.exec(
-        select(Sample)
-        .join(Location, col(Location.id) == Sample.location_id)
-        .where(Location.job_id == job_id)
-        .order_by(col(Sample.depth_from_m), col(Sample.code))
-    ):
-        samples[sample.location_id].append(sample)
-    tests: dict[int, list[LabTest]] = {}
-    for row in current_tests(session, job_id):
-        tests.setdefault(row.sample.id or 0, []).append(row.test)
-    links = list(
-        session.exec(
-            select(ShareLink).where(ShareLink.job_id == job_id).order_by(col(ShareLink.created_at).desc())
-        )
-    )
-    reports = job_reports(session, job_id)
-    ags4 = frozen_ags4_digests(session, [r.id or 0 for r in reports])
-    return JobSheet(job, client, locations, samples, tests, reports, links, ags4)
-
-
 def same_name(column: Any, name: str) -> Any:
     """A condition: ``column`` holds ``name`` whatever its case. SQLite's lower() folds only the
     ASCII letters (and PostgreSQL's follows the collation), so the exact name is asked for too:
