@@ -24,7 +24,9 @@ import sqlalchemy as sa
 from alembic import op
 
 WAITING = "status = 'submitted'"
-WAITING_COLUMNS = ["sample_id", "method", "submitted_at", "updated_at", "previous_revision_id", "flags"]
+# Only columns a bench save never changes: a save that changed an indexed column (flags,
+# updated_at) could not be a heap-only update and would touch every index of lab_test.
+WAITING_COLUMNS = ["sample_id", "method", "submitted_at", "previous_revision_id"]
 
 revision: str = "0010"
 down_revision: str | None = "0009"

@@ -78,8 +78,8 @@ def _find(db: Database, token: str, life: sessions.Lifetime) -> tuple[User, User
     ended, expired, deactivated, due its touch: once a minute a session) goes to ``sessions.find``,
     which reads the row again and writes what it must. Every request pays this read, so it is
     the cheapest there is: no ORM session, and on PostgreSQL no transaction (``Database.read``)."""
-    with db.read() as conn:
-        found = session_with_user(conn, sessions._sha256(token))
+    digest = sessions._sha256(token)
+    found = db.read(lambda conn: session_with_user(conn, digest))
     if found is not None:
         user, row = found
         now = utcnow()

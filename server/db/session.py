@@ -26,15 +26,17 @@ import os
 import threading
 import time
 from collections import deque
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 from sqlalchemy import Connection, Engine, create_engine, event
 from sqlalchemy.engine import make_url
-from sqlalchemy.exc import OperationalError
+from sqlalchemy.exc import DBAPIError, OperationalError
 from sqlmodel import Session
+
+T = TypeVar("T")
 
 _IMMEDIATE = "claybench_immediate"
 _WAIT_MS = "claybench_wait_ms"
@@ -133,6 +135,12 @@ def _queue_for(database: str | None) -> _WriterQueue:
         return _queues.setdefault(key, _WriterQueue())
 
 
+def _reading_engine(url: str) -> Engine:
+    """PostgreSQL's engine for ``Database.read``: autocommit, a pool of its own, no ping (the
+    read retries once on a dropped connection instead, which a read may)."""
+    return create_engine(url, pool_size=10, max_overflow=20, isolation_level="AUTOCOMMIT")
+
+
 def make_engine(url: str) -> Engine:
     """An SQLAlchemy engine for an SQLite file or a PostgreSQL server, tuned for the app."""
     parsed = make_url(url)
@@ -191,20 +199,27 @@ class Database:
         self.is_sqlite = self.engine.dialect.name == "sqlite"
         self.write_budget_s = write_budget_s
         self._writers = _queue_for(self.engine.url.database) if self.is_sqlite else None
-        self._reader = (
-            self.engine if self.is_sqlite else self.engine.execution_options(isolation_level="AUTOCOMMIT")
-        )
+        self._reader = self.engine if self.is_sqlite else _reading_engine(url)
 
     def session(self) -> Session:
         """A session for reading; it must not be used to commit changes."""
         return Session(self.engine, expire_on_commit=False)
 
-    def read(self) -> Connection:
-        """A connection for one plain Core read on the hot path (the session lookup of every
-        request): no ORM session around it, and on PostgreSQL no BEGIN and ROLLBACK either
-        (autocommit: one statement sees what is committed, as at READ COMMITTED). Use it with
-        ``with``; it must not write."""
-        return self._reader.connect()
+    def read(self, query: Callable[[Connection], T]) -> T:
+        """``query`` run on a connection for one plain Core read on the hot path (the session
+        lookup of every request): no ORM session around it, and on PostgreSQL no BEGIN and
+        ROLLBACK either (autocommit: one statement sees what is committed, as at READ
+        COMMITTED), nor the pool's ping before it: a connection the server dropped (a restart)
+        fails its read, is thrown away with the rest of the pool, and the read, which changed
+        nothing, runs once more on a fresh one. ``query`` must not write."""
+        try:
+            with self._reader.connect() as conn:
+                return query(conn)
+        except DBAPIError as exc:
+            if not exc.connection_invalidated:
+                raise
+        with self._reader.connect() as conn:
+            return query(conn)
 
     @contextmanager
     def transaction(self) -> Iterator[Session]:
@@ -253,3 +268,5 @@ class Database:
 
     def dispose(self) -> None:
         self.engine.dispose()
+        if self._reader is not self.engine:
+            self._reader.dispose()

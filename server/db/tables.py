@@ -221,14 +221,8 @@ class LabTest(SQLModel, table=True):
         sa.Index(
             "ix_lab_test_waiting",
             "id",
-            postgresql_include=[
-                "sample_id",
-                "method",
-                "submitted_at",
-                "updated_at",
-                "previous_revision_id",
-                "flags",
-            ],
+            # Never a column a bench save changes (flags, updated_at): saves stay heap-only updates.
+            postgresql_include=["sample_id", "method", "submitted_at", "previous_revision_id"],
             postgresql_where=sa.text("status = 'submitted'"),
             sqlite_where=sa.text("status = 'submitted'"),
         ),
@@ -471,7 +465,7 @@ class AuditEvent(SQLModel, table=True):
     sha256: str = Field(default="", max_length=64)
 
     __table_args__ = (
-        sa.Index("ix_audit_event_entity", "entity", "entity_id"),
-        # Who entered or amended a record, from the index alone (migration 0010).
+        # A record's events (its leading columns), and who entered or amended it from the index
+        # alone (migration 0010; the two-column index it made redundant went in 0011).
         sa.Index("ix_audit_event_authors", "entity", "entity_id", "action", "actor_id"),
     )

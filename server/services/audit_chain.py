@@ -50,7 +50,9 @@ read as one 64-bit integer; any fixed key would do, as long as every writer uses
 _BATCH = 1000
 
 _AUDIT = cast(Table, AuditEvent.__table__)  # type: ignore[attr-defined]
-_LOCK = text("SELECT pg_advisory_xact_lock(:key)")
+# PostgreSQL: the lock, then the newest hash, in one round trip (migration 0011 says why a
+# function and not one statement).
+_LOCKED_HEAD = text("SELECT claybench_audit_head(:key)")
 _NEWEST = core_select(_AUDIT.c.sha256).order_by(_AUDIT.c.id.desc()).limit(1)
 
 
@@ -133,16 +135,18 @@ def head(session: Session | Connection) -> str:
     Two writers that read the same head would fork the chain, so the read happens under a lock
     that lasts until the transaction ends. PostgreSQL: a transaction-level advisory lock on
     ``LOCK_KEY``, taken before the read (at READ COMMITTED, the app's level, the read then sees
-    the event of the writer that held the lock before; the lock and the read are two statements on
-    purpose, as one statement's snapshot would be taken before it waited for the lock). SQLite:
+    the event of the writer that held the lock before), both inside ``claybench_audit_head``
+    (migration 0011): one round trip, two statements, as one statement's snapshot would be taken
+    before it waited for the lock. SQLite:
     ``Database.transaction`` begins with ``BEGIN IMMEDIATE``, which takes the database's single
     write lock before anything is read; a session that began without it is refused its first
     write (SQLITE_BUSY) when another writer committed after its read, so it fails, not forks.
     """
     conn = session.connection() if isinstance(session, Session) else session
     if conn.dialect.name == "postgresql":
-        conn.execute(_LOCK, {"key": LOCK_KEY})
-    newest = conn.execute(_NEWEST).scalar()
+        newest = conn.execute(_LOCKED_HEAD, {"key": LOCK_KEY}).scalar()
+    else:
+        newest = conn.execute(_NEWEST).scalar()
     return GENESIS if newest is None else str(newest)
 
 

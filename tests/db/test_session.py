@@ -175,3 +175,21 @@ def test_bump_test_refuses_a_stale_version_and_changes_nothing(db: Database, peo
         stored = s.get(LabTest, job.test_id)
         assert stored is not None
         assert (stored.version, stored.status, stored.readings) == (2, "draft", {"by": "other"})
+
+
+def test_a_read_on_a_connection_the_server_dropped_runs_again_on_a_fresh_one(
+    db: Database, backend: str
+) -> None:
+    """``Database.read`` takes pooled connections without a ping (one round trip less on every
+    request): when the server has dropped one (a restart, an idle timeout), the read fails,
+    the pool is refreshed, and the read runs once more."""
+    if backend != "postgresql":
+        pytest.skip("SQLite has no server to drop a connection")
+    query = text("SELECT pg_backend_pid()")
+    first = db.read(lambda conn: conn.execute(query).scalar_one())
+    with db.engine.connect() as other:  # another connection ends the reader's pooled one
+        other.execute(text("SELECT pg_terminate_backend(:pid)"), {"pid": first})
+        other.commit()
+    time.sleep(0.2)
+    second = db.read(lambda conn: conn.execute(query).scalar_one())
+    assert second != first
