@@ -199,7 +199,7 @@ class Database:
         self.is_sqlite = self.engine.dialect.name == "sqlite"
         self.write_budget_s = write_budget_s
         self._writers = _queue_for(self.engine.url.database) if self.is_sqlite else None
-        self._reader = self.engine if self.is_sqlite else _reading_engine(url)
+        self.reading_engine = self.engine if self.is_sqlite else _reading_engine(url)
 
     def session(self) -> Session:
         """A session for reading; it must not be used to commit changes."""
@@ -213,12 +213,12 @@ class Database:
         fails its read, is thrown away with the rest of the pool, and the read, which changed
         nothing, runs once more on a fresh one. ``query`` must not write."""
         try:
-            with self._reader.connect() as conn:
+            with self.reading_engine.connect() as conn:
                 return query(conn)
         except DBAPIError as exc:
             if not exc.connection_invalidated:
                 raise
-        with self._reader.connect() as conn:
+        with self.reading_engine.connect() as conn:
             return query(conn)
 
     @contextmanager
@@ -268,5 +268,5 @@ class Database:
 
     def dispose(self) -> None:
         self.engine.dispose()
-        if self._reader is not self.engine:
-            self._reader.dispose()
+        if self.reading_engine is not self.engine:
+            self.reading_engine.dispose()

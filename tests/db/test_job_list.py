@@ -6,12 +6,9 @@ for is passed in, so "overdue" is checked against a fixed day, not the clock.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from contextlib import contextmanager
 from datetime import date, timedelta
 from typing import Any
 
-from sqlalchemy import event
 from sqlmodel import select
 
 from server.db.job_list import JobFilter, JobListPage, job_page, like_pattern
@@ -19,6 +16,7 @@ from server.db.session import Database
 from server.db.tables import Client, User
 from server.services import jobs, reports, samples
 from tests.conftest import PASSWORDS, People
+from tests.support.statements import statements_sent
 from tests.workflow.flows import Lab
 
 TODAY = date(2026, 6, 15)  # a fixed day of the fictional scenario; due dates are set against it
@@ -51,21 +49,6 @@ def _codes(listing: JobListPage) -> list[str]:
 def _find(db: Database, q: str = "", status: str = "", page: int = 1, **kwargs: Any) -> JobListPage:
     with db.session() as s:
         return job_page(s, JobFilter(q=q, status=status, page=page), TODAY, **kwargs)
-
-
-@contextmanager
-def _statements(db: Database) -> Iterator[list[str]]:
-    """Every SQL statement sent to the database inside the block."""
-    sent: list[str] = []
-
-    def record(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
-        sent.append(statement)
-
-    event.listen(db.engine, "before_cursor_execute", record)
-    try:
-        yield sent
-    finally:
-        event.remove(db.engine, "before_cursor_execute", record)
 
 
 def _search_scene(db: Database, admin: User) -> None:
@@ -181,10 +164,10 @@ def test_the_same_two_queries_serve_a_page_of_5_jobs_or_of_120(db: Database, peo
     _many_jobs(db, people.admin, 1, 5)
     Lab(db, people.admin, "QC-1", due=TODAY - timedelta(days=1)).new_test()  # counts to compute
     wanted = JobFilter(q="p-", status="open", page=1)
-    with db.session() as s, _statements(db) as small:
+    with db.session() as s, statements_sent(db) as small:
         assert job_page(s, wanted, TODAY).total == 5  # computed
     _many_jobs(db, people.admin, 6, 120)
-    with db.session() as s, _statements(db) as large:
+    with db.session() as s, statements_sent(db) as large:
         assert job_page(s, wanted, TODAY).total == 120  # computed
     selects = [q for q in large if q.lstrip().upper().startswith("SELECT")]
     assert len(selects) == 2  # server/db/job_list.py: one count query and one page query

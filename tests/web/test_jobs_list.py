@@ -3,20 +3,18 @@ for any address a person can type."""
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from contextlib import contextmanager
 from datetime import timedelta
 from typing import Any
 
 from fastapi.testclient import TestClient
 from httpx import Response  # the TestClient answers with httpx responses
-from sqlalchemy import event
 
 from server.db.session import Database
 from server.db.tables import User, utcnow
 from server.services import jobs, samples
 from tests.conftest import PASSWORDS, People
 from tests.support.http import sign_in
+from tests.support.statements import statements_sent
 
 
 def _jobs(db: Database, admin: User, count: int, client: str = "Ridgeway Rail plc", first: int = 1) -> None:
@@ -32,21 +30,6 @@ def _ctx(reply: Response) -> dict[str, Any]:
     """What the page was rendered with (the TestClient keeps the template context)."""
     context: dict[str, Any] = reply.context  # type: ignore[attr-defined]
     return context
-
-
-@contextmanager
-def _statements(db: Database) -> Iterator[list[str]]:
-    """Every SQL statement sent to the database inside the block."""
-    sent: list[str] = []
-
-    def record(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
-        sent.append(statement)
-
-    event.listen(db.engine, "before_cursor_execute", record)
-    try:
-        yield sent
-    finally:
-        event.remove(db.engine, "before_cursor_execute", record)
 
 
 def test_the_jobs_page_offers_search_status_and_the_register_links_to_reviewers(
@@ -136,9 +119,9 @@ def test_a_page_of_the_list_costs_the_same_queries_for_5_jobs_as_for_120(
 ) -> None:
     _jobs(db, people.admin, 5)
     sign_in(app_client, "review", PASSWORDS["review"])
-    with _statements(db) as small:
+    with statements_sent(db) as small:
         assert _ctx(app_client.get("/jobs"))["listing"].total == 5  # computed
     _jobs(db, people.admin, 115, client="Millbrook Estates", first=6)
-    with _statements(db) as large:
+    with statements_sent(db) as large:
         assert _ctx(app_client.get("/jobs"))["listing"].total == 120  # computed
     assert len(small) == len(large)  # issue S6 point 7: a constant number of queries per page

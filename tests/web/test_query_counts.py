@@ -9,33 +9,14 @@ answers in the same statements as these.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
-from contextlib import contextmanager
-from typing import Any
-
 from fastapi.testclient import TestClient
-from sqlalchemy import event
 
 from server.db.session import Database
 from server.services import tokens
 from tests.conftest import PASSWORDS, People
 from tests.support.http import sign_in
+from tests.support.statements import statements_sent
 from tests.workflow.flows import Lab
-
-
-@contextmanager
-def counted(db: Database) -> Iterator[list[str]]:
-    """The SQL statements run on the app's engine while the block runs."""
-    statements: list[str] = []
-
-    def seen(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
-        statements.append(statement)
-
-    event.listen(db.engine, "before_cursor_execute", seen)
-    try:
-        yield statements
-    finally:
-        event.remove(db.engine, "before_cursor_execute", seen)
 
 
 def _paths(job_id: int) -> list[str]:
@@ -59,7 +40,7 @@ def _statements_per_page(app_client: TestClient, db: Database, token: str, job_i
     found = {}
     for path in _paths(job_id):
         headers = {"Authorization": f"Bearer {token}"} if path.startswith("/api/") else {}
-        with counted(db) as statements:
+        with statements_sent(db) as statements:
             reply = app_client.get(path, headers=headers)
         assert reply.status_code == 200, path
         found[path] = len(statements)
