@@ -14,7 +14,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, TypeVar, cast
 
-from sqlalchemy import JSON, Connection, Table, bindparam, func, or_, update
+from sqlalchemy import JSON, ColumnElement, Connection, Table, bindparam, func, or_, update
 from sqlalchemy import inspect as sa_inspect
 from sqlalchemy import select as core_select
 from sqlalchemy.orm import defer
@@ -82,24 +82,46 @@ def test_for_change(conn: Connection, test_id: int) -> LabTest | None:
     return None if row is None else loaded(LabTest, row)
 
 
-def bump_test(session: Session | Connection, test: LabTest, expected_version: int, **values: Any) -> bool:
+@dataclass(frozen=True)
+class Bumped:
+    """What ``bump_test`` did: whether it changed the test (its truth value), and ``also``'s value."""
+
+    changed: bool
+    also: Any = None
+
+    def __bool__(self) -> bool:
+        return self.changed
+
+
+def bump_test(
+    session: Session | Connection,
+    test: LabTest,
+    expected_version: int,
+    *,
+    also: ColumnElement[Any] | None = None,
+    **values: Any,
+) -> Bumped:
     """Change a test only if nobody changed it since ``expected_version`` (optimistic lock).
 
-    Returns False, changing nothing, when the stored version differs. On success ``test`` holds
+    Refused (false, nothing changed) when the stored version differs. On success ``test`` holds
     what was stored (the new version, and JSON values as the database gives them back), set as
-    loaded values, so an ORM session does not write them again.
+    loaded values, so an ORM session does not write them again; and ``also``, when given, is
+    evaluated by the same UPDATE (its RETURNING clause): a second thing the caller needs from
+    the database, in the same round trip.
     """
     values = {**values, "version": expected_version + 1, "updated_at": utcnow()}
     if isinstance(session, Session):
         session.flush()  # what the ORM's own UPDATE did first: pending changes go before this one
     conn = session.connection() if isinstance(session, Session) else session
-    result = conn.execute(_BUMP, {"b_id": test.id, "b_version": expected_version, **values})
+    statement = _BUMP if also is None else _BUMP.returning(also)
+    result = conn.execute(statement, {"b_id": test.id, "b_version": expected_version, **values})
+    returned = result.first() if also is not None else None
     if result.rowcount != 1:
-        return False
+        return Bumped(False)
     for key, value in values.items():
         stored = json.loads(json.dumps(value)) if key in _JSON_COLUMNS and value is not None else value
         set_committed_value(test, key, stored)
-    return True
+    return Bumped(True, None if returned is None else returned[0])
 
 
 def readings_authors(session: Session, test_id: int) -> set[int]:

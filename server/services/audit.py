@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from datetime import datetime
 from typing import Any, cast
 
-from sqlalchemy import Connection, Table, Transaction, insert
+from sqlalchemy import ColumnElement, Connection, Table, Transaction, insert
 from sqlmodel import Session
 
 from server.db.queries import loaded
@@ -75,6 +75,19 @@ def record(
 def _copy(value: dict[str, Any] | None) -> dict[str, Any] | None:
     """The value as the JSON column will store it, detached from the caller's dict."""
     return None if value is None else dict(json.loads(json.dumps(value)))
+
+
+def locked_head_column(conn: Connection) -> ColumnElement[Any] | None:
+    """On PostgreSQL, what an earlier statement of the transaction may return to take the
+    chain's lock and read its head in its own round trip (``remember_head`` keeps it for the
+    event); None where there is nothing to take (SQLite's write transaction holds the lock)."""
+    return audit_chain.LOCKED_HEAD if conn.dialect.name == "postgresql" else None
+
+
+def remember_head(conn: Connection, head: str | None) -> None:
+    """The chain's head read under its lock by another statement of this transaction: the next
+    event links to it without a query of its own."""
+    conn.info[_CHAIN] = (_innermost(conn), audit_chain.GENESIS if head is None else str(head))
 
 
 def _innermost(conn: Connection) -> Transaction | None:

@@ -33,7 +33,7 @@ from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Any, Literal, Protocol, cast
 
-from sqlalchemy import Connection, Table, text
+from sqlalchemy import BigInteger, Connection, Table, func, literal, text
 from sqlalchemy import select as core_select
 from sqlmodel import Session, col, select
 
@@ -53,6 +53,8 @@ _AUDIT = cast(Table, AuditEvent.__table__)  # type: ignore[attr-defined]
 # PostgreSQL: the lock, then the newest hash, in one round trip (migration 0011 says why a
 # function and not one statement).
 _LOCKED_HEAD = text("SELECT claybench_audit_head(:key)")
+LOCKED_HEAD = func.claybench_audit_head(literal(LOCK_KEY, BigInteger))
+"""The same as a column expression, for a statement that can carry it (``locked_head_column``)."""
 _NEWEST = core_select(_AUDIT.c.sha256).order_by(_AUDIT.c.id.desc()).limit(1)
 
 

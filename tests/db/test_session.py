@@ -152,7 +152,7 @@ def test_bump_test_changes_a_test_whose_version_is_the_one_seen(db: Database, pe
     with db.transaction() as s:
         test = s.get(LabTest, job.test_id)
         assert test is not None and test.version == 1
-        assert bump_test(s, test, 1, status="draft") is True
+        assert bump_test(s, test, 1, status="draft").changed is True
         assert (test.version, test.status) == (2, "draft")  # the loaded object is refreshed
     with db.session() as s:
         stored = s.get(LabTest, job.test_id)
@@ -170,7 +170,7 @@ def test_bump_test_refuses_a_stale_version_and_changes_nothing(db: Database, peo
     with db.transaction() as s:  # ... and the first person's change, made against version 1, is refused.
         mine = s.get(LabTest, job.test_id)
         assert mine is not None
-        assert bump_test(s, mine, seen.version, status="submitted", readings={"by": "me"}) is False
+        assert bump_test(s, mine, seen.version, status="submitted", readings={"by": "me"}).changed is False
     with db.session() as s:
         stored = s.get(LabTest, job.test_id)
         assert stored is not None
