@@ -27,7 +27,6 @@ number breaks ties, so pages never overlap or skip a job.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from datetime import date, datetime
 from typing import Any, Final, Literal
@@ -37,6 +36,7 @@ from sqlalchemy import select as sa_select
 from sqlalchemy.orm import load_only
 from sqlmodel import Session, col, select
 
+from server.db.paging import Neighbours, page_of
 from server.db.queries import JobSheet, frozen_ags4_digests, job_reports
 from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Report, Sample, ShareLink
 from server.workflow.states import Status
@@ -94,7 +94,7 @@ class JobRow:
 
 
 @dataclass(frozen=True)
-class JobListPage:
+class JobListPage(Neighbours):
     """One page of the list, with what a pager needs."""
 
     rows: list[JobRow]
@@ -102,14 +102,6 @@ class JobListPage:
     page: int  # clamped to 1..pages
     pages: int  # at least 1, so an empty list is "page 1 of 1"
     per_page: int
-
-    @property
-    def previous_page(self) -> int | None:
-        return self.page - 1 if self.page > 1 else None
-
-    @property
-    def next_page(self) -> int | None:
-        return self.page + 1 if self.page < self.pages else None
 
 
 def derived_status(due_date: date | None, issued_reports: int, today: date) -> DerivedStatus:
@@ -177,8 +169,7 @@ def job_page(session: Session, wanted: JobFilter, today: date, per_page: int = P
         )
 
     total = int(session.execute(matching(func.count(col(Job.id)))).scalar_one())
-    pages = max(1, math.ceil(total / per_page))
-    page = min(max(1, wanted.page), pages)
+    page, pages = page_of(total, wanted.page, per_page)
 
     open_due = case((reported, None), else_=col(Job.due_date))
     reported_due = case((reported, col(Job.due_date)), else_=None)
@@ -383,8 +374,7 @@ def job_sheet_page(
     }
     total = sum(sample_counts.values())
     per_page = max(1, per_page)
-    pages = max(1, math.ceil(total / per_page))
-    page = min(max(1, page), pages)
+    page, pages = page_of(total, page, per_page)
     samples: dict[int, list[Sample]] = {}
     for sample in session.exec(
         select(Sample)

@@ -8,7 +8,6 @@ the moment a later revision of the report replaces it.
 
 from __future__ import annotations
 
-import math
 import weakref
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
@@ -22,6 +21,7 @@ from sqlalchemy.dialects.postgresql import JSONB
 from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
+from server.db.paging import Neighbours, page_of
 from server.db.queries import TestRow, test_rows, users_by_id
 from server.db.tables import AuditEvent, Client, Job, LabTest, Location, Report, ReportTest, Sample, User
 
@@ -169,7 +169,7 @@ class Counts:
 
 
 @dataclass
-class Queue:
+class Queue(Neighbours):
     """One page of the queue, the counts of the whole queue, and the choices of its filters."""
 
     rows: list[QueueRow]
@@ -181,14 +181,6 @@ class Queue:
     pages: int = 1
     per_page: int = 50
     more_jobs: int = 0  # jobs with tests waiting that the job filter does not offer
-
-    @property
-    def previous_page(self) -> int | None:
-        return self.page - 1 if self.page > 1 else None
-
-    @property
-    def next_page(self) -> int | None:
-        return self.page + 1 if self.page < self.pages else None
 
 
 def worst_flag(flags: Sequence[dict[str, Any]] | None) -> str | None:
@@ -327,8 +319,7 @@ def review_queue(
     narrowing = len(conditions) > 1
     counts.shown = int(session.execute(narrowed(func.count())).scalar_one()) if narrowing else counts.waiting
     per_page = max(1, per_page)
-    pages = max(1, math.ceil(counts.shown / per_page))
-    page = min(max(1, page), pages)
+    page, pages = page_of(counts.shown, page, per_page)
     # The page's test ids first, ordered from the narrow columns; then only those rows are read.
     ids = list(
         session.execute(
@@ -699,8 +690,7 @@ def turnaround_overview(
     by_section["done"].sort(key=lambda r: r.code)
     chosen: dict[str, tuple[list[Rollup], int, int]] = {}
     for name, found in by_section.items():
-        n_pages = max(1, math.ceil(len(found) / per_page))
-        page = min(max(1, pages.get(name, 1)), n_pages)
+        page, n_pages = page_of(len(found), pages.get(name, 1), per_page)
         chosen[name] = (found[(page - 1) * per_page : page * per_page], page, n_pages)
     ids = [r.job_id for rows, _, _ in chosen.values() for r in rows]
     times = _job_times(session, ids)

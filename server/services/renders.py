@@ -23,19 +23,13 @@ from sqlmodel import Session, col, select
 from server.db.session import Database
 from server.db.tables import Report, ReportRender, User, WorkerHeartbeat, utcnow
 from server.services import audit
-from server.services.errors import Conflict, Forbidden, NotFound, invalid
-from server.services.reports import REPORT_MEANING, Prepared, plan_issue, plan_reissue
+from server.services.errors import Conflict, NotFound, invalid
+from server.services.reports import REPORT_MEANING, Prepared, check_issuer, plan_issue, plan_reissue
 from server.services.review import Signature, check_signature, signer_in
 from server.services.workers import alive_since
-from server.workflow.states import CHECKERS, Role
 
 WAITING = ("queued", "rendering")
 MAX_ERROR = 1000
-
-
-def _checker(actor: User) -> None:
-    if Role(actor.role) not in CHECKERS:
-        raise Forbidden("only a reviewer or admin issues reports")
 
 
 def signer_check(password_hash: str) -> str:
@@ -112,7 +106,7 @@ def request_issue(
     """Sign revision 1 of a new report of the job (or of the chosen samples) and queue its
     render. Issuing is a signature: the issuer's password is entered again and the meaning
     (``REPORT_MEANING``) is recorded; without it nothing is queued."""
-    _checker(actor)
+    check_issuer(actor)
     signature = check_signature(db, actor, password, REPORT_MEANING)
     with db.session() as s:
         prepared = plan_issue(
@@ -125,7 +119,7 @@ def request_reissue(
     db: Database, actor: User, report_id: int, base_url: str, *, password: str
 ) -> ReportRender:
     """Sign revision n + 1 of an issued report after an amendment and queue its render."""
-    _checker(actor)
+    check_issuer(actor)
     signature = check_signature(db, actor, password, REPORT_MEANING)
     with db.session() as s:
         prepared = plan_reissue(s, report_id, actor, utcnow(), base_url, signature)
@@ -228,7 +222,7 @@ def fail(db: Database, render_id: int, attempt: int, message: str) -> None:
 
 def retry(db: Database, actor: User, render_id: int) -> ReportRender:
     """Queue a failed render again (a reviewer or admin); it renders from the same signature."""
-    _checker(actor)
+    check_issuer(actor)
     with db.transaction() as s:
         render = s.get(ReportRender, render_id, with_for_update=True)
         if render is None:

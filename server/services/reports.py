@@ -66,7 +66,8 @@ ROLE_TITLES = {"technician": "Technician", "reviewer": "Reviewer", "admin": "Lab
 DEVIATION_KEY = "deviation"
 
 
-def _check_role(actor: User) -> None:
+def check_issuer(actor: User) -> None:
+    """Only a reviewer or an admin issues, re-issues, previews or re-renders reports."""
     if Role(actor.role) not in CHECKERS:
         raise Forbidden("only a reviewer or admin issues reports")
 
@@ -456,7 +457,7 @@ def preview_report_html(
     """The HTML of the report that issuing now would give, every page marked as a preview.
     Nothing is stored; the charts are the same SVG the PDF would carry. ``style_nonce``: as
     ``render_report_html``'s."""
-    _check_role(actor)
+    check_issuer(actor)
     with db.session() as s:
         data, _ = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
     from server.reports.pdf import render_report_html
