@@ -80,12 +80,22 @@ def _find(db: Database, token: str, life: sessions.Lifetime) -> tuple[User, User
     the cheapest there is: no ORM session, and on PostgreSQL no transaction (``Database.read``)."""
     digest = sessions._sha256(token)
     found = db.read(lambda conn: session_with_user(conn, digest))
-    if found is not None:
-        user, row = found
-        now = utcnow()
-        if user.active and life.alive(row, now) and now - row.last_seen_at < sessions.TOUCH_EVERY:
-            return found
+    if found is not None and life.usual(found[0], found[1], utcnow()):
+        return found
     return sessions.find(db, token, life)
+
+
+def by_cookie(request: Request) -> sessions.ByCookie:
+    """The person this request's cookie names, to be read by a bench save with its test's lock
+    (``bench.save_changes``); ``remember_signed_in`` then keeps what it read for the request."""
+    sid = request.session.get("sid")
+    if not isinstance(sid, str):
+        raise SignInRequired()
+    return sessions.ByCookie.of(sid, lifetime(request))
+
+
+def remember_signed_in(request: Request, found: tuple[User, UserSession] | None) -> None:
+    request.state.signed_in = found
 
 
 def signed_in_user(request: Request) -> User | None:

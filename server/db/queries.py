@@ -75,6 +75,36 @@ def session_with_user(conn: Connection, token_sha256: str) -> tuple[User, UserSe
     return user, loaded(UserSession, dict(zip(_USER_SESSION.c.keys(), row[n:], strict=True)))
 
 
+_TEST_AND_SESSION_FOR_CHANGE = (
+    core_select(_LAB_TEST, _USER, _USER_SESSION)
+    .select_from(
+        _LAB_TEST.outerjoin(
+            _USER_SESSION.join(_USER, _USER_SESSION.c.user_id == _USER.c.id),
+            _USER_SESSION.c.token_sha256 == bindparam("token_sha256"),
+        )
+    )
+    .where(_LAB_TEST.c.id == bindparam("id"))
+    .with_for_update(of=_LAB_TEST)
+)
+
+
+def test_and_session_for_change(
+    conn: Connection, test_id: int, token_sha256: str
+) -> tuple[LabTest | None, tuple[User, UserSession] | None]:
+    """``test_for_change`` and ``session_with_user`` in one statement (one round trip, not two, on
+    the bench save of a person who is not yet looked up). The session is an outer join: a test
+    is locked whatever the cookie; with no such test, nothing is read at all."""
+    row = conn.execute(_TEST_AND_SESSION_FOR_CHANGE, {"id": test_id, "token_sha256": token_sha256}).first()
+    if row is None:
+        return None, None
+    t, u = len(_LAB_TEST.c), len(_USER.c)
+    test = loaded(LabTest, dict(zip(_LAB_TEST.c.keys(), row[:t], strict=True)))
+    if row[t] is None:  # no session of that cookie
+        return test, None
+    user = loaded(User, dict(zip(_USER.c.keys(), row[t : t + u], strict=True)))
+    return test, (user, loaded(UserSession, dict(zip(_USER_SESSION.c.keys(), row[t + u :], strict=True))))
+
+
 def test_for_change(conn: Connection, test_id: int) -> LabTest | None:
     """The test as stored, locked until the transaction ends against other writers of it (a
     PostgreSQL row lock; SQLite's ``BEGIN IMMEDIATE`` already serialises writers); None if none."""

@@ -27,13 +27,14 @@ from typing import Any
 from sqlalchemy import Connection
 from sqlmodel import Session
 
-from server.db.queries import bump_test, test_for_change
+from server.db.queries import bump_test, test_and_session_for_change, test_for_change
 from server.db.session import Database
-from server.db.tables import LabTest, User, utcnow
+from server.db.tables import LabTest, User, UserSession, utcnow
 from server.engine import Evaluation, FieldError, evaluate
 from server.services import audit, offline, readings_shape
 from server.services.errors import Conflict, Invalid, NotFound
 from server.services.readings_paths import PathError, same, value_at, with_changes
+from server.services.sessions import ByCookie, LookUpFirst
 from server.workflow.states import Action, Move, TransitionRefused, move
 
 
@@ -87,6 +88,7 @@ class Saved:
     evaluation: Evaluation
     changed: bool = True  # False when the readings were already so (nothing stored, no event)
     paths: list[str] = field(default_factory=list)
+    signed_in: tuple[User, UserSession] | None = None  # the session read with the test (``ByCookie``)
 
 
 def load_test(session: Session, test_id: int, *, for_update: bool = False) -> LabTest:
@@ -131,7 +133,7 @@ def _allowed(test: LabTest, action: Action, actor: User) -> Move:
 
 def save_changes(
     db: Database,
-    actor: User,
+    actor: User | ByCookie,
     test_id: int,
     changes: Sequence[Change] | Callable[[str], Sequence[Change]],
     expected_version: int | None = None,
@@ -157,9 +159,21 @@ def save_changes(
 
     It runs on every field typed at the bench, so it is Core statements on a bare connection
     (``Database.write``): read and lock the test, update it under its version, add the event.
+    ``actor`` may be the person a session cookie names, not yet read (``ByCookie``): they are
+    read with the test's lock, and ``LookUpFirst`` is raised, nothing stored, unless theirs is
+    the usual session (or when there is no such test: whether that is a 404 or a sign-in is for
+    the ordinary look-up to say).
     """
+    signed_in = None
     with db.write() as conn:
-        test = test_for_change(conn, test_id)
+        if isinstance(actor, ByCookie):
+            test, found = test_and_session_for_change(conn, test_id, actor.token_sha256)
+            if test is None:
+                raise LookUpFirst()
+            signed_in = actor.person(found)
+            actor = signed_in[0]
+        else:
+            test = test_for_change(conn, test_id)
         if test is None:
             raise NotFound(f"test {test_id} does not exist")
         if callable(changes):
@@ -193,7 +207,7 @@ def save_changes(
             raise Invalid(wrong)
         paths = [c.path for c in changes if not same(value_at(stored, c.path), value_at(readings, c.path))]
         if readings == stored:
-            return Saved(test, ev, changed=False)
+            return Saved(test, ev, changed=False, signed_in=signed_in)
         before = {"status": test.status, "readings": test.readings}
         typing = offline.typing_times(
             {c.path: c.typed_at for c in changes if c.typed_at is not None and c.path in paths},
@@ -221,7 +235,7 @@ def save_changes(
             after={"status": test.status, "readings": readings, "fields": paths, **typing.after()},
             typed_at=typing.at,
         )
-    return Saved(test, ev, changed=True, paths=paths)
+    return Saved(test, ev, changed=True, paths=paths, signed_in=signed_in)
 
 
 def save_readings(

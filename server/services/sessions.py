@@ -46,6 +46,38 @@ class Lifetime:
             and now - row.created_at < timedelta(seconds=self.max_age_s)
         )
 
+    def usual(self, user: User, row: UserSession, now: datetime) -> bool:
+        """Whether a session read as stored can be taken as it is, with nothing to write: the live
+        session of an active person, touched less than ``TOUCH_EVERY`` ago. Every other case
+        (ended, expired, deactivated, due its touch) is ``find``'s, which writes what it must."""
+        return user.active and self.alive(row, now) and now - row.last_seen_at < TOUCH_EVERY
+
+
+@dataclass(frozen=True)
+class ByCookie:
+    """The person a request's session cookie names, not yet read: a bench save reads them in
+    the same statement that locks its test (``bench.save_changes``), and so saves the session's
+    round trip to the database on the hottest path. Only the usual case is settled there; any
+    other raises ``LookUpFirst`` before anything is stored, and the caller signs the person in
+    the ordinary way (``find``) and saves again."""
+
+    token_sha256: str
+    lifetime: Lifetime
+
+    @classmethod
+    def of(cls, token: str, lifetime: Lifetime) -> ByCookie:
+        return cls(_sha256(token), lifetime)
+
+    def person(self, found: tuple[User, UserSession] | None) -> tuple[User, UserSession]:
+        """The person and session read with the test, if they are the usual case."""
+        if found is None or not self.lifetime.usual(found[0], found[1], utcnow()):
+            raise LookUpFirst()
+        return found
+
+
+class LookUpFirst(Exception):
+    """The cookie's session is not the usual case (``Lifetime.usual``): look it up with ``find``."""
+
 
 def start(db: Database, user: User, remote_addr: str, user_agent: str) -> tuple[str, UserSession]:
     """A new session for a person who has just proved who they are; returns the cookie's id.

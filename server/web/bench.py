@@ -28,7 +28,14 @@ from sqlmodel import col
 from starlette.concurrency import run_in_threadpool
 from starlette.responses import Response
 
-from server.auth.sessions import csrf_protect, database, require_user, session_cookie
+from server.auth.sessions import (
+    by_cookie,
+    csrf_protect,
+    database,
+    remember_signed_in,
+    require_user,
+    session_cookie,
+)
 from server.db.queries import TestRow, test_rows
 from server.db.tables import LabTest, User
 from server.engine import METHODS
@@ -38,6 +45,7 @@ from server.engine.rounding import DECIMALS, reported, round_half_up
 from server.services import bench, offline
 from server.services.errors import Conflict, Invalid, NotFound, ServiceError, http_status
 from server.services.readings_paths import same, value_at
+from server.services.sessions import LookUpFirst
 from server.web.bench_charts import charts_for
 from server.web.bench_forms import (
     RESULT_LINES,
@@ -428,16 +436,17 @@ async def save_fields(request: Request, test_id: IdPath, _: SessionCookie, body:
 
 
 def _save_fields(request: Request, test_id: int, body: FieldsIn) -> Response:
-    user = require_user(request)
+    db, changes = database(request), _typed_changes(body.changes)
     try:
-        saved = bench.save_changes(
-            database(request),
-            user,
-            test_id,
-            _typed_changes(body.changes),
-            typed_by=body.typed_by,
-            sent_at=body.sent_at,
-        )
+        try:  # the usual case: the person read with the test's lock (``sessions.ByCookie``)
+            saved = bench.save_changes(
+                db, by_cookie(request), test_id, changes, typed_by=body.typed_by, sent_at=body.sent_at
+            )
+            remember_signed_in(request, saved.signed_in)
+        except LookUpFirst:
+            saved = bench.save_changes(
+                db, require_user(request), test_id, changes, typed_by=body.typed_by, sent_at=body.sent_at
+            )
     except NotAField as exc:
         errors = [{"path": exc.path, "message": "not a field of this sheet"}]
         return JSONResponse({"detail": str(exc), "errors": errors}, status_code=422)
