@@ -34,6 +34,7 @@ from server.web import (
     intake,
     job_page,
     jobs,
+    quality,
     receipt,
     registers,
     reports,
@@ -93,6 +94,7 @@ def create_app(settings: Settings | None = None, db: Database | None = None) -> 
         admin_users,
         admin_access,
         registers,
+        quality,
         requests,
         account,
     ):

@@ -469,3 +469,81 @@ class AuditEvent(SQLModel, table=True):
         # alone (migration 0010; the two-column index it made redundant went in 0011).
         sa.Index("ix_audit_event_authors", "entity", "entity_id", "action", "actor_id"),
     )
+
+
+# -- quality control (ISO/IEC 17025:2017 cl. 7.7) ----------------------------------------------
+
+
+class QualityDuplicate(SQLModel, table=True):
+    """A test marked as a duplicate of another test of the same sample by the same method.
+
+    A record of its own rather than a column of ``lab_test``: marking (or unmarking) a duplicate
+    is a quality decision taken after the fact, often on approved tests, and an approved test's
+    row (readings, results, version) must not change for it. Unmarking keeps the row, with who
+    and when, so the duplicate checks once shown can be traced."""
+
+    __tablename__ = "quality_duplicate"
+
+    id: int | None = Field(default=None, primary_key=True)
+    test_id: int = Field(foreign_key="lab_test.id", index=True)
+    duplicate_of_id: int = Field(foreign_key="lab_test.id", index=True)
+    marked_by_id: int = Field(foreign_key="user.id")
+    marked_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+    unmarked_by_id: int | None = Field(default=None, foreign_key="user.id")
+    unmarked_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+
+
+class ReferenceSoil(SQLModel, table=True):
+    """A reference soil of the laboratory's register: a homogenised stock tested again and again
+    to watch the methods (and the people) stay in control. ``assigned_values`` are its accepted
+    values by method and result key (``{"atterberg": {"liquid_limit": 45.0}}``), for comparison;
+    the control limits come from its own results. Never deleted: deactivated when used up."""
+
+    __tablename__ = "reference_soil"
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=32, unique=True, index=True)
+    name: str = Field(max_length=200)
+    description: str = Field(default="", max_length=1000)
+    assigned_values: dict[str, Any] | None = _json()
+    active: bool = True
+    created_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class ReferenceSample(SQLModel, table=True):
+    """A sample that is a portion of a reference soil: its tests are points of that soil's
+    control charts. A table of its own so that the sample's record is not changed by it."""
+
+    __tablename__ = "reference_sample"
+
+    sample_id: int = Field(foreign_key="sample.id", primary_key=True)
+    reference_soil_id: int = Field(foreign_key="reference_soil.id", index=True)
+    linked_by_id: int = Field(foreign_key="user.id")
+    linked_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)
+
+
+class ProficiencyRound(SQLModel, table=True):
+    """The laboratory's result in one round of an interlaboratory comparison (proficiency test):
+    the scheme's assigned value X and σpt for one method and result key, and the laboratory's
+    result, typed or copied from the test it came from (kept as copied, so the record stays as
+    entered when the test is later amended)."""
+
+    __tablename__ = "proficiency_round"
+    __table_args__ = (
+        sa.UniqueConstraint(
+            "scheme", "round_code", "method", "result_key", name="uq_proficiency_round_entry"
+        ),
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    scheme: str = Field(max_length=100)
+    round_code: str = Field(max_length=32)
+    method: str = Field(max_length=40)
+    result_key: str = Field(max_length=40)
+    assigned_value: float
+    sigma_pt: float
+    result: float
+    test_id: int | None = Field(default=None, foreign_key="lab_test.id")
+    round_date: date
+    entered_by_id: int = Field(foreign_key="user.id")
+    entered_at: datetime = Field(default_factory=utcnow, sa_type=UTCDateTime)

@@ -35,7 +35,18 @@ from server.config import Settings
 from server.db.session import Database
 from server.db.tables import Job, ReportRender, Sample, utcnow
 from server.main import create_app
-from server.services import jobs, links, registers, reports, sessions, tokens, workers
+from server.services import (
+    jobs,
+    links,
+    quality_duplicates,
+    quality_proficiency,
+    quality_references,
+    registers,
+    reports,
+    sessions,
+    tokens,
+    workers,
+)
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import two_approved_samples
 from tests.support.http import csrf_of, sign_in
@@ -192,6 +203,16 @@ def _scenario(db: Database, people: People) -> Scenario:
         client_id, location_id = job.client_id, sample.location_id
         render_id = s.exec(select(ReportRender.id).where(ReportRender.report_id == report.id)).one()
     workers.beat(db, workers.worker_name("sqlite"), "sqlite", utcnow())  # its render worker: /readyz 200
+    soil = quality_references.add_soil(db, people.review, "RS-MX", "Matrix reference soil")
+    (again,) = jobs.request_tests(db, people.admin, [two.samples[0]], ["water-content"])
+    pair = quality_duplicates.mark(db, people.review, again.id or 0, requested.id or 0)
+    entry = quality_proficiency.add_round(
+        db,
+        people.review,
+        quality_proficiency.RoundForm(
+            "Matrix scheme", "MX-1", "water-content", "water_content", 30.0, 1.5, date.today(), 31.0
+        ),
+    )
     _, other_session = sessions.start(db, people.review2, "10.9.9.9", "spare browser")
     other_token = tokens.create_token(db, people.review2, people.review2, "spare")
     staff = {"tech": people.tech, "review": people.review, "admin": people.admin}
@@ -221,6 +242,9 @@ def _scenario(db: Database, people: People) -> Scenario:
         "token_id": other_token.token.id or 0,
         "container_id": tin.id or 0,
         "equipment_id": balance.id or 0,
+        "soil_id": soil.id or 0,
+        "mark_id": pair.id or 0,
+        "round_id": entry.id or 0,
     }
     return Scenario(
         {k: str(v) for k, v in ids.items()} | {"container_code": tin.code, "equipment_code": balance.code},
