@@ -10,13 +10,31 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
+PLASTICITY_TABLE = (
+    "Burmister (1949), plasticity by PI: 0 non-plastic, 1-5 slight, 5-10 low, 10-20 medium, "
+    "20-40 high, over 40 very high"
+)
+"""The table ``plasticity_class`` follows (REFERENCES.md "Indices": commonly credited to Burmister,
+1949), as the results and the report name it."""
+
+PLASTICITY_END_POINTS = (
+    "a PI on a shared end point (5, 10, 20, 40) takes the lower class: 5 slight, 10 low, 20 medium, 40 high"
+)
+"""The rule for the end points the table's ranges share, as the results and the report state it."""
+
+
+def plasticity_basis() -> dict[str, str]:
+    """The table and the end-point rule of ``plasticity_class``, for the ``plasticity_basis`` result."""
+    return {"table": PLASTICITY_TABLE, "end_points": PLASTICITY_END_POINTS}
+
 
 def plasticity_class(pi: float) -> str:
-    """Plasticity by PI (Burmister 1949): 0 non-plastic, 1-5 slight, 5-10 low, 10-20 medium,
-    20-40 high, above 40 very high.
+    """Plasticity by PI (``PLASTICITY_TABLE``, Burmister 1949): 0 non-plastic, 1-5 slight, 5-10 low,
+    10-20 medium, 20-40 high, above 40 very high.
 
-    The table's "above 40" puts 40 itself in "high", so every shared boundary is read the same
-    way: a boundary value belongs to the lower class (5 slight, 10 low, 20 medium, 40 high).
+    The table's "above 40" puts 40 itself in "high", so every shared end point is read the same
+    way (``PLASTICITY_END_POINTS``): it belongs to the lower class (5 slight, 10 low, 20 medium,
+    40 high). A PI above 0 and up to 5 is slight.
     """
     if pi <= 0:
         return "non-plastic"

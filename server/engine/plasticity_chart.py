@@ -1,10 +1,43 @@
-"""The plasticity chart of ASTM D2487 (Casagrande's chart): A-line, U-line and the chart symbol.
+"""The plasticity chart of ASTM D2487 (Casagrande's chart): A-line, U-line and the chart symbol;
+and the plasticity chart of BS 5930 (the British Soil Classification System) for jobs tested to
+BS / ISO.
 
 A-line: PI = 0.73 (LL - 20), horizontal at PI = 4 up to LL = 25.5 (ASTM D2487 Fig. 4).
 U-line: PI = 0.9 (LL - 8), vertical at LL = 16 up to PI = 7 (ASTM D2487 Fig. 4).
+
+BS 5930 chart (``bs_*`` below): the same sloped A-line, PI = 0.73 (LL - 20), drawn through the
+base line at LL 20 with no horizontal part, clay (C) above it and silt or M-soil (M) below, and
+five plasticity ranges by liquid limit: low (L) below 35, intermediate (I) 35 to 50, high (H) 50
+to 70, very high (V) 70 to 90, extremely high (E) above 90; symbols CL, CI, CH, CV, CE and ML, MI,
+MH, MV, ME. Sources: the A-line through LL 20, PI 0 and the letters L below 35, H 50 to 70 and E
+above 90 are confirmed in public excerpts of Smith, Smith's Elements of Soil Mechanics (its
+BSCS summary, after BS 5930:1981 and :1999); the I (35 to 50) and V (70 to 90) ranges, which
+those excerpts print garbled, and their being kept in BS 5930:2015, are from memory. ISO 14688-2
+describes plasticity without these liquid-limit ranges (from memory), so the ranges are BS 5930's.
+The published ranges share their end points; ours: each range begins at its lower end point
+(LL 35 is intermediate, 50 high, 70 very high, 90 extremely high), as D2487 reads LL 50 as high;
+a point on the A-line is clay, as D2487 reads "on or above". Both are our reading.
 """
 
 from __future__ import annotations
+
+import math
+
+BS_PLASTICITY_RANGES: tuple[tuple[float, str, str], ...] = (
+    (35.0, "L", "low"),
+    (50.0, "I", "intermediate"),
+    (70.0, "H", "high"),
+    (90.0, "V", "very high"),
+    (math.inf, "E", "extremely high"),
+)
+"""(liquid limit the range ends before, letter, term), low to extremely high (BS 5930; see above)."""
+
+BS_BASIS = (
+    "BS 5930 plasticity chart: A-line PI = 0.73 (LL - 20), clay (C) on or above, silt (M) below; "
+    "plasticity by liquid limit: low (L) below 35, intermediate (I) 35-50, high (H) 50-70, "
+    "very high (V) 70-90, extremely high (E) above 90; a liquid limit on a shared end point "
+    "takes the higher range"
+)
 
 
 def a_line(ll: float) -> float:
@@ -80,3 +113,31 @@ def cl_ml_band_points() -> list[tuple[float, float]]:
     the classification rule itself (``chart_symbol``) does not need that bound.
     """
     return [(16.0, 4.0), (20.0 + 4.0 / 0.73, 4.0), (20.0 + 7.0 / 0.73, 7.0), (16.0, 7.0)]
+
+
+def bs_a_line(ll: float) -> float:
+    """PI of the BS 5930 A-line at this liquid limit: 0.73 (LL - 20), with no horizontal part."""
+    return 0.73 * (ll - 20.0)
+
+
+def bs_plasticity_range(ll: float) -> tuple[str, str]:
+    """The BS 5930 plasticity range of a liquid limit: its letter and term (``("I", "intermediate")``).
+
+    A liquid limit on a shared end point takes the higher range (35 intermediate, 90 extremely high).
+    """
+    for end, letter, term in BS_PLASTICITY_RANGES:
+        if ll < end:
+            return letter, term
+    raise ValueError(f"liquid limit must be a finite number, not {ll!r}")
+
+
+def bs_chart_symbol(ll: float, pi: float) -> str:
+    """The BS 5930 chart symbol: C on or above the A-line, M below, then the range letter (``CI``)."""
+    kind = "C" if pi >= bs_a_line(ll) else "M"
+    return kind + bs_plasticity_range(ll)[0]
+
+
+def bs_plasticity_term(ll: float, pi: float) -> str:
+    """The BS 5930 words for the point: ``clay of intermediate plasticity``, ``silt of high plasticity``."""
+    noun = "clay" if pi >= bs_a_line(ll) else "silt"
+    return f"{noun} of {bs_plasticity_range(ll)[1]} plasticity"

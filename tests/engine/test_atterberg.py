@@ -12,6 +12,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from server.engine import calculate, evaluate
+from server.engine.descriptors import plasticity_basis
+from server.engine.plasticity_chart import BS_BASIS
 
 
 def det(w: float, dry_soil_g: float = 20.0, tare_g: float = 10.0) -> dict[str, float]:
@@ -150,11 +152,155 @@ def test_refuses_an_unknown_liquid_limit_method() -> None:
     assert [e.loc for e in ev.errors] == [("readings", "liquid_limit", "method")]
 
 
-def test_leaves_the_uscs_symbol_to_the_classification_of_a_coarse_soil() -> None:
-    # ASTM D2487: fine-grained only when 50 % or more passes 75 um.
+def test_names_a_coarse_soil_from_its_fractions() -> None:
+    # ASTM D2487-17 Fig. 3: 40 % fines (< 50) is coarse; sand > gravel; over 12 % CL fines -> SC;
+    # gravel 10 % < 15 % -> no "with gravel". The chart still reads the fines as CL (Fig. 4).
     r = calculate("atterberg", full_set(fines=40.0, sand=50.0, gravel=10.0)).results
-    assert "uscs_symbol" not in r
+    assert (r["uscs_symbol"], r["uscs_name"]) == ("SC", "Clayey sand")
     assert r["plasticity_chart"]["symbol"] == "CL"
+    assert "uscs_name_missing" not in r
+
+
+def test_leaves_a_coarse_soil_without_its_split_unnamed_and_says_what_is_missing() -> None:
+    # ASTM D2487-17 Fig. 3: gravel or sand is decided by the split, which is not given.
+    readings = full_set(fines=40.0)
+    del readings["sand"], readings["gravel"]
+    ev = calculate("atterberg", readings)
+    assert "uscs_symbol" not in ev.results and "uscs_name" not in ev.results
+    assert ev.results["uscs_name_missing"] == ["sand", "gravel"]
+    assert "uscs-name-not-given" in [f.code for f in ev.flags]
+
+
+@pytest.mark.parametrize(
+    ("fines", "sand", "gravel", "name"),
+    [
+        # ASTM D2487-17 Fig. 1 (from memory) with DESIGN.md section 8; LL 40, PI 19 -> CL (Fig. 4).
+        (86.0, 12.0, 2.0, "Lean clay"),  # 14 % retained: no modifier
+        (85.0, 15.0, 0.0, "Lean clay with sand"),  # exactly 15 % retained
+        (85.0, 7.5, 7.5, "Lean clay with sand"),  # equal sand and gravel count as sand
+        (70.0, 30.0, 0.0, "Sandy lean clay"),  # exactly 30 % retained
+        (55.0, 30.0, 15.0, "Sandy lean clay with gravel"),  # second fraction exactly 15 %
+        (60.0, 10.0, 30.0, "Gravelly lean clay"),  # gravel predominant, sand 10 % < 15 %
+    ],
+)
+def test_names_a_fine_soil_by_the_group_name_conventions(
+    fines: float, sand: float, gravel: float, name: str
+) -> None:
+    ev = calculate("atterberg", full_set(fines=fines, sand=sand, gravel=gravel))
+    assert (ev.results["uscs_symbol"], ev.results["uscs_name"]) == ("CL", name)
+    assert "uscs-name-not-given" not in [f.code for f in ev.flags]
+
+
+def test_a_set_without_fractions_keeps_its_chart_symbol_and_lists_what_a_name_needs() -> None:
+    readings = full_set()
+    del readings["fines"], readings["sand"], readings["gravel"]
+    ev = calculate("atterberg", readings)
+    assert ev.results["uscs_symbol"] == "CL"  # ASTM D2487 Fig. 4, as before
+    assert "uscs_name" not in ev.results
+    assert ev.results["uscs_name_missing"] == ["fines", "sand", "gravel"]
+    assert "uscs-name-not-given" not in [f.code for f in ev.flags]  # nothing was entered to name it
+
+
+def test_a_fine_soil_with_a_large_coarse_part_needs_its_split_to_be_named() -> None:
+    # ASTM D2487-17 Fig. 1: 40 % retained -> "sandy" or "gravelly", decided by the split.
+    readings = full_set(fines=60.0)
+    del readings["sand"], readings["gravel"]
+    ev = calculate("atterberg", readings)
+    assert ev.results["uscs_symbol"] == "CL" and "uscs_name" not in ev.results
+    assert ev.results["uscs_name_missing"] == ["sand", "gravel"]
+    assert "sand, gravel needed" in next(f.message for f in ev.flags if f.code == "uscs-name-not-given")
+
+
+def test_a_clean_or_dual_symbol_soil_needs_cu_and_cc_or_the_grain_diameters() -> None:
+    # ASTM D2487-17 Fig. 3: 5 to 12 % fines -> dual symbol; well or poorly graded needs Cu and Cc.
+    ev = calculate("atterberg", full_set(fines=8.0, sand=80.0, gravel=12.0, clay_fraction=5.0))
+    assert ev.results["uscs_name_missing"] == ["cu", "cc"] and "uscs_symbol" not in ev.results
+    # Cu = 0.7 / 0.1 = 7 >= 6, Cc = 0.3^2 / (0.1 x 0.7) = 1.29 -> well graded sand (REFERENCES.md);
+    # CL fines -> SW-SC; gravel 12 % < 15 % -> no "and gravel" (Fig. 3, names from memory).
+    named = calculate(
+        "atterberg",
+        full_set(fines=8.0, sand=80.0, gravel=12.0, clay_fraction=5.0, d10_mm=0.1, d30_mm=0.3, d60_mm=0.7),
+    ).results
+    assert (named["uscs_symbol"], named["uscs_name"]) == ("SW-SC", "Well-graded sand with clay")
+    given = calculate(
+        "atterberg", full_set(fines=8.0, sand=80.0, gravel=12.0, clay_fraction=5.0, cu=3.0, cc=1.0)
+    ).results
+    assert given["uscs_symbol"] == "SP-SC"  # Cu 3 < 6: poorly graded (REFERENCES.md)
+
+
+def test_refuses_cu_without_cc_as_the_classification_method_does() -> None:
+    ev = evaluate("atterberg", full_set(fines=8.0, sand=80.0, gravel=12.0, clay_fraction=5.0, cu=7.0))
+    assert [e.loc for e in ev.errors] == [("readings", "cc")]
+
+
+def test_a_nonplastic_coarse_soil_is_silty() -> None:
+    # DESIGN.md section 8: nonplastic fines are ML; ASTM D2487-17 Fig. 3: ML fines over 12 % -> SM;
+    # gravel exactly 15 % -> "with gravel".
+    r = calculate(
+        "atterberg", full_set(plastic_limit={"not_determinable": True}, fines=40.0, sand=45.0, gravel=15.0)
+    ).results
+    assert (r["uscs_symbol"], r["uscs_name"]) == ("SM", "Silty sand with gravel")
+
+
+def test_a_nonplastic_fine_soil_with_a_high_liquid_limit_is_ml() -> None:
+    # ASTM D4318: PL 56 >= LL 55 -> NP. DESIGN.md section 8: nonplastic fines are ML (the chart
+    # alone, at PI 0 and LL 55, would read MH, as the set did before).
+    ll = {"method": "ll-cup-one-point", "trials": [{"blows": 25, **det(55.0)}]}  # factor 1 at N 25
+    ev = calculate("atterberg", full_set(liquid_limit=ll, plastic_limit={"determinations": [det(56.0)] * 2}))
+    assert ev.results["nonplastic"] is True
+    assert (ev.results["uscs_symbol"], ev.results["uscs_name"]) == ("ML", "Silt")
+
+
+def test_fractions_that_do_not_add_up_leave_the_name_out() -> None:
+    ev = calculate("atterberg", full_set(fines=80.0, sand=12.0, gravel=2.0))
+    codes = [f.code for f in ev.flags]
+    assert "fractions-do-not-sum" in codes and "uscs-name-not-given" in codes
+    assert "uscs_name" not in ev.results and "uscs_name_missing" not in ev.results
+    over = full_set(fines=90.0, sand=15.0)
+    del over["gravel"]
+    assert "fractions-do-not-sum" in [f.code for f in calculate("atterberg", over).flags]
+
+
+# -- plasticity words: the descriptor's table, and the BS 5930 terms --------------------------------
+
+
+def test_results_name_the_plasticity_table_and_its_end_point_rule() -> None:
+    r = calculate("atterberg", full_set()).results
+    assert r["descriptors"]["plasticity"] == "medium"  # Burmister (1949): PI 19 in 10-20
+    assert r["plasticity_basis"] == plasticity_basis()
+    assert r["plasticity_basis"]["table"].startswith("Burmister (1949)")
+    np_set = calculate("atterberg", full_set(plastic_limit={"not_determinable": True})).results
+    assert "plasticity_basis" in np_set  # "non-plastic" is a class of the same table
+
+
+def test_bs5930_terms_are_given_when_asked_for() -> None:
+    # LL 40, PI 19: BS 5930 A-line 0.73 (40 - 20) = 14.6, below 19 -> clay; LL 35-50 intermediate
+    # (BS 5930 BSCS; the 35-50 range from memory, see tests/engine/test_plasticity_chart.py).
+    r = calculate("atterberg", full_set(plasticity_terms="bs5930")).results
+    assert r["bs_plasticity_symbol"] == "CI"
+    assert r["bs_plasticity_term"] == "clay of intermediate plasticity"
+    assert r["plasticity_basis"]["bs5930"] == BS_BASIS
+    assert (r["uscs_symbol"], r["uscs_name"]) == ("CL", "Lean clay")  # the USCS group stays
+
+
+def test_default_plasticity_terms_keep_todays_results() -> None:
+    default = calculate("atterberg", full_set()).results
+    assert calculate("atterberg", full_set(plasticity_terms="uscs")).results == default
+    assert not {"bs_plasticity_symbol", "bs_plasticity_term"} & set(default)
+    assert "bs5930" not in default["plasticity_basis"]
+
+
+def test_bs5930_terms_of_a_nonplastic_soil() -> None:
+    r = calculate(
+        "atterberg", full_set(plastic_limit={"not_determinable": True}, plasticity_terms="bs5930")
+    ).results
+    assert r["bs_plasticity_term"] == "non-plastic" and "bs_plasticity_symbol" not in r
+
+
+def test_refuses_unknown_plasticity_terms() -> None:
+    ev = evaluate("atterberg", full_set(plasticity_terms="bs"))
+    assert [e.loc for e in ev.errors] == [("readings", "plasticity_terms")]
+    assert "uscs, bs5930" in ev.errors[0].message
 
 
 # -- quality flags --------------------------------------------------------------------------------

@@ -9,6 +9,7 @@ does not spell them out; such checks say so.
 from __future__ import annotations
 
 import json
+import math
 from collections.abc import Mapping
 from typing import Any
 
@@ -18,6 +19,7 @@ from hypothesis import strategies as st
 
 from server.engine import calculate, classification_methods, evaluate
 from server.engine.classification import (
+    NP_READING,
     Aashto,
     MissingInput,
     Uscs,
@@ -27,6 +29,7 @@ from server.engine.classification import (
     is_organic,
     uscs,
     uscs_borderline,
+    uscs_missing,
 )
 
 # ==================================================================================================
@@ -119,6 +122,86 @@ def test_group_name_of_a_lean_clay_follows_its_sand_and_gravel(sand: float, grav
     assert uscs(41.0, 19.0, fines=fines, sand=sand, gravel=gravel) == Uscs("CL", name)
 
 
+# -- DESIGN.md section 8 conventions at their exact values ------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("fines", "sand", "gravel", "name"),
+    [
+        # ASTM D2487-17 Fig. 1 (fine-grained; from memory) with DESIGN.md section 8 at the end points.
+        (85.0, 15.0, 0.0, "Lean clay with sand"),  # exactly 15 % retained: "with sand"
+        (85.0, 0.0, 15.0, "Lean clay with gravel"),  # exactly 15 % retained, gravel: "with gravel"
+        (85.0, 7.5, 7.5, "Lean clay with sand"),  # equal sand and gravel count as sand
+        (70.0, 30.0, 0.0, "Sandy lean clay"),  # exactly 30 % retained: "sandy"
+        (70.0, 0.0, 30.0, "Gravelly lean clay"),  # exactly 30 % retained, gravel: "gravelly"
+        (70.0, 15.0, 15.0, "Sandy lean clay with gravel"),  # equal: sand; second fraction 15 %: "with"
+        (55.0, 30.0, 15.0, "Sandy lean clay with gravel"),  # second fraction exactly 15 %
+        (55.0, 15.0, 30.0, "Gravelly lean clay with sand"),  # second fraction exactly 15 %
+        (55.1, 30.0, 14.9, "Sandy lean clay"),  # second fraction below 15 %: no "with"
+    ],
+)
+def test_fine_soil_names_at_exactly_15_and_30_percent(
+    fines: float, sand: float, gravel: float, name: str
+) -> None:
+    assert uscs(41.0, 19.0, fines=fines, sand=sand, gravel=gravel) == Uscs("CL", name)
+
+
+def test_a_fraction_one_float_step_off_15_percent_counts_as_15() -> None:
+    # DESIGN.md section 8 "exactly 15 %": a computed 85.00000000000001 % fines leaves 14.99999999999999 %
+    # retained, which is 15 % typed as 15 (binary noise, classification.EXACT; common practice).
+    fines = math.nextafter(85.0, 100.0)
+    assert uscs(41.0, 19.0, fines=fines, sand=100.0 - fines, gravel=0.0).name == "Lean clay with sand"
+    gravel = math.nextafter(15.0, 0.0)
+    soil = uscs(41.0, 19.0, fines=20.0, sand=80.0 - gravel, gravel=gravel)
+    assert soil == Uscs("SC", "Clayey sand with gravel")  # ASTM D2487 Fig. 3: gravel 15 % -> "with gravel"
+
+
+@pytest.mark.parametrize(
+    ("fines", "sand", "gravel", "symbol", "name"),
+    [
+        # ASTM D2487-17 Fig. 3 (coarse-grained; from memory) with DESIGN.md section 8 at the end points.
+        (20.0, 65.0, 15.0, "SC", "Clayey sand with gravel"),  # second fraction exactly 15 %
+        (20.0, 65.1, 14.9, "SC", "Clayey sand"),  # below 15 %
+        (20.0, 15.0, 65.0, "GC", "Clayey gravel with sand"),  # sand exactly 15 %
+        (20.0, 40.0, 40.0, "SC", "Clayey sand with gravel"),  # equal sand and gravel: sand
+    ],
+)
+def test_coarse_soil_names_at_exactly_15_percent_and_equal_fractions(
+    fines: float, sand: float, gravel: float, symbol: str, name: str
+) -> None:
+    assert uscs(41.0, 19.0, fines=fines, sand=sand, gravel=gravel) == Uscs(symbol, name)
+
+
+# -- what a group name still needs ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("fines", "sand", "gravel", "cu", "cc", "missing"),
+    [
+        (None, None, None, None, None, ("fines", "sand", "gravel")),  # no grading at all
+        (None, 10.0, None, None, None, ("fines",)),  # the split is partly there
+        (90.0, None, None, None, None, ()),  # Fig. 1: under 15 % retained needs no split
+        (60.0, None, None, None, None, ("sand", "gravel")),  # Fig. 1: 40 % retained, sandy or gravelly?
+        (30.0, None, None, None, None, ("sand", "gravel")),  # Fig. 3: gravel or sand?
+        (30.0, 50.0, None, None, None, ()),  # gravel is the remainder
+        (8.0, None, None, None, None, ("sand", "gravel", "cu", "cc")),  # Fig. 3: split and grading
+        (8.0, 80.0, 12.0, None, None, ("cu", "cc")),  # Fig. 3: 5-12 % fines, well or poorly graded
+        (8.0, 80.0, 12.0, 7.0, 1.3, ()),
+    ],
+)
+def test_uscs_missing_names_every_input_the_group_name_still_needs(
+    fines: float | None,
+    sand: float | None,
+    gravel: float | None,
+    cu: float | None,
+    cc: float | None,
+    missing: tuple[str, ...],
+) -> None:
+    assert uscs_missing(41.0, 19.0, fines=fines, sand=sand, gravel=gravel, cu=cu, cc=cc) == missing
+    if fines is not None and not missing:  # nothing missing: uscs names it
+        assert uscs(41.0, 19.0, fines=fines, sand=sand, gravel=gravel, cu=cu, cc=cc).name
+
+
 def test_group_name_prefix_is_written_in_lower_case_inside_the_name() -> None:
     # ASTM D2487 Fig. 1a (from memory): "Sandy fat clay", "Gravelly elastic silt with sand".
     assert uscs(70.0, 45.0, fines=60.0, sand=35.0, gravel=5.0).name == "Sandy fat clay"
@@ -127,11 +210,13 @@ def test_group_name_prefix_is_written_in_lower_case_inside_the_name() -> None:
 
 
 def test_nonplastic_fine_soil_is_a_silt() -> None:
-    # ASTM D4318: NP when no plastic limit; it plots at PI 0, below the A-line (common practice).
+    # ASTM D4318: NP when no plastic limit; DESIGN.md section 8: nonplastic fines are ML.
     assert uscs(None, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0) == Uscs("ML", "Silt")
     assert uscs(30.0, 0.0, fines=90.0, sand=10.0, gravel=0.0).symbol == "ML"  # PI 0 is nonplastic
-    # ASTM D2487 Fig. 1a: LL >= 50 below the A-line is MH.
-    assert uscs(55.0, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0) == Uscs("MH", "Elastic silt")
+    # DESIGN.md section 8: ML whatever the liquid limit, though a point at PI 0 with LL 55 would
+    # read MH off the chart (ASTM D2487 Fig. 4); geolysis does read MH (test_classification_crosscheck).
+    assert uscs(55.0, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0) == Uscs("ML", "Silt")
+    assert uscs(55.0, None, nonplastic=True, fines=60.0, sand=40.0, gravel=0.0) == Uscs("ML", "Sandy silt")
 
 
 def test_fines_not_given_classify_from_the_chart_alone() -> None:
@@ -352,10 +437,33 @@ def test_a_plastic_granular_soil_needs_no_sieve_data() -> None:
 
 
 def test_nonplastic_silt_without_a_liquid_limit_cannot_be_placed_in_a_4_or_a_5() -> None:
-    # AASHTO M 145 Table 2: A-4 is LL 40 max, A-5 LL 41 min.
+    # AASHTO M 145 Table 2: A-4 is LL 40 max, A-5 LL 41 min; the group index of a silt-clay
+    # group needs LL (M 145 GI formula), so the NP reading below is not extended to fine soils.
     with pytest.raises(MissingInput) as caught:
         aashto(60.0, None, None, nonplastic=True)
     assert caught.value.fields == ("liquid_limit",)
+
+
+@pytest.mark.parametrize(
+    ("fines", "p2", "p0425", "group"),
+    [
+        # AASHTO M 145 Table 2 (limits from memory; REFERENCES.md), NP with no liquid limit.
+        (30.0, None, None, "A-2-4"),  # over 25 % fines: past A-1; NP read as "LL 40 max" -> A-2-4
+        (35.0, None, None, "A-2-4"),  # 35 % is still granular ("35 max")
+        (20.0, 80.0, 60.0, "A-2-4"),  # 0.425 mm 60 > 50: not A-1-b; fines 20 > 10: not A-3
+        (20.0, 80.0, 45.0, "A-1-b"),  # A-1-b needs no liquid limit (PI 6 max; NP meets it)
+        (8.0, 100.0, 70.0, "A-3"),  # A-3 is "NP" and needs no liquid limit
+    ],
+)
+def test_nonplastic_granular_soil_without_a_liquid_limit_is_placed(
+    fines: float, p2: float | None, p0425: float | None, group: str
+) -> None:
+    result = aashto(fines, None, None, passing_2mm=p2, passing_0425mm=p0425, nonplastic=True)
+    assert (result.group, result.group_index) == (group, 0)  # GI 0 for these groups (REFERENCES.md)
+    # Only the placement that rests on reading NP as "LL 40 max" carries the note.
+    assert result.note == (NP_READING if group == "A-2-4" else None)
+    if result.note:
+        assert "the laboratory's reading" in result.note and "LL 40 max" in result.note
 
 
 def test_group_index_of_the_granular_groups_is_zero() -> None:
@@ -495,6 +603,20 @@ def test_dual_symbol_soil_from_grain_diameters() -> None:
     assert ev.results["uscs_symbol"] == "SW-SM"
     assert ev.results["uscs_name"] == "Well-graded sand with silt"
     assert ev.results["aashto_group"] == "A-1-b"  # F <= 25, 0.425 mm <= 50, PI 3 <= 6 (M 145)
+
+
+def test_nonplastic_granular_soil_without_a_liquid_limit_gets_a_2_4_and_the_note() -> None:
+    # AASHTO M 145 Table 2: over 25 % fines rules out A-1; NP read as "LL 40 max" (our reading) -> A-2-4.
+    # ASTM D2487 Fig. 3: nonplastic (ML) fines over 12 % -> SM; gravel 10 % < 15 % -> no "with gravel".
+    ev = calculate("classification", {"nonplastic": True, "fines": 30.0, "sand": 60.0, "gravel": 10.0})
+    assert (ev.results["uscs_symbol"], ev.results["uscs_name"]) == ("SM", "Silty sand")
+    assert (ev.results["aashto_group"], ev.results["group_index"]) == ("A-2-4", 0)
+    assert ev.results["aashto_note"] == NP_READING
+    assert ev.flags == []
+
+
+def test_aashto_note_is_absent_when_the_table_is_read_as_written() -> None:
+    assert "aashto_note" not in calculate("classification", LEAN_CLAY).results
 
 
 def test_organic_soil_reports_the_ratio() -> None:

@@ -496,3 +496,61 @@ def test_every_departure_cites_the_standard() -> None:
         assert d.standard.startswith(("ASTM D2487-17", "AASHTO M 145")), d.code
     for code, (standard, _) in GI_DEPARTURES.items():
         assert "M 145" in standard or "REFERENCES.md" in standard, code
+
+
+# ----------------------------------------------------------------------------------------------
+# Directed cases: DESIGN.md section 8 conventions and the AASHTO NP reading, against geolysis
+# ----------------------------------------------------------------------------------------------
+
+
+def _geolysis_symbol(ll: float, pl: float, fines: float, sand: float) -> str:
+    # Grading diameters of a well-graded soil (Cu 9, Cc 1); they matter only for 12 % fines or less.
+    clf = soil_classifier.create_uscs_classifier(
+        liquid_limit=ll, plastic_limit=pl, fines=fines, sand=sand, d_10=0.1, d_30=0.3, d_60=0.9
+    )
+    return str(clf.classify().symbol)
+
+
+@pytest.mark.parametrize(
+    ("fines", "sand", "gravel"),
+    [
+        # ASTM D2487-17 Fig. 1 (fine-grained) and Fig. 3 (coarse-grained) at the section 8 end points.
+        (85.0, 15.0, 0.0),  # exactly 15 % retained (Fig. 1)
+        (70.0, 0.0, 30.0),  # exactly 30 % retained (Fig. 1)
+        (70.0, 15.0, 15.0),  # equal sand and gravel (Fig. 1)
+        (20.0, 65.0, 15.0),  # second fraction exactly 15 % (Fig. 3)
+        (20.0, 15.0, 65.0),  # gravel predominant (Fig. 3)
+        (20.0, 40.0, 40.0),  # equal sand and gravel count as sand (Fig. 3): SC
+    ],
+)
+def test_symbols_at_the_group_name_end_points_agree_with_geolysis(
+    fines: float, sand: float, gravel: float
+) -> None:
+    # LL 41, PI 19 plots well above the A-line (15.3), away from every departure in the table above.
+    # Only the symbol is compared: geolysis gives a description ("Inorganic clays with low
+    # plasticity"), not the D2487 group name, so the names have no cross-check there.
+    ours = uscs(41.0, 19.0, fines=fines, sand=sand, gravel=gravel)
+    assert ours.symbol == _geolysis_symbol(41.0, 22.0, fines, sand)
+
+
+def test_nonplastic_fine_soil_with_a_high_liquid_limit_is_ml_where_geolysis_says_mh() -> None:
+    # Named difference "nonplastic-fines-are-ml": DESIGN.md section 8 makes nonplastic fines ML
+    # whatever their LL; geolysis has no nonplastic input, so PL = LL gives PI 0 at LL 55, below the
+    # A-line with LL >= 50 (ASTM D2487 Fig. 4): MH. A coarse soil agrees (SM either way).
+    assert uscs(55.0, None, nonplastic=True, fines=90.0, sand=10.0, gravel=0.0).symbol == "ML"
+    assert _geolysis_symbol(55.0, 55.0, 90.0, 10.0) == "MH"
+    assert uscs(55.0, None, nonplastic=True, fines=30.0, sand=60.0, gravel=10.0).symbol == "SM"
+    assert _geolysis_symbol(55.0, 55.0, 30.0, 60.0) == "SM"
+
+
+@pytest.mark.parametrize("fines", [26.0, 30.0, 35.0])
+def test_nonplastic_granular_soil_without_a_liquid_limit_matches_geolysis_at_any_ll_up_to_40(
+    fines: float,
+) -> None:
+    # AASHTO M 145 Table 2 with NP read as "LL 40 max" (classification.NP_READING, our reading).
+    # geolysis needs a liquid limit; with PL = LL (PI 0) at every LL up to 40 it gives A-2-4 (0),
+    # the group and index our reading gives without one. Fines over 25 % keep both past A-1.
+    ours = aashto(fines, None, None, nonplastic=True)
+    for ll in (10.0, 25.0, 40.0):
+        theirs = soil_classifier.create_aashto_classifier(ll, ll, fines).classify()
+        assert (ours.group, ours.group_index) == (str(theirs.symbol_no_group_idx), int(theirs.group_index))

@@ -10,6 +10,7 @@ from server.engine.descriptors import (
     activity_class,
     consistency_class,
     describe,
+    plasticity_basis,
     plasticity_class,
     sensitivity_class,
     state_class,
@@ -99,3 +100,22 @@ def test_state_by_liquidity_index(li: float, word: str) -> None:
 def test_describe_names_only_what_the_results_allow() -> None:
     assert describe({"nonplastic": True}) == {"plasticity": "non-plastic"}
     assert describe({"nonplastic": False, "plasticity_index": 19.0}) == {"plasticity": "medium"}
+
+
+@pytest.mark.parametrize("end_point", [5, 10, 20, 40])
+def test_a_pi_on_a_shared_end_point_takes_the_lower_class(end_point: float) -> None:
+    # Burmister (1949) via REFERENCES.md: ranges 1-5, 5-10, 10-20, 20-40 share their end points; the
+    # engine's rule (PLASTICITY_END_POINTS): the end point goes with the range below it.
+    assert plasticity_class(end_point) == plasticity_class(end_point - 0.5)
+    assert plasticity_class(end_point) != plasticity_class(end_point + 0.5)
+
+
+def test_plasticity_basis_names_the_table_and_the_end_point_rule() -> None:
+    basis = plasticity_basis()
+    assert set(basis) == {"table", "end_points"}
+    assert basis["table"].startswith("Burmister (1949)")  # REFERENCES.md "Indices"
+    assert "lower class" in basis["end_points"]
+    # The rule as written must be the rule as computed: each end point it names, in its class.
+    for pi, word in ((5, "slight"), (10, "low"), (20, "medium"), (40, "high")):
+        assert f"{pi} {word}" in basis["end_points"]
+        assert plasticity_class(pi) == word
