@@ -122,4 +122,54 @@ EXAMPLES: dict[str, dict[str, Any]] = {
         "sand": 12.0,
         "gravel": 2.0,
     },
+    "particle-density": {
+        "determinations": [
+            {
+                "pycnometer_g": 30.12,
+                "pycnometer_soil_g": 40.15,
+                "pycnometer_soil_water_g": 86.45,
+                "pycnometer_water_g": 80.17,
+                "temperature_c": 21.0,
+            },
+            {
+                "pycnometer_g": 29.80,
+                "pycnometer_soil_g": 39.92,
+                "pycnometer_soil_water_g": 86.19,
+                "pycnometer_water_g": 79.85,
+                "temperature_c": 21.5,
+            },
+        ]
+    },
+    "linear-shrinkage": {"mould_length_mm": 140.0, "oven_dry_length_mm": 128.6, "condition": "intact"},
+    "density": {
+        "specimens": [
+            {"mass_g": 161.20, "diameter_mm": 38.1, "height_mm": 76.2},
+            {"mass_g": 160.85, "diameter_mm": 38.0, "height_mm": 76.4},
+        ],
+        "water_content": {"determinations": [_DET]},
+        "particle_density_mg_m3": 2.70,
+    },
+    "loss-on-ignition": {
+        "determinations": [
+            {"crucible_g": 21.402, "crucible_dry_g": 31.455, "crucible_ignited_g": 30.871},
+            {"crucible_g": 20.918, "crucible_dry_g": 30.977, "crucible_ignited_g": 30.391},
+        ],
+        "furnace_c": 440,
+    },
+    "compaction": {
+        "effort": "standard",
+        "mould_volume_cm3": 944.0,
+        "mould_g": 4250.0,
+        "particle_density_mg_m3": 2.70,
+        "points": [
+            {"mould_soil_g": m, "determinations": [{"tare_g": 15.00, "wet_tare_g": 115.00, "dry_tare_g": d}]}
+            for m, d in (
+                (6010.0, 104.30),
+                (6190.0, 101.40),
+                (6120.0, 102.90),
+                (6160.0, 100.00),
+                (6090.0, 98.60),
+            )
+        ],
+    },
 }

@@ -59,6 +59,25 @@ DECIMALS: dict[str, int] = {
     "remoulded_undrained_strength_kpa": 1,
     "undrained_strength_ratio_nc": 2,
     "swell_potential": 1,
+    # densities to 0.01 Mg/m³ (BS 1377-2:1990 cl. 7.2 and 8.3, BS 1377-4:1990 cl. 3.3, from memory),
+    # specific gravity to 0.01 (ASTM D854-14, from memory); linear shrinkage to a whole per cent
+    # (BS 1377-2:1990 cl. 6.5, from memory); organic content to 0.1 % (BS 1377-3:1990 cl. 4, from
+    # memory); optimum water content to 0.1 % like the water content (ASTM D698-12, from memory);
+    # void ratio and porosity to 0.001, saturation to 1 % (common practice)
+    "particle_density_mg_m3": 2,
+    "particle_density_determinations": 2,
+    "specific_gravity": 2,
+    "linear_shrinkage": 0,
+    "bulk_density_mg_m3": 2,
+    "bulk_density_determinations": 2,
+    "dry_density_mg_m3": 2,
+    "void_ratio": 3,
+    "porosity": 3,
+    "degree_of_saturation": 0,
+    "organic_content": 1,
+    "organic_content_determinations": 1,
+    "maximum_dry_density_mg_m3": 2,
+    "optimum_water_content": 1,
 }
 
 

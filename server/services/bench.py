@@ -33,6 +33,8 @@ from server.db.tables import LabTest, User, UserSession, utcnow
 from server.engine import Evaluation, FieldError, evaluate
 from server.services import audit, offline, readings_shape
 from server.services.errors import Conflict, Invalid, NotFound
+from server.services.linked_inputs import evaluate_test
+from server.services.linked_inputs import linked as linked_to_others
 from server.services.readings_paths import PathError, same, value_at, with_changes
 from server.services.sessions import ByCookie, LookUpFirst
 from server.workflow.states import Action, Move, TransitionRefused, move
@@ -198,7 +200,7 @@ def save_changes(
             raise Invalid([FieldError(("readings",), str(exc))]) from exc
         if conflicts:
             raise FieldConflicts(conflicts)
-        ev = evaluate(test.method, readings)
+        ev = evaluate_test(conn, test, readings, by_standards=False)
         # Readings sent whole (the API, an import) must be of the method's shape as sent (before
         # blanks are tidied away); a field saved from the bench is one of its sheet's, which are.
         shape = [e for c in changes if c.path == "" for e in readings_shape.refusals(test.method, c.value)]
@@ -295,16 +297,19 @@ def submit(
     """
     with db.transaction() as s:
         test = load_test(s, test_id, for_update=True)
-        ev = evaluate(test.method, test.readings or {})
+        ev = evaluate_test(s, test)
         if ev.errors:
             raise Invalid(ev.errors)
         kept = flag_reasons(ev, reasons)
+        flags = [f.to_dict() for f in ev.flags]
+        linked = {"results": ev.results, "flags": flags} if linked_to_others(test.method) else {}
         before = change_status(
             s,
             actor,
             test,
             Action.submit,
             expected_version,
+            **linked,  # handed in with the linked values of now (``linked_inputs``), then kept
             submitted_at=utcnow(),
             return_reason=None,
             flag_reasons=kept or None,
@@ -321,6 +326,9 @@ def draft_with(test: LabTest, changes: Sequence[Change]) -> dict[str, Any]:
     return with_changes(test.readings, [(c.path, c.value) for c in changes])
 
 
-def preview(method: str, readings: dict[str, Any]) -> Evaluation:
-    """What the engine makes of readings typed so far; stores nothing."""
-    return evaluate(method, readings)
+def preview(db: Database, test: LabTest, readings: dict[str, Any]) -> Evaluation:
+    """What the engine makes of readings typed so far for this test (with the values it takes
+    from its sample's other tests, ``linked_inputs``); stores nothing."""
+    if not linked_to_others(test.method):
+        return evaluate(test.method, readings)
+    return db.read(lambda conn: evaluate_test(conn, test, readings))

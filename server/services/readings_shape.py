@@ -23,8 +23,11 @@ from pydantic import BaseModel, ConfigDict, Field, PlainValidator, StringConstra
 from pydantic import ValidationError as PydanticError
 
 from server.engine import FieldError
+from server.engine.atterberg import PLASTICITY_TERMS
+from server.engine.compaction import EFFORTS
 from server.engine.liquid_limit import CONES, LL_METHODS
 from server.engine.readings import DECIMAL, MAX_NUMBER_TEXT
+from server.engine.shrinkage import CONDITIONS as BAR_CONDITIONS
 
 _DECIMAL_TEXT = {"type": "string", "pattern": DECIMAL.pattern, "maxLength": MAX_NUMBER_TEXT}
 _BLANK = {"type": "string", "maxLength": 0, "description": "blank: not entered (as a cleared field)"}
@@ -81,6 +84,9 @@ Day = Annotated[
 ]
 Cone = Annotated[Any, _scalar(str), WithJsonSchema({"type": "string", "enum": list(CONES)})]
 LiquidLimitMethod = Annotated[Any, _scalar(str), WithJsonSchema({"type": "string", "enum": list(LL_METHODS)})]
+PlasticityTerms = Annotated[
+    Any, _scalar(str), WithJsonSchema({"type": "string", "enum": list(PLASTICITY_TERMS)})
+]
 HydrometerType = Annotated[Any, _scalar(str), WithJsonSchema({"type": "string", "enum": ["152H"]})]
 # A container's or hydrometer's id, and an instrument's: the engine's own limits.
 Label = Annotated[str, StringConstraints(max_length=40)]
@@ -210,6 +216,12 @@ class AtterbergReadings(Conditions):
     fines: Number | None = None
     sand: Number | None = None
     gravel: Number | None = None
+    cu: Number | None = None
+    cc: Number | None = None
+    d10_mm: Number | None = None
+    d30_mm: Number | None = None
+    d60_mm: Number | None = None
+    plasticity_terms: PlasticityTerms | None = None
 
 
 class SieveRow(Closed):
@@ -352,6 +364,97 @@ class ClassificationReadings(Conditions):
     cc: Number | None = None
 
 
+class PycnometerDetermination(Closed):
+    pycnometer_g: Number | None = None
+    pycnometer_soil_g: Number | None = None
+    pycnometer_soil_water_g: Number | None = None
+    pycnometer_water_g: Number | None = None
+    temperature_c: Number | None = None
+
+
+class ParticleDensityReadings(Conditions):
+    determinations: (
+        Annotated[
+            list[PycnometerDetermination | None],
+            Field(
+                max_length=MAX_ROWS, description="small-pycnometer determinations: masses g, temperature °C"
+            ),
+        ]
+        | None
+    ) = None
+
+
+BarCondition = Annotated[Any, _scalar(str), WithJsonSchema({"type": "string", "enum": list(BAR_CONDITIONS)})]
+Effort = Annotated[Any, _scalar(str), WithJsonSchema({"type": "string", "enum": list(EFFORTS)})]
+
+
+class LinearShrinkageReadings(Conditions):
+    mould_length_mm: Number | None = None
+    oven_dry_length_mm: Number | None = None
+    condition: BarCondition | None = None
+    length_resolution_mm: Number | None = None
+
+
+class DensitySpecimen(Closed):
+    mass_g: Number | None = None
+    diameter_mm: Number | None = None
+    height_mm: Number | None = None
+
+
+class DensityReadings(Conditions):
+    specimens: (
+        Annotated[
+            list[DensitySpecimen | None],
+            Field(max_length=MAX_ROWS, description="measured cylinders: mass g, diameter and height mm"),
+        ]
+        | None
+    ) = None
+    water_content: WaterContentReadings | None = None
+    particle_density_mg_m3: Number | None = None
+    length_resolution_mm: Number | None = None
+
+
+class IgnitionDetermination(Closed):
+    crucible_g: Number | None = None
+    crucible_dry_g: Number | None = None
+    crucible_ignited_g: Number | None = None
+
+
+class LossOnIgnitionReadings(Conditions):
+    determinations: (
+        Annotated[
+            list[IgnitionDetermination | None],
+            Field(max_length=MAX_ROWS, description="crucible, with dry soil, after ignition, g"),
+        ]
+        | None
+    ) = None
+    furnace_c: Number | None = None
+
+
+class CompactionPoint(Closed):
+    mould_soil_g: Number | None = None
+    determinations: (
+        Annotated[
+            list[Determination | None], Field(max_length=MAX_ROWS, description="mass determinations, g")
+        ]
+        | None
+    ) = None
+
+
+class CompactionReadings(Conditions):
+    effort: Effort | None = None
+    mould_volume_cm3: Number | None = None
+    mould_g: Number | None = None
+    particle_density_mg_m3: Number | None = None
+    points: (
+        Annotated[
+            list[CompactionPoint | None],
+            Field(max_length=MAX_ROWS, description="compacted specimens: mould and soil, water content"),
+        ]
+        | None
+    ) = None
+
+
 MODELS: dict[str, type[Closed]] = {
     "water-content": WaterContentReadings,
     "ll-cup-multipoint": CupLiquidLimitReadings,
@@ -366,6 +469,11 @@ MODELS: dict[str, type[Closed]] = {
     "fall-cone-strength": FallConeStrengthReadings,
     "unconfined-compression": UnconfinedCompressionReadings,
     "classification": ClassificationReadings,
+    "particle-density": ParticleDensityReadings,
+    "linear-shrinkage": LinearShrinkageReadings,
+    "density": DensityReadings,
+    "loss-on-ignition": LossOnIgnitionReadings,
+    "compaction": CompactionReadings,
 }
 """Every engine method's readings model (tests/services/test_readings_shape.py checks that none
 is missing)."""

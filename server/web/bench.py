@@ -44,6 +44,7 @@ from server.engine.readings import as_number
 from server.engine.rounding import DECIMALS, reported, round_half_up
 from server.services import bench, offline
 from server.services.errors import Conflict, Invalid, NotFound, ServiceError, http_status
+from server.services.linked_inputs import LINKED
 from server.services.readings_paths import same, value_at
 from server.services.sessions import LookUpFirst
 from server.web.bench_charts import charts_for
@@ -254,6 +255,10 @@ def result_lines(ev: Evaluation) -> list[Shown]:
         lines.append(Shown(line.label, text, line.unit, line.key, spread))
     if r.get("nonplastic") is True:
         lines.insert(0, Shown("Plasticity", "NP (non-plastic)", "", "nonplastic"))
+    for path, source in (r.get(LINKED) or {}).items():
+        field = path.rpartition(".")[2].replace("_mg_m3", "").replace("_", " ")
+        where = f"{METHODS[source['method']].title} test {source['test_id']} ({source['status']})"
+        lines.append(Shown(f"{field.capitalize()} taken from", where, "", LINKED))
     return lines
 
 
@@ -354,7 +359,7 @@ def bench_page(
 ) -> Response:
     row = load_row(request, test_id)
     readings = row.test.readings or {}
-    ev = bench.preview(row.test.method, readings)
+    ev = bench.preview(database(request), row.test, readings)
     message = "Handed in for review." if handed_in else "Draft saved." if saved else None
     return _page(request, row, readings, ev, message=message)
 
@@ -375,7 +380,7 @@ async def bench_preview(request: Request, test_id: IdPath, user: Staff) -> Respo
     row = load_row(request, test_id)
     changes = _changes_from_form(row.test.method, (await request.form()).multi_items())
     readings = bench.draft_with(row.test, changes)
-    ev = bench.preview(row.test.method, readings)
+    ev = bench.preview(database(request), row.test, readings)
     context = _results_context(row, readings, ev)
     return render(request, "partials/bench_results.html", test=row.test, **context)
 
@@ -572,7 +577,7 @@ def _refused(
         request,
         row,
         readings,
-        bench.preview(row.test.method, readings),
+        bench.preview(database(request), row.test, readings),
         status_code=http_status(exc),
         problem=f"{what}: {detail}.",
         reasons=reasons,

@@ -2,8 +2,9 @@
 
 Which chart a test shows follows from what its results hold, not from its method id: a flow or
 cone curve wherever liquid-limit trials were computed, the plasticity chart when the set has a
-point on it, a grading curve (log size) for sieving and sedimentation, and a stress-strain curve
-for unconfined compression. The points are the engine's own numbers; nothing is computed here.
+point on it, a grading curve (log size) for sieving and sedimentation, a stress-strain curve
+for unconfined compression, and the compaction curve with its air-voids lines. The points are the
+engine's own numbers; nothing is computed here but the drawing of the engine's peak parabola.
 """
 
 from __future__ import annotations
@@ -87,8 +88,70 @@ def stress_strain_chart(results: Mapping[str, Any]) -> str | None:
     )
 
 
+AIR_VOIDS_LINES = (
+    ("0", "Zero air voids", "6 3"),
+    ("5", "5 % air voids", "2 2"),
+    ("10", "10 % air voids", "8 3 2 3"),
+)
+"""The engine's ``air_voids_lines`` keys (server/engine/compaction.py), named and dashed apart."""
+PARABOLA_STEPS = 20
+
+
+def _peak_parabola(
+    points: list[tuple[float, float]], vertex: tuple[float, float]
+) -> list[tuple[float, float]]:
+    """The engine's parabola through its peak point and the neighbours either side, drawn between
+    those neighbours from the vertex it gave: rho_d = rho_max + a (w - w_opt)^2.
+
+    The peak is the engine's (server/engine/compaction.py): the highest dry density among the
+    inner points, the points being in order of water content. ``a`` is taken from the neighbour
+    farther from the vertex (the three points lie on the one parabola; the farther gives the
+    steadier quotient).
+    """
+    peak = max(range(1, len(points) - 1), key=lambda i: points[i][1])
+    left, right = points[peak - 1], points[peak + 1]
+    w_opt, rho_max = vertex
+    far = max((left, right), key=lambda p: abs(p[0] - w_opt))
+    a = (far[1] - rho_max) / (far[0] - w_opt) ** 2
+    step = (right[0] - left[0]) / PARABOLA_STEPS
+    ws = [left[0] + i * step for i in range(PARABOLA_STEPS + 1)]
+    return [(w, rho_max + a * (w - w_opt) ** 2) for w in ws]
+
+
+def compaction_chart(results: Mapping[str, Any]) -> str | None:
+    """Dry density against water content (BS 1377-4:1990 Figure 6 and ASTM D698 presentation,
+    from memory): the compacted points, the parabola through the peak with its vertex, and the
+    0, 5 and 10 % air-voids lines when the engine had a particle density."""
+    points = _points(results.get("compaction_points"), "water_content", "dry_density_mg_m3")
+    if not points:
+        return None
+    series = [charts.Series("Compacted points", points, line=False, marker="circle")]
+    w_opt, rho_max = results.get("optimum_water_content"), results.get("maximum_dry_density_mg_m3")
+    if isinstance(w_opt, int | float) and isinstance(rho_max, int | float) and len(points) >= 3:
+        vertex = (float(w_opt), float(rho_max))
+        series.append(
+            charts.Series("Parabola through the peak", _peak_parabola(points, vertex), marker="none", dash="")
+        )
+        series.append(charts.Series("Maximum dry density", [vertex], line=False, marker="diamond"))
+    lines = results.get("air_voids_lines")
+    if isinstance(lines, Mapping):
+        for key, name, dash in AIR_VOIDS_LINES:
+            line = _points(lines.get(key), "water_content", "dry_density_mg_m3")
+            if line:
+                series.append(charts.Series(name, line, marker="none", dash=dash))
+    return charts.xy_chart(
+        series, title="Compaction curve", x_label="Water content (%)", y_label="Dry density (Mg/m³)"
+    )
+
+
 def charts_for(ev: Evaluation, label: str = "this sample") -> list[str]:
     """Every chart the results allow, as SVG strings, in the order the page shows them."""
     r = ev.results
-    found = (flow_chart(r), plasticity_chart(r, label), grading_chart(r), stress_strain_chart(r))
+    found = (
+        flow_chart(r),
+        plasticity_chart(r, label),
+        grading_chart(r),
+        stress_strain_chart(r),
+        compaction_chart(r),
+    )
     return [svg for svg in found if svg]

@@ -7,7 +7,9 @@ types is exactly what the engine receives, and the engine's refusal of a field c
 that field. Adding a method means adding its sheet here; no template changes.
 
 An input (or section) may depend on a choice made on the same sheet (``When``): the trials of
-an Atterberg set ask for blows with the cup and for cone drops with the fall cone.
+an Atterberg set ask for blows with the cup and for cone drops with the fall cone. A row may hold
+a short list of its own at fixed indices (a compaction point's one or two water-content tins,
+``determinations.0.tare_g``), so that the table, its added rows and its paths stay one level deep.
 """
 
 from __future__ import annotations
@@ -15,7 +17,9 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 from typing import Any
 
+from server.engine.compaction import EFFORTS
 from server.engine.liquid_limit import CONE, LL_METHODS, MULTIPOINT, ONE_POINT
+from server.engine.shrinkage import CONDITIONS as BAR_CONDITIONS
 from server.web.forms import MAX_TEXT, typed_value
 
 
@@ -329,26 +333,113 @@ def _cone_drops(specimen: str, title: str) -> Values:
     )
 
 
+# -- density, compaction and the other S12 methods (DESIGN.md section 8) -------------------------
+
+BAR_CONDITION_NAMES = {
+    "intact": "Intact",
+    "cracked": "Cracked (pieces fitted together)",
+    "curled": "Curled (mean of top and bottom faces)",
+}
+assert set(BAR_CONDITION_NAMES) == set(BAR_CONDITIONS)
+EFFORT_NAMES = {
+    "standard": "Standard (2.5 kg rammer)",
+    "modified": "Modified (4.5 kg rammer)",
+}
+assert set(EFFORT_NAMES) == set(EFFORTS)
+BALANCE_RESOLUTION = Input("balance.resolution_g", "Balance reads to", "g", hint="default 0.01 g")
+PARTICLE_DENSITY_HINT = "blank: from this sample's particle-density test"
+
+
+def _resolution(*inputs: Input) -> Values:
+    """The instruments' resolutions the engine's uncertainty needs (as the vane's sheet asks)."""
+    return Values("Instrument resolution (optional)", (*inputs, BALANCE_RESOLUTION))
+
+
+def _callipers(default: str) -> Input:
+    return Input("length_resolution_mm", "Callipers read to", "mm", hint=f"default {default}")
+
+
+def _tins(path: str) -> tuple[Input, ...]:
+    """A row's water-content tins at ``path`` (a list of mass determinations), as the inputs of
+    the water-content sheet (``MASSES``): the first asked for, a second one optional."""
+    first = tuple(replace(inp, key=f"{path}.0.{inp.key}") for inp in MASSES)
+    second = tuple(
+        replace(
+            inp,
+            key=f"{path}.1.{inp.key}",
+            label=f"2nd {inp.label[0].lower()}{inp.label[1:]}",
+            hint="optional",
+        )
+        for inp in MASSES
+    )
+    return (*first, *second)
+
+
+def _compaction() -> tuple[Section, ...]:
+    efforts = tuple(Option(e, EFFORT_NAMES[e]) for e in EFFORTS)
+    return (
+        Values(
+            "Mould and rammer",
+            (
+                Input("effort", "Compactive effort", kind="choice", options=efforts),
+                Input("mould_volume_cm3", "Mould volume", "cm³", hint="from the mould's calibration"),
+                Input("mould_g", "Mould with base plate", "g"),
+                Input("particle_density_mg_m3", "Particle density", "Mg/m³", hint=PARTICLE_DENSITY_HINT),
+            ),
+            note="The particle density draws the air-voids lines on the chart.",
+        ),
+        Rows(
+            "points",
+            "Compaction points",
+            "point",
+            (
+                Input("mould_soil_g", "Mould + compacted soil", "g"),
+                *_tins("determinations"),
+            ),
+            5,
+            10,
+            note="Each point: the mould with its compacted soil, then the water-content tin of that "
+            "soil. Any order: the points are taken in order of water content.",
+        ),
+        _resolution(),
+    )
+
+
 # Every sheet ends with the test date and the instruments used. The bench fills each tin's empty
 # mass, each instrument's calibration due date and a balance's capacity from the registers
 # (static/bench.js); the engine flags an instrument used after its due date and refuses a mass
 # above the capacity of the balance named (server/engine/equipment.py).
-CONDITIONS: tuple[Section, ...] = (
-    Values("Test date", (Input("tested_on", "Date tested", kind="text", hint="YYYY-MM-DD"),)),
-    Rows(
-        "equipment",
-        "Instruments used",
-        "instrument",
-        (
-            Input("id", "Instrument no.", kind="text"),
-            Input("calibration_due", "Calibration due", kind="text", hint="from the register"),
-            Input("capacity_g", "Capacity", "g", hint="a balance's, from the register"),
-        ),
-        2,
-        8,
-        note="Type an instrument's number: its calibration state comes from the register.",
+TEST_DATE = Values("Test date", (Input("tested_on", "Date tested", kind="text", hint="YYYY-MM-DD"),))
+EQUIPMENT = Rows(
+    "equipment",
+    "Instruments used",
+    "instrument",
+    (
+        Input("id", "Instrument no.", kind="text"),
+        Input("calibration_due", "Calibration due", kind="text", hint="from the register"),
+        Input("capacity_g", "Capacity", "g", hint="a balance's, from the register"),
     ),
+    2,
+    8,
+    note="Type an instrument's number: its calibration state comes from the register.",
 )
+INSTRUMENTS: dict[str, str] = {
+    "particle-density": "the balance, the oven, each pycnometer and the thermometer",
+    "linear-shrinkage": "the shrinkage mould, the oven and the callipers",
+    "density": "the balance, the callipers and the oven",
+    "loss-on-ignition": "the balance, the oven and the furnace",
+    "compaction": "the mould, the rammer, the balance and the oven",
+}
+"""The instruments a method's table of instruments names in its note, where the sheet says."""
+
+
+def _conditions(method: str) -> tuple[Section, ...]:
+    uses = INSTRUMENTS.get(method)
+    if uses is None:
+        return (TEST_DATE, EQUIPMENT)
+    note = f"List {uses} by number: each one's calibration state comes from the register."
+    return (TEST_DATE, replace(EQUIPMENT, note=note))
+
 
 _SHEETS: dict[str, tuple[Section, ...]] = {
     "water-content": (
@@ -474,9 +565,93 @@ _SHEETS: dict[str, tuple[Section, ...]] = {
             note="Needed for a coarse soil with 12 % fines or less: D10, D30, D60, or Cu and Cc.",
         ),
     ),
+    "particle-density": (
+        Rows(
+            "determinations",
+            "Pycnometer determinations",
+            "determination",
+            (
+                Input("pycnometer_g", "Pycnometer, empty", "g"),
+                Input("pycnometer_soil_g", "Pycnometer + dry soil", "g"),
+                Input("pycnometer_soil_water_g", "Pycnometer + soil + water", "g"),
+                Input("pycnometer_water_g", "Pycnometer + water", "g"),
+                Input("temperature_c", "Water temperature", "°C"),
+            ),
+            2,
+            6,
+            (
+                Output(
+                    "Particle density",
+                    "particle_density_determinations",
+                    None,
+                    "Mg/m³",
+                    "particle_density_mg_m3",
+                ),
+            ),
+            note="Oven-dried soil. Fill to the mark for each weighing with water; note its temperature.",
+        ),
+        _resolution(),
+    ),
+    "linear-shrinkage": (
+        Values(
+            "Bar",
+            (
+                Input("mould_length_mm", "Mould length", "mm", hint="inside length"),
+                Input("oven_dry_length_mm", "Oven-dry length of the bar", "mm"),
+                Input(
+                    "condition",
+                    "Condition of the bar",
+                    kind="choice",
+                    options=tuple(Option(c, BAR_CONDITION_NAMES[c]) for c in BAR_CONDITIONS),
+                ),
+            ),
+        ),
+        Values("Instrument resolution (optional)", (_callipers("0.1 mm"),)),
+    ),
+    "density": (
+        Rows(
+            "specimens",
+            "Specimens",
+            "specimen",
+            (
+                Input("mass_g", "Mass", "g"),
+                Input("diameter_mm", "Diameter", "mm"),
+                Input("height_mm", "Height", "mm"),
+            ),
+            1,
+            6,
+            (Output("Bulk density", "bulk_density_determinations", None, "Mg/m³", "bulk_density_mg_m3"),),
+            note="Each specimen a trimmed right cylinder, measured with callipers.",
+        ),
+        _masses_rows("water_content.determinations", "Water content", 2, 6, "water_content_determinations"),
+        Values(
+            "Particle density (optional)",
+            (Input("particle_density_mg_m3", "Particle density", "Mg/m³", hint=PARTICLE_DENSITY_HINT),),
+            note="Gives the void ratio, the porosity and the degree of saturation.",
+        ),
+        _resolution(_callipers("0.01 mm")),
+    ),
+    "loss-on-ignition": (
+        Values("Furnace", (Input("furnace_c", "Furnace temperature", "°C", hint="440 °C usually"),)),
+        Rows(
+            "determinations",
+            "Determinations",
+            "determination",
+            (
+                Input("crucible_g", "Crucible, empty", "g"),
+                Input("crucible_dry_g", "Crucible + oven-dry soil", "g"),
+                Input("crucible_ignited_g", "Crucible + ignited soil", "g"),
+            ),
+            2,
+            6,
+            (Output("Organic content", "organic_content_determinations", rounding="organic_content"),),
+        ),
+        _resolution(),
+    ),
+    "compaction": _compaction(),
 }
 SHEETS: dict[str, tuple[Section, ...]] = {
-    method: (*sections, *CONDITIONS) for method, sections in _SHEETS.items()
+    method: (*sections, *_conditions(method)) for method, sections in _SHEETS.items()
 }
 
 # The results panel, in this order, each shown when the engine gave it.
@@ -514,6 +689,17 @@ RESULT_LINES: tuple[ResultLine, ...] = (
     ResultLine("remoulded_strength_kpa", "Remoulded strength", "kPa"),
     ResultLine("sensitivity", "Sensitivity St"),
     ResultLine("sensitivity_class", "Sensitivity"),
+    ResultLine("particle_density_mg_m3", "Particle density ρs", "Mg/m³"),
+    ResultLine("specific_gravity", "Specific gravity Gs at 20 °C"),
+    ResultLine("linear_shrinkage", "Linear shrinkage LS", "%"),
+    ResultLine("bulk_density_mg_m3", "Bulk density ρ", "Mg/m³"),
+    ResultLine("dry_density_mg_m3", "Dry density ρd", "Mg/m³"),
+    ResultLine("void_ratio", "Void ratio e"),
+    ResultLine("porosity", "Porosity n"),
+    ResultLine("degree_of_saturation", "Degree of saturation Sr", "%"),
+    ResultLine("organic_content", "Organic content (loss on ignition)", "%"),
+    ResultLine("maximum_dry_density_mg_m3", "Maximum dry density", "Mg/m³"),
+    ResultLine("optimum_water_content", "Optimum water content", "%"),
 )
 
 

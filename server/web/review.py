@@ -215,7 +215,7 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
     row = load_row(request, test_id)
     test = row.test
     readings = test.readings or {}
-    ev = bench.preview(test.method, readings)
+    ev = bench.preview(database(request), test, readings)
     settings = request.app.state.settings
     with database(request).session() as s:
         chain = review_queries.revisions(s, test_id)

@@ -99,6 +99,10 @@ METHODS_BY_STANDARDS: dict[str, tuple[str, ...]] = {
         "classification",
         "vane",
         "unconfined-compression",
+        "particle-density",
+        "density",
+        "loss-on-ignition",
+        "compaction",
     ),
     "bs-iso": (
         "water-content",
@@ -112,6 +116,11 @@ METHODS_BY_STANDARDS: dict[str, tuple[str, ...]] = {
         "vane",
         "fall-cone-strength",
         "unconfined-compression",
+        "particle-density",
+        "linear-shrinkage",
+        "density",
+        "loss-on-ignition",
+        "compaction",
     ),
 }
 """The methods a job's family of standards offers first, in the order a lab lists them: the

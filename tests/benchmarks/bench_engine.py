@@ -8,8 +8,11 @@ Each sample is a fictional soil with a complete set of readings for the methods 
 runs on it: ``atterberg`` (water content, one of the three liquid-limit methods, plastic limit,
 clay fraction and fractions), ``grading`` (sieving with a hydrometer analysis), ``vane`` and
 ``unconfined-compression`` (undisturbed and remoulded), and ``classification`` (fed from the
-grading and the reported limits, as the services would feed it). Methods missing from the
-registry are skipped and named.
+grading and the reported limits, as the services would feed it), then the S12 methods:
+``particle-density`` (two pycnometer determinations), ``linear-shrinkage``, ``density`` (two
+specimens, with a particle density), ``loss-on-ignition`` (two crucibles) and ``compaction`` (five
+points typed out of order, with air-voids lines). Methods missing from the registry are skipped
+and named.
 
 The readings are generated (fixed seed) and prepared before timing: the classification
 readings come from an untimed pass through ``grading`` and ``atterberg``, which also checks that
@@ -42,7 +45,17 @@ from server.engine.indices import reported_limit  # noqa: E402
 
 Readings = dict[str, Any]
 TARGET_MS = 0.5
-METHOD_ORDER = ("atterberg", "grading", "vane", "unconfined-compression", "classification")
+"""The target is for the index set a sample's limits and classification need (the first five
+methods); the density, shrinkage, organic content and compaction methods are timed beside it."""
+INDEX_SET = ("atterberg", "grading", "vane", "unconfined-compression", "classification")
+METHOD_ORDER = (
+    *INDEX_SET,
+    "particle-density",
+    "linear-shrinkage",
+    "density",
+    "loss-on-ignition",
+    "compaction",
+)
 
 
 # -- generation (fictional soils; none of this is timed) --------------------------------------------
@@ -156,6 +169,45 @@ def _ucs_specimen(qu: float, strain_at_peak: float) -> Readings:
     return {"diameter_mm": d, "height_mm": h, "readings": readings}
 
 
+def _pycnometer(rng: random.Random, gs: float) -> Readings:
+    """A small-pycnometer determination of solids of specific gravity ``gs`` at the temperature of the
+    water: m3 = m4 + ms (1 - 1/Gt) (ASTM D854 eq. 1 rearranged), masses to 0.01 g."""
+    m1 = rng.uniform(28.0, 32.0)
+    ms = rng.uniform(9.0, 11.0)
+    m4 = m1 + rng.uniform(49.0, 51.0)
+    return {
+        "pycnometer_g": round(m1, 2),
+        "pycnometer_soil_g": round(m1 + ms, 2),
+        "pycnometer_soil_water_g": round(m4 + ms * (1.0 - 1.0 / gs), 2),
+        "pycnometer_water_g": round(m4, 2),
+        "temperature_c": round(rng.uniform(19.0, 23.0), 1),
+    }
+
+
+def _compaction(rng: random.Random, gs: float, pl: float) -> Readings:
+    """Five points in a 944 cm³ mould about an optimum near the plastic limit, dry density a parabola."""
+    optimum = max(8.0, pl - rng.uniform(2.0, 5.0))
+    mdd = rng.uniform(1.65, 1.95)
+    points = []
+    for step in (-4.0, -2.0, 0.0, 2.0, 4.0):
+        w = optimum + step + rng.uniform(-0.5, 0.5)
+        rho_d = mdd - 0.004 * (w - optimum) ** 2
+        points.append(
+            {
+                "mould_soil_g": round(4250.0 + 944.0 * rho_d * (1.0 + w / 100.0), 1),
+                "determinations": [_determination(rng, w)],
+            }
+        )
+    rng.shuffle(points)
+    return {
+        "effort": "standard",
+        "mould_volume_cm3": 944.0,
+        "mould_g": 4250.0,
+        "particle_density_mg_m3": round(gs, 2),
+        "points": points,
+    }
+
+
 def generate(n: int, seed: int) -> list[dict[str, Readings]]:
     """Raw readings of ``n`` fictional samples (classification is added by ``prepare``)."""
     rng = random.Random(seed)
@@ -170,6 +222,9 @@ def generate(n: int, seed: int) -> list[dict[str, Readings]]:
         clay = rng.uniform(0.15, 0.6) * fines
         cu = rng.uniform(10.0, 120.0)
         st = rng.uniform(1.5, 8.0)
+        gs = rng.uniform(2.60, 2.80)
+        rho = gs * (1.0 + w / 100.0) / (1.0 + gs * w / 100.0 / rng.uniform(0.9, 0.99))  # saturation 90-99 %
+        loi = rng.uniform(0.1, 1.0)  # g lost from 10 g of dry soil: 1 % to 10 % organic
         samples.append(
             {
                 "atterberg": {
@@ -188,6 +243,32 @@ def generate(n: int, seed: int) -> list[dict[str, Readings]]:
                     "remoulded": _ucs_specimen(2.0 * cu / st, rng.uniform(0.08, 0.12)),
                     "load_resolution_n": 0.1,
                 },
+                "particle-density": {"determinations": [_pycnometer(rng, gs), _pycnometer(rng, gs)]},
+                "linear-shrinkage": {  # LS about 0.47 PI (common practice, from memory)
+                    "mould_length_mm": 140.0,
+                    "oven_dry_length_mm": round(140.0 * (1.0 - 0.0047 * (ll - pl)), 1),
+                    "condition": "intact",
+                },
+                "density": {
+                    "specimens": [
+                        {"mass_g": round(rho * v, 2), "diameter_mm": 38.0, "height_mm": 76.0}
+                        for v in (math.pi * 38.0**2 * 76.0 / 4000.0,) * 2
+                    ],
+                    "water_content": {"determinations": [_determination(rng, w)]},
+                    "particle_density_mg_m3": round(gs, 2),
+                },
+                "loss-on-ignition": {
+                    "determinations": [
+                        {
+                            "crucible_g": c,
+                            "crucible_dry_g": c + 10.0,
+                            "crucible_ignited_g": round(c + 10.0 - loi, 3),
+                        }
+                        for c in (round(rng.uniform(18.0, 24.0), 3), round(rng.uniform(18.0, 24.0), 3))
+                    ],
+                    "furnace_c": 440,
+                },
+                "compaction": _compaction(rng, gs, pl),
             }
         )
     return samples
@@ -220,6 +301,9 @@ def prepare(samples: list[dict[str, Readings]], methods: list[str]) -> None:
         sample["classification"] = {**limits, **fractions}
         if "classification" in methods:
             _accepted("classification", sample["classification"], i)
+        for m in ("particle-density", "linear-shrinkage", "density", "loss-on-ignition", "compaction"):
+            if m in methods:
+                _accepted(m, sample[m], i)
 
 
 def _accepted(method_id: str, readings: Readings, i: int) -> dict[str, Any]:
@@ -304,10 +388,15 @@ def main(argv: list[str] | None = None) -> int:
         f"{'full set per sample':<24}{mean_ms * 1e3:>10.1f}{statistics.median(per_sample) / 1e3:>11.1f}"
         f"{q[94] / 1e3:>9.1f}{100.0:>7.1f}%"
     )
-    verdict = "within" if mean_ms < TARGET_MS else "OVER"
+    index_ms = sum(statistics.fmean(per_method[m]) for m in methods if m in INDEX_SET) / 1e6
+    verdict = "within" if index_ms < TARGET_MS else "OVER"
     print()
-    print(f"time per sample: {mean_ms:.3f} ms (mean), target {TARGET_MS} ms: {verdict} target")
-    return 1 if args.check and mean_ms >= TARGET_MS else 0
+    print(
+        f"time per sample, the index set ({', '.join(INDEX_SET)}): {index_ms:.3f} ms (mean), "
+        f"target {TARGET_MS} ms: {verdict} target"
+    )
+    print(f"time per sample, every method above: {mean_ms:.3f} ms (mean)")
+    return 1 if args.check and index_ms >= TARGET_MS else 0
 
 
 if __name__ == "__main__":

@@ -16,7 +16,7 @@ from server.engine import METHODS, evaluate
 from server.engine.readings import as_entered
 from server.services.readings_paths import tidy, with_changes
 from server.web.bench import sheet_texts
-from server.web.bench_forms import SHEETS, Input, Option, Rows, Values, input_at
+from server.web.bench_forms import RESULT_LINES, SHEETS, Input, Option, Rows, Values, input_at
 
 
 def leaves(node: Any, prefix: str = "") -> dict[str, Any]:
@@ -121,3 +121,55 @@ def test_every_sheet_asks_for_the_test_date_and_the_instruments_used() -> None:
         assert input_at(method, "tested_on") is not None, method
         assert input_at(method, "equipment.0.id") is not None, method
         assert input_at(method, "equipment.0.calibration_due") is not None, method
+
+
+S12_METHODS = ("particle-density", "linear-shrinkage", "density", "loss-on-ignition", "compaction")
+
+
+def _rows(method: str, path: str) -> Rows:
+    return next(s for s in SHEETS[method] if isinstance(s, Rows) and s.path == path)
+
+
+def test_each_compaction_point_asks_for_its_tins_as_the_water_content_sheet_does() -> None:
+    points = _rows("compaction", "points")
+    by_key = {inp.key: inp for inp in points.inputs}
+    tins = _rows("water-content", "determinations").inputs
+    for inp in tins:
+        first = by_key[f"determinations.0.{inp.key}"]
+        assert (first.label, first.unit, first.kind) == (inp.label, inp.unit, inp.kind)
+        second = by_key[f"determinations.1.{inp.key}"]
+        assert (second.unit, second.kind, second.hint) == (inp.unit, inp.kind, "optional")
+    assert input_at("compaction", "points.9.determinations.1.dry_tare_g") is not None
+    assert input_at("compaction", "points.10.determinations.0.tare_g") is None  # ten points at most
+    assert input_at("compaction", "points.0.determinations.2.tare_g") is None  # two tins a point
+
+
+def test_the_density_sheet_takes_its_water_content_as_the_water_content_sheet_does() -> None:
+    nested = _rows("density", "water_content.determinations")
+    assert nested.inputs == _rows("water-content", "determinations").inputs
+    assert nested.outputs == _rows("water-content", "determinations").outputs
+
+
+def test_the_bar_condition_and_the_compactive_effort_are_choices_of_the_engines_words() -> None:
+    condition = input_at("linear-shrinkage", "condition")
+    effort = input_at("compaction", "effort")
+    assert condition is not None and condition.kind == "choice"
+    assert [o.value for o in condition.options] == ["intact", "cracked", "curled"]  # DESIGN.md section 8
+    assert effort is not None and effort.kind == "choice"
+    assert [o.value for o in effort.options] == ["standard", "modified"]  # DESIGN.md section 8
+    assert effort.value("modified") == "modified" and effort.value("heavy") == "heavy"  # the engine refuses
+
+
+@pytest.mark.parametrize("method", S12_METHODS)
+def test_every_number_the_new_methods_give_has_its_line_on_the_results_panel(method: str) -> None:
+    lines = {line.key for line in RESULT_LINES}
+    results = evaluate(method, EXAMPLES[method]).results
+    numbers = [k for k, v in results.items() if isinstance(v, int | float) and not isinstance(v, bool)]
+    assert numbers and not [k for k in numbers if k not in lines]
+
+
+@pytest.mark.parametrize("method", S12_METHODS)
+def test_the_new_sheets_name_the_instruments_to_list(method: str) -> None:
+    equipment = _rows(method, "equipment")
+    assert equipment.note.startswith("List the ") and "register" in equipment.note
+    assert input_at(method, "balance.resolution_g") is not None or method == "linear-shrinkage"
