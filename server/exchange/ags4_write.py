@@ -13,7 +13,15 @@ units, data types and heading order are read from that dictionary file here, not
   the soil is non-plastic), GRAG and GRAT (grading and its curve, sieve and hydrometer points),
   LVAN (laboratory vane), LFCN (fall cone strength: the dictionary's own group for it), LUCT
   (unconfined compression, one row per specimen), and LCLS, a group of our own defined in DICT,
-  for the USCS and AASHTO classification, which the 4.1.1 dictionary has no headings for.
+  for the USCS and AASHTO classification, which the 4.1.1 dictionary has no headings for;
+- for the S12 methods the dictionary's own groups: LPDN (particle density, LPDN_TYPE "SMALL
+  PYK"), LDEN (bulk and dry density, "LINEAR" measurement of a "CYLINDER"), LLIN (linear
+  shrinkage), GCHM with determinand "LOI" of the total solid (loss on ignition: the 4.1.1
+  dictionary has no group of its own for it; GCHM_UNIT, type PU, is listed in UNIT as Rule 15
+  asks), and CMPG with a CMPT row per point (compaction; CMPG_TYPE "2.5KG" or "4.5KG" by the
+  rammer of the standard or modified effort). What the dictionary has no heading for (the
+  specific gravity, void ratio, porosity and saturation, the bar's condition, the furnace
+  temperature) goes in the group's remarks, never under a heading of our own.
 
 Values are the report's: rounded by the rule the engine names for each result key
 (``server.engine.rounding``) and then written in the heading's data type (a clay fraction
@@ -50,7 +58,7 @@ from functools import cache
 from pathlib import Path
 from typing import Any
 
-from server.engine.readings import as_number
+from server.engine.readings import as_entered, as_number
 from server.engine.rounding import DECIMALS, reported
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES
 
@@ -743,6 +751,140 @@ def _lcls(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) ->
     rows.add("LCLS", cells.row)
 
 
+def _remarks(*parts: str) -> str:
+    """A REM cell from the parts that say something, joined as sentences."""
+    return "; ".join(p for p in parts if p)
+
+
+def _lpdn(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) -> None:
+    """LPDN: the mean particle density (type XN, so the report's text) by the small pycnometer.
+    The dictionary has no heading for the specific gravity: it goes in the remarks."""
+    r = test.results
+    rho_s = _number(r.get("particle_density_mg_m3"))
+    if rho_s is None:
+        return
+    cells = _Cells("LPDN", _keys(sample, rows.next_specimen("LPDN", sample.code)))
+    cells.text("LPDN_PDEN", reported("particle_density_mg_m3", rho_s))
+    cells.text("LPDN_TYPE", "SMALL PYK")
+    determinations = [d for d in r.get("particle_density_determinations") or [] if _number(d) is not None]
+    gs = _number(r.get("specific_gravity"))
+    cells.text(
+        "LPDN_REM",
+        _remarks(
+            f"Mean of {len(determinations)} determinations" if len(determinations) > 1 else "",
+            f"specific gravity at 20 DegC {reported('specific_gravity', gs)}" if gs is not None else "",
+        ),
+    )
+    _common(cells, ctx, test)
+    rows.add("LPDN", cells.row)
+
+
+def _lden(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) -> None:
+    """LDEN: bulk and dry density by linear measurement of cylinders, with the water content.
+    The dictionary has no headings for void ratio, porosity and saturation: remarks."""
+    r = test.results
+    bulk = _number(r.get("bulk_density_mg_m3"))
+    if bulk is None:
+        return
+    cells = _Cells("LDEN", _keys(sample, rows.next_specimen("LDEN", sample.code)))
+    cells.text("LDEN_TYPE", "LINEAR")
+    cells.text("LDEN_SMTY", "CYLINDER")
+    w = _number(r.get("water_content"))
+    if w is not None:
+        cells.text("LDEN_MC", reported("water_content", w))
+    cells.number("LDEN_BDEN", bulk, "bulk_density_mg_m3")
+    cells.number("LDEN_DDEN", r.get("dry_density_mg_m3"), "dry_density_mg_m3")
+    specimens = [d for d in r.get("bulk_density_determinations") or [] if _number(d) is not None]
+    voids = [
+        f"{label} {reported(key, value)}{unit}"
+        for key, label, unit in (
+            ("void_ratio", "void ratio", ""),
+            ("porosity", "porosity", ""),
+            ("degree_of_saturation", "degree of saturation", " %"),
+        )
+        if (value := _number(r.get(key))) is not None
+    ]
+    rho_s = _number(test.readings.get("particle_density_mg_m3"))
+    cells.text(
+        "LDEN_REM",
+        _remarks(
+            f"Bulk density the mean of {len(specimens)} specimens" if len(specimens) > 1 else "",
+            ", ".join(voids) + f" (particle density {reported('particle_density_mg_m3', rho_s)} Mg/m3)"
+            if voids and rho_s is not None
+            else "",
+        ),
+    )
+    _common(cells, ctx, test)
+    rows.add("LDEN", cells.row)
+
+
+_BAR_CONDITIONS = {"cracked": "Bar cracked while drying", "curled": "Bar curled while drying"}
+
+
+def _llin(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) -> None:
+    """LLIN: linear shrinkage (0DP), LLIN_425 from the sample's grading, the bar's condition."""
+    ls = _number(test.results.get("linear_shrinkage"))
+    if ls is None:
+        return
+    cells = _Cells("LLIN", _keys(sample, rows.next_specimen("LLIN", sample.code)))
+    cells.number("LLIN_LS", ls, "linear_shrinkage")
+    cells.number("LLIN_425", _percent_passing_425(ctx, sample), "percent_passing")
+    condition = test.readings.get("condition")
+    cells.text("LLIN_REM", _BAR_CONDITIONS.get(str(condition), ""))
+    _common(cells, ctx, test)
+    rows.add("LLIN", cells.row)
+
+
+def _gchm_loss_on_ignition(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) -> None:
+    """GCHM, determinand LOI ("Loss on ignition (as %)" in the dictionary's list), of the total
+    solid, in %; the dictionary has no heading for the furnace temperature: remarks."""
+    organic = _number(test.results.get("organic_content"))
+    if organic is None:
+        return
+    cells = _Cells("GCHM", _keys(sample, rows.next_specimen("GCHM", sample.code)))
+    cells.text("GCHM_CODE", "LOI")
+    cells.text("GCHM_TTYP", "SOLID_TOTAL")
+    cells.number("GCHM_RESL", organic, "organic_content")
+    cells.text("GCHM_UNIT", "%")
+    cells.text("GCHM_NAME", "Organic content by loss on ignition")
+    if _number(test.readings.get("furnace_c")) is not None:
+        cells.text("GCHM_REM", f"Ignited at {as_entered(test.readings.get('furnace_c'))} DegC")
+    _common(cells, ctx, test)
+    rows.add("GCHM", cells.row)
+
+
+_COMPACTION_TYPES = {"standard": "2.5KG", "modified": "4.5KG"}  # the rammer, AGS4 ABBR CMPG_TYPE
+
+
+def _cmpg(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) -> None:
+    """CMPG (the test: rammer, particle density, maximum and optimum) and a CMPT row per point,
+    numbered in order of water content as the engine sorts them."""
+    r, rd = test.results, test.readings
+    points = [p for p in r.get("compaction_points") or [] if isinstance(p, Mapping)]
+    if not points:
+        return
+    keys = {**_keys(sample, rows.next_specimen("CMPG", sample.code)), "CMPG_TESN": "1"}
+    cells = _Cells("CMPG", keys)
+    cells.text("CMPG_TYPE", _COMPACTION_TYPES.get(str(rd.get("effort")), ""))
+    rho_s = _number(rd.get("particle_density_mg_m3"))
+    if rho_s is not None:
+        cells.text("CMPG_PDEN", reported("particle_density_mg_m3", rho_s))
+    maximum = _number(r.get("maximum_dry_density_mg_m3"))
+    cells.number("CMPG_MAXD", maximum, "maximum_dry_density_mg_m3")
+    cells.number("CMPG_MCOP", r.get("optimum_water_content"), "optimum_water_content")
+    if maximum is None:
+        cells.text("CMPG_REM", "No maximum dry density: the points do not bracket a peak")
+    _common(cells, ctx, test)
+    rows.add("CMPG", cells.row)
+    for number, point in enumerate(points, start=1):
+        w = _number(point.get("water_content"))
+        row = _Cells("CMPT", {**keys, "CMPT_TESN": str(number)})
+        if w is not None:
+            row.text("CMPT_MC", reported("water_content", w))
+        row.number("CMPT_DDEN", point.get("dry_density_mg_m3"), "dry_density_mg_m3")
+        rows.add("CMPT", row.row)
+
+
 Builder = Callable[[_Context, _Rows, TestRecord, SampleRecord], None]
 
 # Which groups each method's results go to, in the order written.
@@ -760,11 +902,31 @@ METHOD_GROUPS: dict[str, tuple[Builder, ...]] = {
     "fall-cone-strength": (_lfcn,),
     "unconfined-compression": (_luct,),
     "classification": (_lcls,),
+    "particle-density": (_lpdn,),
+    "density": (_lden,),
+    "linear-shrinkage": (_llin,),
+    "loss-on-ignition": (_gchm_loss_on_ignition,),
+    "compaction": (_cmpg,),
 }
 EXPORTED_METHODS = frozenset(METHOD_GROUPS)
 """Methods whose results the file carries; tests of any other method are left out."""
 
-RESULT_GROUPS = ("LNMC", "LLPL", "GRAG", "GRAT", "LVAN", "LFCN", "LUCT", "LCLS")
+RESULT_GROUPS = (
+    "LNMC",
+    "LLPL",
+    "GRAG",
+    "GRAT",
+    "LVAN",
+    "LFCN",
+    "LUCT",
+    "LCLS",
+    "LPDN",
+    "LDEN",
+    "LLIN",
+    "GCHM",
+    "CMPG",
+    "CMPT",
+)
 
 
 # -- groups --------------------------------------------------------------------------------------
@@ -902,10 +1064,18 @@ def _described_in(table: dict[str, str], what: str, code: str) -> str:
 
 
 def _units_and_types(groups: Sequence[_Group]) -> tuple[_Group, _Group]:
-    """UNIT and TYPE: every unit and data type the file uses, the DICT rows' own included
-    (Rules 15 and 17), described as the dictionary describes them."""
+    """UNIT and TYPE: every unit and data type the file uses, the DICT rows' own and the
+    values of PU headings included (Rules 15 and 17), described as the dictionary describes them."""
     table = standard_dictionary()
     units = {h.unit for g in groups for h in g.headings if h.unit}
+    units |= {
+        row[h.name]
+        for g in groups
+        for h in g.headings
+        if h.data_type == "PU"
+        for row in g.rows
+        if row.get(h.name)
+    }
     units |= {row["DICT_UNIT"] for g in groups if g.name == "DICT" for row in g.rows if row.get("DICT_UNIT")}
     types = {h.data_type for g in groups for h in g.headings} | {"X"}  # UNIT's and TYPE's own
     types |= {row["DICT_DTYP"] for g in groups if g.name == "DICT" for row in g.rows if row.get("DICT_DTYP")}

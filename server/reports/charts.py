@@ -29,6 +29,7 @@ __all__ = [
     "ProfileRow",
     "Series",
     "activity_chart_svg",
+    "compaction_chart_svg",
     "depth_profile_svg",
     "flow_curve_svg",
     "grading_chart_svg",
@@ -772,4 +773,113 @@ def activity_chart_svg(
                 class_="point")
         svg.text(x + 6, y - 4, lab, font_size=_n(SMALL), class_="point-label")
     svg.text(left, top - 9, "Activity chart (Skempton 1953)", font_weight="bold")
+    return svg.render()
+
+
+# -- compaction curve --------------------------------------------------------------------------
+
+
+def parabola_through(three: Sequence[tuple[float, float]], x: float) -> float:
+    """The value at ``x`` of the parabola through three points (Lagrange's form): the curve the
+    engine's maximum is the vertex of (``server.engine.compaction``), drawn through its points."""
+    (x0, y0), (x1, y1), (x2, y2) = three
+    return (
+        y0 * (x - x1) * (x - x2) / ((x0 - x1) * (x0 - x2))
+        + y1 * (x - x0) * (x - x2) / ((x1 - x0) * (x1 - x2))
+        + y2 * (x - x0) * (x - x1) / ((x2 - x0) * (x2 - x1))
+    )
+
+
+def _clipped(points: Sequence[tuple[float, float]], lo: float, hi: float) -> list[tuple[float, float]]:
+    """The part of a line that falls inside lo <= y <= hi, its ends cut where it crosses them.
+    An air-voids line falls steadily with water content, so the part inside is one run."""
+    out: list[tuple[float, float]] = []
+    for (xa, ya), (xb, yb) in zip(points, points[1:], strict=False):
+        for x, y, other_x, other_y in ((xa, ya, xb, yb), (xb, yb, xa, ya)):
+            if lo <= y <= hi:
+                if (x, y) not in out:
+                    out.append((x, y))
+            else:
+                edge = hi if y > hi else lo
+                if min(y, other_y) <= edge <= max(y, other_y) and y != other_y:
+                    cut = (x + (edge - y) * (other_x - x) / (other_y - y), edge)
+                    if cut not in out:
+                        out.append(cut)
+    return sorted(out)
+
+
+AIR_VOIDS_DASHES = {"0": "", "5": "6 3", "10": "2 2"}  # 0 % solid; the others by dash, never colour
+
+
+def compaction_chart_svg(
+    points: Sequence[tuple[float, float]],
+    *,
+    peak: tuple[float, float] | None = None,
+    peak_points: Sequence[tuple[float, float]] = (),
+    air_voids: Mapping[str, Sequence[tuple[float, float]]] | None = None,
+    width: float = 330.0,
+    height: float = 250.0,
+) -> str:
+    """Dry density (Mg/m³) against water content (%) of a compaction test.
+
+    ``points`` are the engine's ``compaction_points`` in order of water content; ``peak`` is its
+    (optimum water content, maximum dry density), or None when no maximum is claimed: then the
+    points are only joined. ``peak_points`` are the highest point and its neighbours: between them
+    the curve is the parabola through the three (whose vertex is the maximum), elsewhere straight
+    from point to point. ``air_voids`` maps "0", "5", "10" (% air voids) to the engine's lines
+    (``air_voids_lines``), drawn clipped to the plot and labelled at their wet end (BS 1377-4:1990
+    Figure 6 draws the curve with them, common practice).
+    """
+    lines = {va: [(x, y) for x, y in pts if _num(x) is not None and _num(y) is not None]
+             for va, pts in (air_voids or {}).items()}
+    clean = [(x, y) for x, y in points if _num(x) is not None and _num(y) is not None]
+    svg = _Svg(width, height, "Compaction curve")
+    left, right, bottom, top = _box(width, height)
+    xs = [x for x, _ in clean] or [0.0, 20.0]
+    # The air-voids lines fall with water content: their wet ends sit near the points, which is the
+    # part a reader compares; above the points they are cut at the top of the plot.
+    ys = [y for _, y in clean] + [min(y for _, y in pts) for pts in lines.values() if pts]
+    if peak is not None:
+        ys.append(peak[1])
+    ys = ys or [1.5, 2.0]
+    xa = linear_axis(min(xs) - 1.0, max(xs) + 3.5, left, right, target=6)  # room for the lines' names
+    ya = linear_axis(min(ys) - 0.02, max(ys) + 0.03, bottom, top, target=5)
+    _frame(svg, xa, ya, "Water content, w (%)", "Dry density, ρd (Mg/m³)")
+    for va, pts in lines.items():
+        shown = _clipped([p for p in pts if xa.contains(p[0])], ya.lo, ya.hi)
+        if len(shown) < 2:
+            continue
+        attrs: dict[str, object] = {"stroke": INK, "stroke_width": "0.9", "class_": "air-voids"}
+        if AIR_VOIDS_DASHES.get(va, "4 2"):
+            attrs["stroke_dasharray"] = AIR_VOIDS_DASHES.get(va, "4 2")
+        svg.polyline([(xa.to_px(x), ya.to_px(y)) for x, y in shown], **attrs)
+        x_end, y_end = shown[-1]
+        svg.text(xa.to_px(x_end) + 3, ya.to_px(y_end) + 3, f"{va} % air voids", font_size=_n(SMALL - 1),
+                 class_="air-voids-label")
+    curve: list[tuple[float, float]] = []
+    if peak is not None and len(peak_points) == 3:
+        a, b = peak_points[0][0], peak_points[2][0]
+        curve += [(x, y) for x, y in clean if x < a]
+        steps = [a + (b - a) * i / 24 for i in range(25)]
+        curve += [(x, parabola_through(peak_points, x)) for x in steps]
+        curve += [(x, y) for x, y in clean if x > b]
+    else:
+        curve = list(clean)
+    if len(curve) > 1:
+        svg.polyline([(xa.to_px(x), ya.to_px(y)) for x, y in curve], stroke=INK, stroke_width="1.3",
+                     class_="compaction-curve", **({} if peak is not None else {"stroke_dasharray": "4 3"}))
+    for x, y in clean:
+        _marker(svg, "circle", xa.to_px(x), ya.to_px(y))
+    if peak is not None:
+        px, py = xa.to_px(peak[0]), ya.to_px(peak[1])
+        svg.polyline([(px, bottom), (px, py), (left, py)], stroke=INK, stroke_width="0.9",
+                     stroke_dasharray="4 3", class_="maximum-marker")
+        _marker(svg, "cross", px, py, 3.2)
+        label = (f"ρd,max = {reported('maximum_dry_density_mg_m3', peak[1])} Mg/m³, "
+                 f"wopt = {reported('optimum_water_content', peak[0])} %")
+    else:
+        label = "no maximum: the peak is not bracketed"
+    if clean:
+        svg.text(right, top - 9, label, text_anchor="end", font_size=_n(SMALL), class_="maximum-label")
+    svg.text(left, top - 9, "Compaction", font_weight="bold")
     return svg.render()

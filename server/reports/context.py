@@ -26,12 +26,13 @@ from typing import Any
 
 from server.engine.indices import activity as activity_of
 from server.engine.plasticity_chart import chart_symbol
-from server.engine.readings import as_entered
+from server.engine.readings import as_entered, as_number
 from server.engine.rounding import reported, round_half_up
 from server.reports.charts import (
     ProfileRow,
     Series,
     activity_chart_svg,
+    compaction_chart_svg,
     depth_profile_svg,
     flow_curve_svg,
     grading_chart_svg,
@@ -245,6 +246,9 @@ class TestSection:
     flags: tuple[FlagLine, ...]
     approval: str = ""  # "name, role, signed at" of the test revision's approval
     first_of_sample: bool = True  # starts a new page; a sample's further tests follow on
+    result_tables: tuple[Table, ...] = ()  # results with a row each (compaction points)
+    notes: tuple[str, ...] = ()  # how the results were formed, what they do not say
+    organic: tuple[ResultLine, ...] = ()  # beside a USCS group: the same sample's loss on ignition
 
 
 @dataclass(frozen=True)
@@ -362,14 +366,31 @@ _OTHER_LABELS: dict[str, tuple[str, str]] = {
     "strain_at_failure_pct": ("Strain at failure", "%"),
     "remoulded_strain_at_failure_pct": ("Remoulded strain at failure", "%"),
     "sensitivity_class": ("Sensitivity class (Skempton & Northey 1952)", ""),
+    # S12 methods (DESIGN.md section 8): densities in Mg/m³, porosity as a fraction
+    "particle_density_mg_m3": ("Particle density, ρs", "Mg/m³"),
+    "specific_gravity": ("Specific gravity of the solids at 20 °C, Gs", ""),
+    "bulk_density_mg_m3": ("Bulk density, ρ", "Mg/m³"),
+    "dry_density_mg_m3": ("Dry density, ρd", "Mg/m³"),
+    "void_ratio": ("Void ratio, e", ""),
+    "porosity": ("Porosity, n (fraction)", ""),
+    "degree_of_saturation": ("Degree of saturation, Sr", "%"),
+    "linear_shrinkage": ("Linear shrinkage, LS", "%"),
+    "organic_content": ("Organic content by loss on ignition, of the dry mass", "%"),
+    "maximum_dry_density_mg_m3": ("Maximum dry density, ρd,max", "Mg/m³"),
+    "optimum_water_content": ("Optimum water content, wopt", "%"),
+    "bs_plasticity_symbol": ("Plasticity chart symbol (BS 5930)", ""),
+    "bs_plasticity_term": ("Plasticity term (BS 5930)", ""),
+    "oven_dried_ll_ratio": ("Liquid limit oven-dried / not dried", ""),
+    "organic": ("Organic by the liquid-limit ratio (ASTM D2487: below 0.75)", ""),
 }
 _NP_KEYS = ("liquid_limit", "plastic_limit", "plasticity_index")
 _NOT_SHOWN = {
     "interpretation", "plasticity_chart", "flow_curve", "nonplastic", "uncertainty", "uscs_symbol",
-    "uscs_name", "aashto_group", "group_index", "liquid_limit_method",
+    "uscs_name", "aashto_group", "group_index", "liquid_limit_method", "air_voids_lines", "zero_air_voids",
+    "compaction_points",
 }
 _UNIT_SUFFIXES = (("_kpa", "kPa"), ("_nm", "N·m"), ("_mm", "mm"), ("_g", "g"), ("_m", "m"), ("_n", "N"),
-                  ("_c", "°C"), ("_min", "min"), ("_pct", "%"))
+                  ("_c", "°C"), ("_min", "min"), ("_pct", "%"), ("_mg_m3", "Mg/m³"), ("_cm3", "cm³"))
 _COLUMN_LABELS = {
     "container": "Container",
     "blows": "Blows, N",
@@ -378,7 +399,30 @@ _COLUMN_LABELS = {
     "wet_tare_g": "Wet soil + tare (g)",
     "dry_tare_g": "Dry soil + tare (g)",
 }
+_COLUMN_LABELS |= {  # the S12 readings (DESIGN.md section 8), in the order they are typed
+    "pycnometer_g": "Pycnometer, m1 (g)",
+    "pycnometer_soil_g": "+ dry soil, m2 (g)",
+    "pycnometer_soil_water_g": "+ soil + water, m3 (g)",
+    "pycnometer_water_g": "+ water, m4 (g)",
+    "crucible_g": "Crucible (g)",
+    "crucible_dry_g": "+ dry soil (g)",
+    "crucible_ignited_g": "+ ignited soil (g)",
+    "mould_soil_g": "Mould + soil (g)",
+    "mass_g": "Mass (g)",
+    "diameter_mm": "Diameter (mm)",
+    "height_mm": "Height (mm)",
+}
+# Columns in this order, the rest after them as stored: PostgreSQL's JSONB keeps no key order.
 _COLUMN_ORDER = tuple(_COLUMN_LABELS)
+# A computed column beside the rows of a readings list: (method, list) -> (result key holding one
+# value per row, column heading, the key whose rounding applies), as each water content is shown.
+_PER_ROW: dict[tuple[str, str], tuple[str, str, str]] = {
+    ("particle-density", "determinations"): (
+        "particle_density_determinations", "ρs (Mg/m³)", "particle_density_mg_m3"),
+    ("loss-on-ignition", "determinations"): (
+        "organic_content_determinations", "Organic content (%)", "organic_content"),
+    ("density", "specimens"): ("bulk_density_determinations", "ρ (Mg/m³)", "bulk_density_mg_m3"),
+}
 
 
 def _number(value: Any) -> float | None:
@@ -591,7 +635,10 @@ def result_lines(results: Mapping[str, Any]) -> tuple[ResultLine, ...]:
     if results.get("aashto_group"):
         lines.append(ResultLine("AASHTO group (GI), M 145", _aashto(results)))
     known = {k for k, _, _ in RESULT_LABELS} | _NOT_SHOWN
-    for key, value in results.items():
+    # Labelled keys in the table's order, then the rest by name: the same order on every backend
+    # (PostgreSQL's JSONB keeps no key order).
+    order = {key: i for i, key in enumerate(_OTHER_LABELS)}
+    for key, value in sorted(results.items(), key=lambda kv: (order.get(kv[0], len(order)), kv[0])):
         if key in known or key.endswith(("_trials", "_determinations")):
             continue
         if isinstance(value, Mapping | list | tuple) or value is None:
@@ -621,6 +668,36 @@ def _per_row_w(results: Mapping[str, Any], path: tuple[str, ...], method: str) -
     return None
 
 
+def _is_rows(value: Any) -> bool:
+    """A readings list printed as a table: a non-empty list of objects."""
+    return isinstance(value, list | tuple) and bool(value) and all(isinstance(v, Mapping) for v in value)
+
+
+def _per_row(
+    results: Mapping[str, Any], path: tuple[str, ...], method: str
+) -> tuple[str, str, list[Any]] | None:
+    """The computed column of a readings list: its heading, the key whose rounding applies, and
+    one value per row: each water content, or the method's own (``_PER_ROW``)."""
+    own = _PER_ROW.get((method, path[-1])) if len(path) == 1 else None
+    if own is not None:
+        values = results.get(own[0])
+        return (own[1], own[2], list(values)) if isinstance(values, list) else None
+    ws = _per_row_w(results, path, method)
+    return None if ws is None else ("w (%)", "water_content", ws)
+
+
+def _nested_table(title: str, noun: str, parents: Sequence[Mapping[str, Any]], key: str) -> Table:
+    """One table of the rows each parent row holds under ``key``, each led by its parent's number."""
+    children = [(i + 1, j + 1, child) for i, parent in enumerate(parents) if _is_rows(parent.get(key))
+                for j, child in enumerate(parent[key])]
+    cols: list[str] = [c for c in _COLUMN_ORDER if any(c in child for _, _, child in children)]
+    for _, _, child in children:
+        cols += [str(k) for k in child if str(k) not in cols and not _is_rows(child[k])]
+    head = (noun, "#", *(_COLUMN_LABELS.get(c, humanise(c)) for c in cols))
+    rows = tuple((str(i), str(j), *(typed(child.get(c)) for c in cols)) for i, j, child in children)
+    return Table(title, head, rows)
+
+
 def readings_tables(
     method: str, readings: Mapping[str, Any], results: Mapping[str, Any]
 ) -> tuple[tuple[Table, ...], tuple[ResultLine, ...]]:
@@ -634,21 +711,26 @@ def readings_tables(
             label = " — ".join([humanise(here[0]), *(humanise(p).lower() for p in here[1:])])
             if isinstance(value, Mapping):
                 walk(value, here)
-            elif isinstance(value, list | tuple) and value and all(isinstance(v, Mapping) for v in value):
+            elif _is_rows(value):
+                nested = {str(k) for row in value for k, v in row.items() if _is_rows(v)}
                 cols: list[str] = [c for c in _COLUMN_ORDER if any(c in row for row in value)]
                 for row in value:
-                    cols += [str(k) for k in row if str(k) not in cols]
-                ws = _per_row_w(results, here, method)
+                    cols += [str(k) for k in row if str(k) not in cols and str(k) not in nested]
+                computed = _per_row(results, here, method)
                 head = ["#", *(_COLUMN_LABELS.get(c, humanise(c)) for c in cols)]
-                if ws is not None:
-                    head.append("w (%)")
+                if computed is not None:
+                    head.append(computed[0])
                 rows: list[tuple[str, ...]] = []
                 for i, row in enumerate(value):
                     cells = [str(i + 1), *(typed(row.get(c)) for c in cols)]
-                    if ws is not None:
-                        cells.append(show("water_content", ws[i] if i < len(ws) else None))
+                    if computed is not None:
+                        _, key, values = computed
+                        cells.append(show(key, values[i] if i < len(values) else None))
                     rows.append(tuple(cells))
                 tables.append(Table(label, tuple(head), tuple(rows)))
+                for key in sorted(nested):  # rows within rows (a compaction point's determinations)
+                    noun = "Point" if here[-1] == "points" else "Row"
+                    tables.append(_nested_table(f"{label} — {humanise(key).lower()}", noun, value, key))
             else:
                 others.append(ResultLine(label, typed(value)))
 
@@ -720,10 +802,53 @@ def _stress_strain(results: Mapping[str, Any]) -> tuple[str, str]:
     return svg, caption
 
 
-def _curve(results: Mapping[str, Any]) -> tuple[str, str]:
-    """The chart of one test's own page: flow or cone curve, grading curve, or stress-strain."""
+def _compaction_curve(results: Mapping[str, Any], readings: Mapping[str, Any]) -> tuple[str, str]:
+    """Dry density against water content, the curve through the peak and the air-voids lines."""
+    points = _xy(results.get("compaction_points"), "water_content", "dry_density_mg_m3")
+    w_opt = _number(results.get("optimum_water_content"))
+    rho_max = _number(results.get("maximum_dry_density_mg_m3"))
+    peak = (w_opt, rho_max) if w_opt is not None and rho_max is not None else None
+    three: list[tuple[float, float]] = []
+    if peak is not None and len(points) >= 3:
+        # the highest point and its neighbours: the three the maximum is the parabola's vertex of
+        # (DESIGN.md section 8); with a maximum claimed the highest point is never an end one
+        top = max(range(1, len(points) - 1), key=lambda i: points[i][1])
+        three = points[top - 1 : top + 2]
+    lines_in = results.get("air_voids_lines")
+    lines = {str(va): _xy(pts, "water_content", "dry_density_mg_m3")
+             for va, pts in (lines_in.items() if isinstance(lines_in, Mapping) else ())}
+    svg = compaction_chart_svg(points, peak=peak, peak_points=three, air_voids=lines)
+    caption = "Dry density against water content, the points in order of water content."
+    if peak is not None:
+        caption += (" Through the highest point and its neighbours the curve is the parabola whose vertex"
+                    " gives the maximum dry density and the optimum water content (marked).")
+    else:
+        caption += " No maximum is marked: the highest point is the driest or the wettest."
+    rho_s = readings.get("particle_density_mg_m3")
+    if lines and as_number(rho_s) is not None:
+        caption += (f" Air-voids lines at {', '.join(f'{va} %' for va in lines)} for a particle density of"
+                    f" {typed(rho_s)} Mg/m³ (as entered) and ρw = 1.00 Mg/m³.")
+    return svg, caption
+
+
+def _xy(rows: Any, x_key: str, y_key: str) -> list[tuple[float, float]]:
+    """(x, y) of a list of result objects, leaving out any without both numbers."""
+    out = []
+    for row in rows if isinstance(rows, list) else []:
+        if isinstance(row, Mapping):
+            x, y = _number(row.get(x_key)), _number(row.get(y_key))
+            if x is not None and y is not None:
+                out.append((x, y))
+    return out
+
+
+def _curve(results: Mapping[str, Any], readings: Mapping[str, Any]) -> tuple[str, str]:
+    """The chart of one test's own page: flow or cone curve, compaction curve, grading curve, or
+    stress-strain."""
     if results.get("liquid_limit_trials"):
         return _flow_curve(results)
+    if results.get("compaction_points"):
+        return _compaction_curve(results, readings)
     pts = grading_points(results)
     if pts:
         return (grading_chart_svg([("this sample", pts)], title="Grading curve", width=330.0, height=235.0),
@@ -740,11 +865,107 @@ def _flags(t: TestEntry) -> tuple[FlagLine, ...]:
     return tuple(out)
 
 
+EFFORTS = {  # the compactive efforts of the compaction method, as a reader knows them
+    "standard": "standard (2.5 kg rammer)",
+    "modified": "modified (4.5 kg rammer)",
+}
+IGNITION_CAUTION = (
+    "The loss on ignition counts all the mass lost in the furnace: besides organic matter, water held "
+    "by clay minerals and, at the higher temperatures, carbonates; it can overstate the organic content "
+    "of clays (common practice)."
+)
+
+
+def _method_details(t: TestEntry) -> tuple[tuple[ResultLine, ...], tuple[str, ...]]:
+    """What a method's results need beside them: the readings that qualify them (the bar's
+    condition, the furnace temperature, the effort, the particle density used) and notes."""
+    r, rd = t.results, t.readings
+    lines: list[ResultLine] = []
+    notes: list[str] = []
+    rho_s = rd.get("particle_density_mg_m3")
+    if t.method == "linear-shrinkage" and rd.get("condition"):
+        lines.append(ResultLine("Condition of the bar after drying", typed(rd.get("condition"))))
+        notes.append("The bar's condition is recorded; it does not change the calculation, "
+                     "LS = (1 − oven-dry length / mould length) × 100 (BS 1377-2:1990 cl. 6.5).")
+    elif t.method == "loss-on-ignition" and rd.get("furnace_c") not in (None, ""):
+        lines.append(ResultLine("Furnace temperature", typed(rd.get("furnace_c")), "°C"))
+        notes.append("Organic content is the mass lost on ignition in % of the oven-dried mass, the mean "
+                     "of the determinations. " + IGNITION_CAUTION)
+    elif t.method == "particle-density":
+        count = len(r.get("particle_density_determinations") or [])
+        notes.append(f"Mean of {count} determination{'' if count == 1 else 's'}, each at its water "
+                     "temperature with the density of water at that temperature; the specific gravity is "
+                     "referred to water at 20 °C (ASTM D854-14).")
+    elif t.method == "density":
+        if as_number(rho_s) is not None:
+            lines.append(ResultLine("Particle density used (as entered)", typed(rho_s), "Mg/m³"))
+            notes.append("Bulk density is the mean of the specimens' densities. Void ratio, porosity (as a "
+                         "fraction) and degree of saturation are from the particle density as entered, "
+                         "with ρw = 1.00 Mg/m³.")
+        else:
+            notes.append("Bulk density is the mean of the specimens' densities. No particle density was "
+                         "given: void ratio, porosity and degree of saturation are not reported.")
+    elif t.method == "compaction":
+        effort = rd.get("effort")
+        if effort:
+            lines.append(ResultLine("Compactive effort", EFFORTS.get(str(effort), typed(effort))))
+        if r.get("maximum_dry_density_mg_m3") is None:
+            notes.append("No maximum dry density or optimum water content is given: the points do not "
+                         "bracket a peak (see the quality remarks).")
+    return tuple(lines), tuple(notes)
+
+
+def _result_tables(t: TestEntry) -> tuple[Table, ...]:
+    """Results with a row each: the compaction points with the zero-air-voids dry density."""
+    points = t.results.get("compaction_points")
+    if t.method != "compaction" or not isinstance(points, list) or not points:
+        return ()
+    zav = t.results.get("zero_air_voids")
+    zav = zav if isinstance(zav, list) else []
+    head = ["#", "Water content, w (%)", "Dry density, ρd (Mg/m³)"]
+    if zav:
+        head.append("ρd at zero air voids (Mg/m³)")
+    rows = []
+    for i, p in enumerate(points):
+        p = p if isinstance(p, Mapping) else {}
+        cells = [str(i + 1), show("water_content", p.get("water_content")),
+                 show("dry_density_mg_m3", p.get("dry_density_mg_m3"))]
+        if zav:
+            cells.append(show("dry_density_mg_m3", zav[i] if i < len(zav) else None))
+        rows.append(tuple(cells))
+    return (Table("Compaction points, in order of water content", tuple(head), tuple(rows)),)
+
+
+def organic_lines(t: TestEntry, sample_tests: Sequence[TestEntry]) -> tuple[ResultLine, ...]:
+    """Beside a USCS group: the organic content by loss on ignition of the same sample, for the
+    reader to set against ASTM D2487's organic criterion, the liquid-limit ratio."""
+    if not t.results.get("uscs_symbol"):
+        return ()
+    out = []
+    for other in sample_tests:
+        oc = _number(other.results.get("organic_content"))
+        if other.method == "loss-on-ignition" and oc is not None:
+            furnace = other.readings.get("furnace_c")
+            at = f" at {typed(furnace)} °C" if furnace not in (None, "") else ""
+            out.append(ResultLine(f"Organic content by loss on ignition{at} (its own test)",
+                                  show("organic_content", oc), "%"))
+    return tuple(out)
+
+
+ORGANIC_NOTE = (
+    "ASTM D2487 names a fine-grained soil organic (OL, OH) by the ratio of its liquid limit after oven "
+    "drying to its liquid limit not dried, below 0.75, and by nothing else; the organic content by loss "
+    "on ignition is printed beside the classification for information and does not change the group. "
+)
+
+
 def section_for(index: int, t: TestEntry) -> TestSection:
     """The details page of one test: identity, results, readings with each water content, curve, flags."""
     tables, others = readings_tables(t.method, t.readings, t.results)
     results = result_lines(t.results)
-    svg, caption = _curve(t.results)
+    svg, caption = _curve(t.results, t.readings)
+    lines, notes = _method_details(t)
+    results += lines
     title = t.method_title or t.method
     return TestSection(
         anchor=f"test-{index + 1}",
@@ -766,6 +987,8 @@ def section_for(index: int, t: TestEntry) -> TestSection:
         flags=_flags(t),
         approval=(f"{t.approval.name}, {t.approval.role}, {moment(t.approval.signed_at)}"
                   if t.approval is not None else ""),
+        result_tables=_result_tables(t),
+        notes=notes,
     )
 
 
@@ -812,10 +1035,21 @@ def _chart_points(groups: list[list[TestEntry]]) -> list[tuple[ChartPoint, float
 
 def _sections(tests: Sequence[TestEntry]) -> tuple[TestSection, ...]:
     """Each test's details; a sample's first test starts a page, its other tests follow on."""
+    by_sample: dict[tuple[str, str, float | None, float | None], list[TestEntry]] = {}
+    for t in tests:
+        by_sample.setdefault(_sample_key(t), []).append(t)
     out = []
     for i, t in enumerate(tests):
         first = i == 0 or _sample_key(tests[i - 1]) != _sample_key(t)
-        out.append(replace(section_for(i, t), first_of_sample=first))
+        section = replace(section_for(i, t), first_of_sample=first)
+        organic = organic_lines(t, by_sample[_sample_key(t)])
+        if organic:
+            ratio = "" if t.results.get("oven_dried_ll_ratio") is not None else (
+                "The liquid limit was not determined on oven-dried soil, so the organic criterion of "
+                "ASTM D2487 was not applied to this group. ")
+            section = replace(section, organic=organic,
+                              notes=(*section.notes, ORGANIC_NOTE + ratio + IGNITION_CAUTION))
+        out.append(section)
     return tuple(out)
 
 

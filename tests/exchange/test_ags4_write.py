@@ -131,6 +131,19 @@ def standard() -> dict[str, list[dict[str, str]]]:
         ("LUCT", "LUCT_UCS", "kPa", "0DP"),
         ("SAMP", "SAMP_TOP", "m", "2DP"),
         ("LOCA", "LOCA_NATE", "m", "2DP"),
+        ("LPDN", "LPDN_PDEN", "Mg/m3", "XN"),  # the S12 methods' groups
+        ("LDEN", "LDEN_MC", "%", "X"),
+        ("LDEN", "LDEN_BDEN", "Mg/m3", "2DP"),
+        ("LDEN", "LDEN_DDEN", "Mg/m3", "2DP"),
+        ("LLIN", "LLIN_LS", "%", "0DP"),
+        ("GCHM", "GCHM_CODE", "", "PA"),
+        ("GCHM", "GCHM_RESL", "", "U"),
+        ("GCHM", "GCHM_UNIT", "", "PU"),
+        ("CMPG", "CMPG_MAXD", "Mg/m3", "2DP"),
+        ("CMPG", "CMPG_MCOP", "%", "2SF"),
+        ("CMPG", "CMPG_PDEN", "Mg/m3", "XN"),
+        ("CMPT", "CMPT_MC", "%", "X"),
+        ("CMPT", "CMPT_DDEN", "Mg/m3", "3DP"),
     ],
 )
 def test_headings_carry_the_standard_dictionarys_unit_and_type(
@@ -143,7 +156,10 @@ def test_headings_carry_the_standard_dictionarys_unit_and_type(
 def test_standard_headings_follow_the_dictionary_in_order_unit_and_type_but_for_the_stated_two(
     standard: dict[str, list[dict[str, str]]],
 ) -> None:
-    for group in ("PROJ", "TRAN", "LOCA", "SAMP", "LNMC", "LLPL", "GRAG", "GRAT", "LVAN", "LFCN", "LUCT"):
+    for group in (
+        *("PROJ", "TRAN", "LOCA", "SAMP", "LNMC", "LLPL", "GRAG", "GRAT", "LVAN", "LFCN", "LUCT"),
+        *("LPDN", "LDEN", "LLIN", "GCHM", "CMPG", "CMPT"),  # the S12 methods' groups: no heading of ours
+    ):
         expected = [
             (r["DICT_HDNG"], r["DICT_UNIT"], r["DICT_DTYP"])
             for r in standard["DICT"]
@@ -153,6 +169,24 @@ def test_standard_headings_follow_the_dictionary_in_order_unit_and_type_but_for_
         differing = {name for (name, _, t), (_, _, e) in zip(ours, expected, strict=True) if t != e}
         assert [(n, u) for n, u, _ in ours] == [(n, u) for n, u, _ in expected]
         assert differing == set(REPORTED_TYPES) & {n for n, _, _ in expected}
+
+
+@pytest.mark.parametrize(
+    ("heading", "code"),
+    [  # AGS4 dictionary 4.1.1 ABBR rows
+        ("LPDN_TYPE", "SMALL PYK"),  # "Small pyknometer"
+        ("LDEN_TYPE", "LINEAR"),  # "Linear measurement"
+        ("LDEN_SMTY", "CYLINDER"),
+        ("GCHM_CODE", "LOI"),  # "Loss on ignition (as %)"
+        ("GCHM_TTYP", "SOLID_TOTAL"),
+        ("CMPG_TYPE", "2.5KG"),  # the standard effort's rammer
+        ("CMPG_TYPE", "4.5KG"),  # "4.5kg Heavy compaction", the modified effort's
+    ],
+)
+def test_the_codes_the_s12_groups_use_are_the_standard_lists_own(
+    standard: dict[str, list[dict[str, str]]], heading: str, code: str
+) -> None:
+    assert any(r["ABBR_HDNG"] == heading and r["ABBR_CODE"] == code for r in standard["ABBR"])
 
 
 def test_headings_of_our_own_are_absent_from_the_standard_dictionary_and_fit_rule_19(
@@ -289,7 +323,7 @@ HAND_MADE = JobExport(
             },
             {"cone_mass_g": "80.0", "cone_angle_deg": 30},
         ),
-        _test("X1-T1", "particle-density", {"particle_density_mg_m3": 2.70}, test_id=9),  # no group yet
+        _test("X1-T1", "visual-inspection", {"remark": "photographed"}, test_id=9),  # not a method: no group
     ],
     standards={m: METHODS[m].standard for m in METHODS},
 )
@@ -344,7 +378,7 @@ def test_the_cone_method_is_written_with_the_dictionarys_abbreviations(tmp_path:
 
 def test_a_method_without_a_group_is_left_out(tmp_path: Path) -> None:
     text = ags4_text(HAND_MADE, issued_on=ISSUED_ON)
-    assert "particle" not in text.lower() and "LPDN" not in _tables(text, tmp_path)
+    assert "photographed" not in text.lower() and "visual" not in text.lower()
 
 
 def test_the_same_records_in_any_order_give_the_same_bytes() -> None:
