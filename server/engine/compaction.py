@@ -24,7 +24,9 @@ Conventions (DESIGN.md section 8):
 - with a particle density, the dry density at 0 %, 5 % and 10 % air voids,
   rho_d = (1 - Va/100) / (1/rho_s + w/(100 rho_w)) with rho_w = 1.00 Mg/m³ (``phase_relations``).
 
-Results: ``compaction_points`` [{"water_content", "dry_density_mg_m3"}] sorted by water content,
+Results: ``compaction_points`` [{"water_content", "dry_density_mg_m3"}] sorted by water content
+(``compaction_point_results``: the same in the order typed, None where a point is refused, for
+the bench and the report to show beside each point's readings),
 ``maximum_dry_density_mg_m3`` and ``optimum_water_content`` (when a peak is bracketed), and with a
 particle density ``zero_air_voids`` (one number per point of ``compaction_points``: the dry density
 at zero air voids at that point's water content) and ``air_voids_lines`` {"0": [...], "5": [...],
@@ -221,6 +223,10 @@ def compaction_method(r: Readings, out: Outcome) -> None:
     rows = [
         None if item is None else read_point(item, mould, volume, balance)
         for item in aligned_items(r, "points", noun="point", min_items=MIN_POINTS)
+    ]
+    out.results["compaction_point_results"] = [
+        None if p is None else {"water_content": p.water_content, "dry_density_mg_m3": p.dry_density}
+        for p in rows
     ]
     points = sorted((p for p in rows if p is not None), key=lambda p: p.water_content)
     out.results["compaction_points"] = [

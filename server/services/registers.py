@@ -39,6 +39,11 @@ EQUIPMENT_KINDS: dict[str, str] = {
     "hydrometer": "Hydrometer",
     "sieve": "Sieve",
     "thermometer": "Thermometer",
+    "pycnometer": "Pycnometer",
+    "mould": "Compaction mould",
+    "rammer": "Compaction rammer",
+    "callipers": "Callipers",
+    "furnace": "Muffle furnace",
 }
 """The kinds of instrument the register keeps, with the name shown for each."""
 

@@ -398,6 +398,16 @@ def _compaction() -> tuple[Section, ...]:
             ),
             5,
             10,
+            (
+                Output("Water content", "compaction_point_results", "water_content", "%", "water_content"),
+                Output(
+                    "Dry density",
+                    "compaction_point_results",
+                    "dry_density_mg_m3",
+                    "Mg/m³",
+                    "dry_density_mg_m3",
+                ),
+            ),
             note="Each point: the mould with its compacted soil, then the water-content tin of that "
             "soil. Any order: the points are taken in order of water content.",
         ),

@@ -195,6 +195,10 @@ def test_a_point_lighter_than_the_mould_or_with_a_bad_determination_is_refused_a
     assert "not above the mould" in ev.errors[0].message
     assert "maximum_dry_density_mg_m3" not in ev.results
     assert len(ev.results["compaction_points"]) == 3  # the good points, for the chart while typing
+    typed = ev.results["compaction_point_results"]  # in the order typed, beside each point's row
+    assert typed[1] is None and typed[3] is None
+    by_water = sorted((p for p in typed if p), key=lambda p: p["water_content"])
+    assert by_water == ev.results["compaction_points"]
 
 
 @settings(max_examples=50, deadline=None)
