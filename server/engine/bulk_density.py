@@ -51,7 +51,6 @@ from server.engine.uncertainty import Balance, expanded, read_balance, u_mean
 from server.engine.water_content import aligned_items, water_content_part
 
 DEFAULT_LENGTH_RESOLUTION_MM = 0.01  # callipers reading to 0.01 mm (common practice)
-MAX_PARTICLE_DENSITY_MG_M3 = 6.0  # above every soil mineral (common practice)
 
 
 @dataclass(frozen=True, slots=True)
@@ -112,14 +111,7 @@ def density_method(r: Readings, out: Outcome) -> None:
     res = r.number(
         "length_resolution_mm", name="length resolution", unit="mm", required=False, above=0.0, maximum=10.0
     )
-    rho_s = r.number(
-        "particle_density_mg_m3",
-        name="particle density",
-        unit="Mg/m³",
-        required=False,
-        above=1.0,
-        maximum=MAX_PARTICLE_DENSITY_MG_M3,
-    )
+    rho_s = pr.read_particle_density(r, out)
     specimens = [
         None if item is None else read_specimen(item)
         for item in aligned_items(r, "specimens", noun="specimen", min_items=1)

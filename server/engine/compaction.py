@@ -66,7 +66,6 @@ D1557-12 at least four, preferably five, bracketing the optimum (from memory).""
 AIR_VOIDS = (0.0, 5.0, 10.0)  # the lines BS 1377-4 Figure 6 and D698 draw with the curve (common practice)
 AIR_VOIDS_LINE_STEPS = 10
 MAX_MOULD_VOLUME_CM3 = 20_000.0  # above the 2305 cm³ CBR mould and the 2124 cm³ ASTM 6 in. mould
-MAX_PARTICLE_DENSITY_MG_M3 = 6.0  # above every soil mineral (common practice)
 
 
 @dataclass(frozen=True, slots=True)
@@ -185,10 +184,15 @@ def _maximum(out: Outcome, points: Sequence[Point]) -> None:
     three = points[peak - 1 : peak + 2]
     vertex = parabola_vertex([p.water_content for p in three], [p.dry_density for p in three])
     if vertex is None:
+        why = (
+            "two share a water content"
+            if len({p.water_content for p in three}) < 3
+            else "they lie on a straight line"
+        )
         out.flag(
             "peak-points-same-water-content",
             "error",
-            "the highest point and its neighbours do not make a parabola (two share a water content): "
+            f"the highest point and its neighbours do not make a parabola ({why}): "
             "no maximum dry density is given",
         )
         return
@@ -212,14 +216,7 @@ def compaction_method(r: Readings, out: Outcome) -> None:
         "mould_volume_cm3", name="mould volume", unit="cm³", above=0.0, maximum=MAX_MOULD_VOLUME_CM3
     )
     mould = r.number("mould_g", name="mould", unit="g", minimum=0.0)
-    rho_s = r.number(
-        "particle_density_mg_m3",
-        name="particle density",
-        unit="Mg/m³",
-        required=False,
-        above=1.0,
-        maximum=MAX_PARTICLE_DENSITY_MG_M3,
-    )
+    rho_s = pr.read_particle_density(r, out)
     rows = [
         None if item is None else read_point(item, mould, volume, balance)
         for item in aligned_items(r, "points", noun="point", min_items=MIN_POINTS)

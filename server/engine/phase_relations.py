@@ -16,6 +16,9 @@ from __future__ import annotations
 
 import math
 
+from server.engine.contract import Outcome
+from server.engine.readings import Readings
+
 WATER_DENSITY_MG_M3 = 1.00  # rho_w for the phase relations (DESIGN.md section 8)
 
 
@@ -54,3 +57,25 @@ def air_voids_dry_density(
     return (1.0 - air_voids_pct / 100.0) / (
         1.0 / particle_density_mg_m3 + water_content_pct / (100.0 * WATER_DENSITY_MG_M3)
     )
+
+
+MAX_PARTICLE_DENSITY_MG_M3 = 6.0  # above every soil mineral (common practice)
+PARTICLE_DENSITY_USED = "particle_density_used_mg_m3"
+"""The results key of the particle density a density or compaction test computed with, typed or
+taken from the sample's particle-density test (``services.linked_inputs``): reports and exports
+read this one key, not the readings."""
+
+
+def read_particle_density(r: Readings, out: Outcome) -> float | None:
+    """The optional particle density of the density and compaction methods, noted in the results."""
+    rho_s = r.number(
+        "particle_density_mg_m3",
+        name="particle density",
+        unit="Mg/m³",
+        required=False,
+        above=1.0,
+        maximum=MAX_PARTICLE_DENSITY_MG_M3,
+    )
+    if rho_s is not None:
+        out.results[PARTICLE_DENSITY_USED] = rho_s
+    return rho_s

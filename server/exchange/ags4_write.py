@@ -58,6 +58,7 @@ from functools import cache
 from pathlib import Path
 from typing import Any
 
+from server.engine.phase_relations import PARTICLE_DENSITY_USED
 from server.engine.readings import as_entered, as_number
 from server.engine.rounding import DECIMALS, reported
 from server.workflow.vocabulary import LOCATION_KINDS, SAMPLE_TYPES
@@ -804,7 +805,7 @@ def _lden(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) ->
         )
         if (value := _number(r.get(key))) is not None
     ]
-    rho_s = _number(test.readings.get("particle_density_mg_m3"))
+    rho_s = _number(r.get(PARTICLE_DENSITY_USED))  # typed, or from the sample's particle-density test
     cells.text(
         "LDEN_REM",
         _remarks(
@@ -866,7 +867,7 @@ def _cmpg(ctx: _Context, rows: _Rows, test: TestRecord, sample: SampleRecord) ->
     keys = {**_keys(sample, rows.next_specimen("CMPG", sample.code)), "CMPG_TESN": "1"}
     cells = _Cells("CMPG", keys)
     cells.text("CMPG_TYPE", _COMPACTION_TYPES.get(str(rd.get("effort")), ""))
-    rho_s = _number(rd.get("particle_density_mg_m3"))
+    rho_s = _number(r.get(PARTICLE_DENSITY_USED))
     if rho_s is not None:
         cells.text("CMPG_PDEN", reported("particle_density_mg_m3", rho_s))
     maximum = _number(r.get("maximum_dry_density_mg_m3"))

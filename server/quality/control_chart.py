@@ -1,9 +1,12 @@
 """Control charts of a reference soil's results: limits from its own history, and run rules.
 
-An individuals (Shewhart) chart: the centre line is the mean of the soil's earlier results, σ
-their sample standard deviation (n − 1), the warning limits mean ± 2σ and the action limits
-mean ± 3σ (Shewhart charts, ISO 7870-2; warning and action lines as laboratories draw them,
-common practice).
+A chart of individual results with limits from their sample standard deviation (n − 1), as
+testing laboratories draw it for a reference material (the Levey–Jennings form, Levey & Jennings
+1950, from memory): the centre line is the mean of the soil's earlier results, the warning
+limits mean ± 2σ and the action limits mean ± 3σ. ISO 7870-2's individuals chart would estimate
+σ from the mean moving range instead (from memory); the sample standard deviation is used here
+because reference-soil results arrive irregularly, days or weeks apart, where a moving range
+says little about the method's spread.
 
 Decisions, and why:
 - **A point is judged against its history.** Each point's limits come from the points before it,

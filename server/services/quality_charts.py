@@ -30,6 +30,7 @@ from sqlmodel import Session, col, select
 from server.db.queries import TestRow, test_rows, users_by_id
 from server.db.session import Database
 from server.db.tables import AuditEvent, LabTest, ReferenceSample, ReferenceSoil, User
+from server.engine.rounding import reported
 from server.quality import control_chart
 from server.services import quality_duplicates
 from server.services.errors import NotFound
@@ -210,7 +211,9 @@ def quality_flags(db: Database, test_id: int) -> list[dict[str, str]]:
         for soil_id, row in rows:
             by_soil.setdefault(soil_id, []).append(row)
         for soil_id, soil_rows_of in sorted(by_soil.items(), key=lambda kv: soils[kv[0]].code):
-            for key in CHART_KEYS:
+            assigned = (soils[soil_id].assigned_values or {}).get(test.method) or {}
+            keys = [*CHART_KEYS, *(k for k in assigned if k not in CHART_KEYS)]  # as chart_choices
+            for key in keys:
                 for p in _judged_points(soil_rows_of, key, {}, {}):
                     if _day(p.at) != day:
                         continue
@@ -222,7 +225,8 @@ def quality_flags(db: Database, test_id: int) -> list[dict[str, str]]:
                                 "severity": v.severity,
                                 "message": (
                                     f"reference soil {soils[soil_id].code}, {key.replace('_', ' ')} "
-                                    f"{p.value:.1f} on {day.isoformat()} (test {p.row.test.id}): {v.message}"
+                                    f"{reported(key, p.value)} on {day.isoformat()} "
+                                    f"(test {p.row.test.id}): {v.message}"
                                 ),
                             }
                         )

@@ -22,6 +22,7 @@ from server.quality import precision
 from server.services import audit
 from server.services.errors import NotFound
 from server.services.fields import refuse
+from server.services.review import required_reason
 
 JUDGED_STATUSES = ("submitted", "approved")  # results handed in; a draft's may be half-entered
 
@@ -50,6 +51,17 @@ def _active_marks(s: Session, *conditions: Any) -> list[QualityDuplicate]:
     return list(s.exec(stmt.order_by(col(QualityDuplicate.id))).all())
 
 
+def first_revision(s: Session, test: LabTest) -> int:
+    """The id of a test's first revision: an amendment and the revision it amends are one test
+    (one specimen, one set of readings revised), never a duplicate pair of each other."""
+    while test.previous_revision_id is not None:
+        earlier = s.get(LabTest, test.previous_revision_id)
+        if earlier is None:
+            break
+        test = earlier
+    return test.id or 0
+
+
 def mark(db: Database, actor: User, test_id: int, duplicate_of_id: int) -> QualityDuplicate:
     """Mark ``test_id`` as a duplicate of ``duplicate_of_id``; refused field by field when the
     two are not tests of the same sample by the same method, or either is already paired."""
@@ -73,11 +85,20 @@ def mark(db: Database, actor: User, test_id: int, duplicate_of_id: int) -> Quali
                 f"test {duplicate_of_id} is {original.method}, not {test.method}: "
                 "a duplicate repeats the same method",
             )
-        ids = [test_id, duplicate_of_id]
-        paired = _active_marks(
-            s, or_(col(QualityDuplicate.test_id).in_(ids), col(QualityDuplicate.duplicate_of_id).in_(ids))
-        )
-        if paired:
+        roots = {first_revision(s, test), first_revision(s, original)}
+        if len(roots) == 1:
+            refuse(
+                "duplicate_of",
+                f"test {duplicate_of_id} is a revision of test {test_id}: a duplicate is a second "
+                "test of the sample, not an amendment",
+            )
+        of_sample = select(LabTest.id).where(LabTest.sample_id == test.sample_id)
+        marks = _active_marks(s, col(QualityDuplicate.test_id).in_(of_sample))
+        paired_ids = {i for m in marks for i in (m.test_id, m.duplicate_of_id)}
+        paired_roots = {
+            first_revision(s, t) for t in (s.get(LabTest, i) for i in paired_ids) if t is not None
+        }
+        if roots & paired_roots:
             refuse(
                 "duplicate_of", "one of these tests is already in a duplicate pair: unmark that pair first"
             )
@@ -89,8 +110,10 @@ def mark(db: Database, actor: User, test_id: int, duplicate_of_id: int) -> Quali
         return made
 
 
-def unmark(db: Database, actor: User, mark_id: int, reason: str = "") -> QualityDuplicate:
-    """End a duplicate pair (marked by mistake); the row stays, with who ended it and when."""
+def unmark(db: Database, actor: User, mark_id: int, reason: str) -> QualityDuplicate:
+    """End a duplicate pair (marked by mistake); the row stays, with who ended it, when and why
+    (a reason of real words, as for every change that undoes a record)."""
+    reason = required_reason(reason, "unmark a duplicate pair")
     with db.transaction() as s:
         found = s.get(QualityDuplicate, mark_id)
         if found is None or found.unmarked_at is not None:
@@ -98,9 +121,7 @@ def unmark(db: Database, actor: User, mark_id: int, reason: str = "") -> Quality
         found.unmarked_at, found.unmarked_by_id = utcnow(), actor.id
         s.add(found)
         before = {"id": mark_id, "test_id": found.test_id, "duplicate_of_id": found.duplicate_of_id}
-        audit.record(
-            s, actor, "quality_duplicate", mark_id, "unmark", before=before, reason=reason.strip() or None
-        )
+        audit.record(s, actor, "quality_duplicate", mark_id, "unmark", before=before, reason=reason)
         return found
 
 

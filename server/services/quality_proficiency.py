@@ -27,6 +27,7 @@ from server.services.fields import Checks, Day, Number, refuse
 from server.services.quality_references import RESULT_KEY
 
 VALUE_LIMIT = 1e6  # no index result is near a million (common practice): a typing slip
+SIGMA_PT_MIN = 1e-6  # below any scheme's σpt in a soil result's units; keeps z finite (common practice)
 
 
 @dataclass(frozen=True)
@@ -67,8 +68,8 @@ def _checked(s: Session, form: RoundForm) -> dict[str, Any]:
     }
     if values["result_key"] and not RESULT_KEY.match(values["result_key"]):
         checks.add("result_key", f"{values['result_key']!r} is not a result key (such as liquid_limit)")
-    if values["sigma_pt"] == 0:
-        checks.add("sigma_pt", "σpt must be more than 0")
+    if values["sigma_pt"] is not None and values["sigma_pt"] < SIGMA_PT_MIN:
+        checks.add("sigma_pt", f"σpt must be at least {SIGMA_PT_MIN:g}: a scheme's standard deviation")
     typed = checks.number(
         "result", form.result, "the laboratory's result", "the result's unit", -VALUE_LIMIT, VALUE_LIMIT
     )

@@ -23,6 +23,7 @@ from server.engine import METHODS
 from server.services import audit
 from server.services.errors import Conflict, NotFound
 from server.services.fields import Checks, refuse
+from server.services.review import required_reason
 
 CODE_MAX, NAME_MAX, DESCRIPTION_MAX = 32, 200, 1000  # the columns of server.db.tables.ReferenceSoil
 RESULT_KEY = re.compile(r"^[a-z][a-z0-9_]{0,39}$")  # DESIGN.md section 3 result keys
@@ -163,9 +164,7 @@ def link_sample(db: Database, actor: User, sample_id: int, soil_id: int) -> Refe
 
 def unlink_sample(db: Database, actor: User, sample_id: int, reason: str) -> None:
     """A sample wrongly linked: the link goes, the audit event keeps what it was and why."""
-    checks = Checks()
-    why = checks.text("reason", reason, "the reason", 1000, required=True)
-    checks.done()
+    why = required_reason(reason, "unlink a sample from its reference soil")
     with db.transaction() as s:
         link = s.get(ReferenceSample, sample_id)
         if link is None:

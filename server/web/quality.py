@@ -2,7 +2,8 @@
 control charts (with a per-technician filter and the rules broken), duplicate pairs with their
 verdicts, proficiency rounds with z and verdict, and the quality report PDF.
 
-Anyone signed in may look (a technician sees their own chart); reviewers and admins change
+Anyone signed in may look, at every chart and every technician's (a laboratory's quality record is
+no secret inside it); reviewers and admins change
 things, as they keep the other registers of work. Every form carries the CSRF token; every
 refusal comes back on the page beside its field, with nothing stored.
 """
@@ -70,6 +71,8 @@ def parse_assigned(text: str) -> dict[str, dict[str, float]]:
             value = float(parts[2].replace(",", "."))
         except ValueError:
             raise invalid("assigned_values", f"line {number}: {parts[2][:20]!r} is not a number") from None
+        if parts[1] in out.get(parts[0], {}):
+            raise invalid("assigned_values", f"line {number}: {parts[0]} {parts[1]} is given twice")
         out.setdefault(parts[0], {})[parts[1]] = value
     return out
 

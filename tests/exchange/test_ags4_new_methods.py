@@ -166,3 +166,28 @@ def test_a_test_with_no_result_yet_writes_no_row(tmp_path: Path) -> None:
         text = ags4_text(_export(method, {}), issued_on=ISSUED_ON)
         assert checker_errors(text, tmp_path) == {}
         assert not set(NEW_GROUPS) & set(_tables(text, tmp_path)), method
+
+
+def test_a_particle_density_taken_from_the_samples_test_is_written_as_one_typed(tmp_path: Path) -> None:
+    # The density and compaction methods give the particle density they computed with
+    # (particle_density_used_mg_m3), typed or linked from a particle-density test (linked_inputs).
+    density = {
+        "bulk_density_mg_m3": 1.9845,
+        "dry_density_mg_m3": 1.6537,
+        "water_content": 20.0,
+        "void_ratio": 0.6127,
+        "particle_density_used_mg_m3": 2.668,
+    }
+    lden = _one(_tables(ags4_text(_export("density", density), issued_on=ISSUED_ON), tmp_path), "LDEN")
+    assert "void ratio" in lden["LDEN_REM"] and "(particle density 2.67 Mg/m3)" in lden["LDEN_REM"]
+    compaction = {
+        "compaction_points": [
+            {"water_content": 10.0, "dry_density_mg_m3": 1.70},
+            {"water_content": 12.0, "dry_density_mg_m3": 1.75},
+            {"water_content": 14.0, "dry_density_mg_m3": 1.72},
+        ],
+        "particle_density_used_mg_m3": 2.668,
+    }
+    text = ags4_text(_export("compaction", compaction, {"effort": "standard"}), issued_on=ISSUED_ON)
+    assert checker_errors(text, tmp_path) == {}
+    assert _one(_tables(text, tmp_path), "CMPG")["CMPG_PDEN"] == "2.67"  # 0.01 Mg/m³ (rounding.py)

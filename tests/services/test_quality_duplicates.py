@@ -11,7 +11,7 @@ from sqlmodel import select
 
 from server.db.session import Database
 from server.db.tables import AuditEvent, LabTest
-from server.services import bench, jobs, quality_charts, quality_duplicates, review, samples
+from server.services import amendments, bench, jobs, quality_charts, quality_duplicates, review, samples
 from server.services.errors import Invalid
 from tests.conftest import PASSWORDS, People
 from tests.services.test_quality_charts import water
@@ -97,3 +97,32 @@ def test_a_test_is_in_one_pair_at_a_time_until_unmarked(db: Database, people: Pe
             e.action for e in s.exec(select(AuditEvent).where(AuditEvent.entity == "quality_duplicate"))
         ]
     assert actions == ["mark", "unmark", "mark"]
+
+
+def test_an_amendment_is_no_duplicate_of_the_revision_it_amends(db: Database, people: People) -> None:
+    _, first, second = _pair(db, people, 30.5)
+    with db.session() as s:
+        version = (s.get(LabTest, first) or LabTest()).version
+    review.approve(db, people.review, first, PASSWORDS["review"], version)
+    with db.session() as s:
+        version = (s.get(LabTest, first) or LabTest()).version
+    amended = amendments.amend(db, people.review, first, "the dry mass was misread on the sheet", version)
+    with pytest.raises(Invalid, match="revision"):
+        quality_duplicates.mark(db, people.review, amended.id or 0, first)
+    quality_duplicates.mark(db, people.review, second, first)
+    third = _water_test(db, people, _sample(db, first), 30)
+    with pytest.raises(Invalid, match="already in a duplicate pair"):  # the amendment is the same test
+        quality_duplicates.mark(db, people.review, amended.id or 0, third)
+
+
+def _sample(db: Database, test_id: int) -> int:
+    with db.session() as s:
+        return (s.get(LabTest, test_id) or LabTest()).sample_id
+
+
+def test_unmarking_needs_a_reason_of_real_words(db: Database, people: People) -> None:
+    _, first, second = _pair(db, people, 30.5)
+    made = quality_duplicates.mark(db, people.review, second, first)
+    with pytest.raises(Invalid, match="real words"):  # services.review.required_reason
+        quality_duplicates.unmark(db, people.admin, made.id or 0, "x")
+    assert len(quality_duplicates.pairs(db)) == 1
