@@ -16,6 +16,7 @@ from sqlalchemy.orm import defer
 from sqlmodel import Session, col, select
 
 from server.db.tables import AuditEvent, Job, LabTest, Location, Report, Sample, ShareLink, User
+from server.engine import METHODS
 
 PAGE = 200
 
@@ -118,7 +119,9 @@ def labels(session: Session, events: list[AuditEvent]) -> dict[tuple[str, int], 
             .join(Sample, col(Sample.id) == LabTest.sample_id)
             .where(col(LabTest.id).in_(ids["lab_test"]))
         ):
-            found[("lab_test", t.id or 0)] = f"{t.method} rev {t.revision} on {sample.code}"
+            method = METHODS.get(t.method)
+            name = method.title if method else t.method
+            found[("lab_test", t.id or 0)] = f"{name}, revision {t.revision}, on {sample.code}"
     simple: list[tuple[str, Any, Any]] = [
         ("sample", Sample, lambda r: f"sample {r.code}"),
         ("location", Location, lambda r: f"{r.kind} {r.code}"),

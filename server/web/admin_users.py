@@ -12,6 +12,7 @@ from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_roles
 from server.db import audit_queries
+from server.db.queries import users_by_id
 from server.db.tables import LabTest, User
 from server.services import users
 from server.services.errors import Invalid, ServiceError, http_status
@@ -76,6 +77,7 @@ def _person_page(
         if person is None:
             raise HTTPException(404, "no such user")
         events = audit_queries.entity_events(s, "user", user_id)
+        actors = users_by_id(s, (e.actor_id for e in events))
         signed = s.exec(
             select(func.count()).select_from(LabTest).where(LabTest.approved_by_id == user_id)
         ).one()
@@ -87,6 +89,7 @@ def _person_page(
         roles=ROLES,
         events=events,
         labels={},
+        actors=actors,
         signed=int(signed),
         message=message,
         errors=extra.get("errors", {}),

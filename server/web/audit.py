@@ -2,6 +2,8 @@
 
 For reviewers and admins. Reads only; the CSV holds every event of the record, the page shows
 them a page at a time in the order they were written (ISO/IEC 17025:2017 cl. 7.5.2, 8.4).
+The pages name each event and the person who did it; the CSV keeps the ids and usernames an
+export is read by.
 """
 
 from __future__ import annotations
@@ -10,11 +12,13 @@ from typing import Annotated
 
 from fastapi import APIRouter, Depends, HTTPException, Request
 from fastapi.responses import RedirectResponse
+from sqlmodel import Session
 from starlette.responses import Response
 
 from server.auth.sessions import csrf_protect, database, require_roles
 from server.db import audit_queries
-from server.db.tables import Job, Location, Sample, User
+from server.db.queries import users_by_id
+from server.db.tables import AuditEvent, Job, Location, Sample, User
 from server.services import audit
 from server.web.params import Count, IdPath, IdQuery, PageRoute
 from server.web.templating import render
@@ -31,6 +35,12 @@ def _csv(name: str, body: str) -> Response:
     )
 
 
+def actors(session: Session, events: list[AuditEvent]) -> dict[int, User]:
+    """The people who did these events, by id (one query), so that a row names the person; an
+    event of the system itself, or of an account since removed, keeps its recorded actor."""
+    return users_by_id(session, (e.actor_id for e in events))
+
+
 RECENT_PAGE = 100  # events a page of the audit page shows
 RECENT_JOBS = 50  # jobs the audit page offers a trail of
 
@@ -44,11 +54,13 @@ def recent(request: Request, user: Checker, before: Count = 0) -> Response:
         labels = audit_queries.labels(s, events)
         jobs = audit_queries.recent_jobs(s, RECENT_JOBS)
         older = audit_queries.has_older(s, events[-1].id or 0) if events else False
+        people = actors(s, events)
     return render(
         request,
         "pages/audit.html",
         events=events,
         labels=labels,
+        actors=people,
         jobs=jobs,
         older_url=f"/audit?before={events[-1].id}" if older else None,
         newest_url="/audit" if before else None,
@@ -78,10 +90,12 @@ def job_trail(request: Request, job_id: IdPath, user: Checker, offset: Count = 0
     job = _job(request, job_id)
     with database(request).session() as s:
         trail = audit_queries.job_trail(s, job_id, max(offset, 0))
+        people = actors(s, trail.events)
     return render(
         request,
         "pages/trail.html",
         trail=trail,
+        actors=people,
         title=f"Job {job.code}",
         job=job,
         here=f"/jobs/{job_id}/trail",
@@ -102,10 +116,12 @@ def sample_trail(request: Request, sample_id: IdPath, user: Checker, offset: Cou
     sample, location, job = _sample(request, sample_id)
     with database(request).session() as s:
         trail = audit_queries.sample_trail(s, sample_id, max(offset, 0))
+        people = actors(s, trail.events)
     return render(
         request,
         "pages/trail.html",
         trail=trail,
+        actors=people,
         title=f"Sample {sample.code} ({location.code}, job {job.code})",
         job=job,
         sample=sample,

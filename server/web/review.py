@@ -1,6 +1,11 @@
 """The reviewer's desk: the queue with filters and counts, batch approval, a review page per
-test (readings, every computed value, curves, flags, what changed against the earlier
-revision), approve, return, amend; and the job page's note of reports that need re-issue."""
+test (the results as reported, the flags and curves a decision rests on, the readings as the PDF
+prints them, every stored value folded away, what changed against the earlier revision),
+approve, return, amend; and the job page's note of reports that need re-issue.
+
+A decision posts, then redirects to the desk (post/redirect/get), which confirms what was done
+and offers the next test waiting; a refused one stays on the review page with the message at
+its field."""
 
 from __future__ import annotations
 
@@ -17,12 +22,14 @@ from server.auth.sessions import csrf_protect, database, require_roles, require_
 from server.db import audit_queries, review_queries
 from server.db.queries import TestRow, test_rows, users_by_id
 from server.db.tables import Job, LabTest, User, utcnow
+from server.engine import METHODS
 from server.engine.contract import Evaluation
 from server.reports import charts
+from server.reports.data import TestEntry
+from server.reports.names import method_name, plural, state_name
+from server.reports.view import TestSection, section_for
 from server.services import amendments, bench, review
 from server.services.errors import Invalid, ServiceError, http_status, invalid
-from server.web.bench import sheet_view
-from server.web.bench_forms import SHEETS
 from server.web.jobs import page_number
 from server.web.params import Count, FormVersion, IdPath, PageRoute, lenient_number
 from server.web.templating import is_htmx, render
@@ -54,7 +61,34 @@ def queue_filter(
 
 def _waited(row: review_queries.QueueRow) -> str:
     hours = int(row.waited.total_seconds() // 3600)
-    return f"{hours // 24} d {hours % 24} h" if hours >= 24 else f"{hours} h"
+    return f"{plural(hours // 24, 'day')} {hours % 24} h" if hours >= 24 else f"{hours} h"
+
+
+@dataclass
+class Decided:
+    """What the desk confirms after a decision: the test as it now stands, in words."""
+
+    row: TestRow
+    text: str
+
+
+def _decided(request: Request, user: User, test_id: int | None) -> Decided | None:
+    """The confirmation of the decision just made on ``test_id``, read from the test itself (the
+    address only says which test): approved by this reviewer, returned, or else its state now."""
+    if not test_id:
+        return None
+    with database(request).session() as s:
+        rows = test_rows(s, col(LabTest.id) == test_id)
+    if not rows:
+        return None
+    row = rows[0]
+    test = row.test
+    what = f"{method_name(test.method)} on {row.location.code} / {row.sample.code}, revision {test.revision}"
+    if test.status == "approved" and test.approved_by_id == user.id:
+        return Decided(row, f"✔ Approved and signed: {what}.")
+    if test.status == "returned":
+        return Decided(row, f"↩ Returned to the bench: {what}. The technician sees your reason.")
+    return Decided(row, f"{what} is now {state_name(test.status)}.")
 
 
 def _queue_page(
@@ -66,12 +100,19 @@ def _queue_page(
     problem: str | None = None,
     message: str | None = None,
     page: int = 1,
+    decided: Decided | None = None,
 ) -> Response:
     settings = request.app.state.settings
     with database(request).session() as s:
         queue = review_queries.review_queue(
             s, user, wanted, utcnow(), page=page, self_approval_forbidden=settings.self_approval_forbidden
         )
+    done = decided.row.test.id if decided else None
+    # The next test this reviewer may decide on, in the queue's order (errors first).
+    next_up = next(
+        (q for q in queue.rows if q.row.test.id != done and not (q.own and settings.self_approval_forbidden)),
+        None,
+    )
     return render(
         request,
         "pages/review_queue.html",
@@ -86,6 +127,8 @@ def _queue_page(
         meaning=review.DEFAULT_MEANING,
         problem=problem,
         message=message,
+        decided=decided,
+        next_up=next_up,
         previous_url=_queue_url(wanted, queue.previous_page) if queue.previous_page else None,
         next_url=_queue_url(wanted, queue.next_page) if queue.next_page else None,
     )
@@ -114,13 +157,21 @@ def queue(
     age: str | None = None,
     flags: str | None = None,
     approved: Count = 0,
+    decided: Count = 0,
     page: str = "",
 ) -> Response:
     """Handed-in tests: errors first, then warnings, then the rest, the longest waiting first,
-    a page at a time."""
-    message = f"{approved} test(s) approved and signed." if approved > 0 else None
+    a page at a time; after a decision, its confirmation and the next test to review."""
+    message = f"{plural(approved, 'test')} approved and signed." if approved > 0 else None
     wanted = queue_filter(job, method, person, age, flags)
-    return _queue_page(request, user, wanted, message=message, page=page_number(page))
+    return _queue_page(
+        request,
+        user,
+        wanted,
+        message=message,
+        page=page_number(page),
+        decided=_decided(request, user, decided),
+    )
 
 
 def _selection(values: list[str]) -> list[tuple[int, int]]:
@@ -210,6 +261,28 @@ def load_row(request: Request, test_id: int) -> TestRow:
     return rows[0]
 
 
+def as_reported(row: TestRow) -> TestSection:
+    """The test as its page of the certified report prints it: the results named, with units
+    and rounding, the method's notes, the readings as tables with each water content."""
+    test, sample = row.test, row.sample
+    method = METHODS.get(test.method)
+    entry = TestEntry(
+        sample_code=sample.code,
+        location_code=row.location.code,
+        depth_from_m=sample.depth_from_m,
+        depth_to_m=sample.depth_to_m,
+        sample_type=sample.sample_type,
+        description=sample.description,
+        method=test.method,
+        method_title=method.title if method else test.method,
+        results=test.results or {},
+        readings=test.readings or {},
+        flags=test.flags or [],
+        revision=test.revision,
+    )
+    return section_for(0, entry)
+
+
 def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]:
     """Everything the review page shows, read in a fixed number of queries."""
     row = load_row(request, test_id)
@@ -225,14 +298,15 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
         history = audit_queries.events_of_tests(s, chain_ids)
         reissue = review_queries.needs_reissue(s, test_ids=chain_ids)
         carrying = review_queries.reports_carrying(s, chain_ids)
-        people = users_by_id(s, [*authors, *(t.approved_by_id for t in chain)])
+        people = users_by_id(
+            s, [*authors, *(t.approved_by_id for t in chain), *(e.actor_id for e in history)]
+        )
     previous = next((t for t in chain if t.id == test.previous_revision_id), None)
     own = user.id in authors
     return {
         "row": row,
         "test": test,
-        "ev": ev,
-        "sections": sheet_view(test.method, readings, ev) if test.method in SHEETS else [],
+        "report": as_reported(row),
         "raw_readings": amendments.leaves(readings),
         "computed": amendments.leaves(test.results),
         "flags": test.flags or [],
@@ -256,6 +330,7 @@ def review_context(request: Request, user: User, test_id: int) -> dict[str, Any]
         "chain": chain,
         "revision_of": {t.id: t.revision for t in chain},
         "signers": people,
+        "actors": people,  # who did each event of the history, by name
         "history": history,
         "reissue": reissue,
         "carrying": carrying,
@@ -316,7 +391,7 @@ def approve(
         )
     except ServiceError as exc:
         return _refused(request, user, test_id, exc, "Not approved")
-    return RedirectResponse("/review", status_code=303)
+    return RedirectResponse(f"/review?decided={test_id}", status_code=303)
 
 
 @router.post("/review/{test_id}/return")
@@ -331,7 +406,7 @@ def return_test(
         review.return_test(database(request), user, test_id, reason, version)
     except ServiceError as exc:
         return _refused(request, user, test_id, exc, "Not returned")
-    return RedirectResponse("/review", status_code=303)
+    return RedirectResponse(f"/review?decided={test_id}", status_code=303)
 
 
 @router.post("/review/{test_id}/amend")

@@ -1,14 +1,17 @@
-"""The audit trail pages: a job's and a sample's events in order, paged, and exported as CSV."""
+"""The audit trail pages: a job's and a sample's events in order, paged, and exported as CSV;
+on the pages each event and person by name (server/reports/names.py), the ids in tooltips."""
 
 from __future__ import annotations
 
 import csv
 import io
 import json
+import re
 
 from fastapi.testclient import TestClient
 
 from server.db.session import Database
+from server.reports.names import event_name, state_name
 from server.services import links, review
 from server.services.audit import CSV_COLUMNS
 from tests.conftest import PASSWORDS, People
@@ -47,7 +50,8 @@ def test_a_jobs_trail_holds_every_event_of_its_records_and_none_of_another_job(
     assert ids == sorted(ids) and trail.total == len(ids)  # in the order written, all on one page
     assert elsewhere.job.code not in reply.text
     assert all(e.entity_id != elsewhere.job.id for e in trail.events if e.entity == "job")
-    assert "atterberg rev 1 on S1" in reply.text and trail.labels[("lab_test", returned)]
+    label = trail.labels[("lab_test", returned)]  # the test's record in words (db/audit_queries.py)
+    assert label.endswith("on S1") and label in reply.text
 
 
 def test_a_samples_trail_holds_the_sample_and_its_tests_only(
@@ -115,3 +119,29 @@ def test_a_technician_may_not_read_or_export_the_trail(
     sign_in(app_client, "tech", PASSWORDS["tech"])
     for path in ("/audit", f"/jobs/{lab.job.id}/trail", f"/jobs/{lab.job.id}/trail.csv"):
         assert app_client.get(path).status_code == 403, path
+
+
+def test_audit_rows_name_the_person_the_event_and_the_states_with_the_ids_in_tooltips(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    lab, returned, _, _ = _two_jobs(db, people)
+    sign_in(app_client, "admin", PASSWORDS["admin"])
+    for path in (f"/jobs/{lab.job.id}/trail", "/audit"):
+        reply = app_client.get(path)
+        ctx = reply.context  # type: ignore[attr-defined]
+        events = ctx["events"] if path == "/audit" else ctx["trail"].events
+        back = next(e for e in events if e.action == "return")
+        row = re.search(rf'<tr id="event-{back.id}">.*?</tr>', reply.text, re.S)
+        assert row, path
+        cells = " ".join(re.sub(r"<[^>]*>", " ", row[0]).split())
+        assert (
+            people.review.full_name in cells and '<span title="review">' in row[0]
+        )  # the username as a tooltip
+        assert event_name("lab_test", "return") in cells and 'title="lab_test: return"' in row[0]
+        assert state_name("submitted") in cells and state_name("returned") in cells
+        who = re.findall(r"<td>(.*?)</td>", row[0], re.S)[1]  # when, who (the number's cell has a class)
+        assert re.sub(r"<[^>]*>", "", who) == people.review.full_name  # not "user 3", not "review"
+        assert f'title="lab_test {returned}"' in row[0]
+    trail = app_client.get(f"/jobs/{lab.job.id}/trail").text
+    total = len(re.findall(r'<tr id="event-', trail))
+    assert f"Export all {total} events as CSV" in trail  # one plural helper

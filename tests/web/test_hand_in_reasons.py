@@ -114,7 +114,7 @@ def test_the_bench_asks_for_the_reason_and_the_reviewer_sees_it_beside_the_remar
 
     sign_in(app_client, "review", PASSWORDS["review"])
     review_page = app_client.get(f"/review/{test_id}")
-    flags = review_page.text[review_page.text.index('id="flags"') : review_page.text.index("Raw readings")]
+    flags = review_page.text[review_page.text.index('id="flags"') : review_page.text.index('id="readings"')]
     assert "equipment BAL-1 was past its calibration due date" in flags and f"“{WHY}”" in flags
     queue = app_client.get("/review").text
     assert f"stands because: “{WHY}”" in queue

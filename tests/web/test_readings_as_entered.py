@@ -131,8 +131,9 @@ def test_the_review_page_shows_the_readings_as_typed(
     assert page.status_code == 200
     raw = page.text[page.text.index('id="raw-readings"') :]
     assert '<td class="mono">44.20</td>' in raw and '<td class="mono">10.00</td>' in raw
-    cells = {c.path: c.value for sec in page.context["sections"] for row in sec.rows for c in row.cells}  # type: ignore[attr-defined]
-    assert cells[WET] == "44.20"
+    tables = {t.title: t for t in page.context["report"].readings}  # type: ignore[attr-defined]
+    natural = tables["Water content — determinations"]  # the table the PDF prints
+    assert natural.rows[0][natural.columns.index("Wet soil + tare (g)")] == "44.20"
 
 
 def test_the_issued_report_prints_the_readings_as_entered(

@@ -1,6 +1,9 @@
 """The review desk over HTTP: the queue's order, filters and counts, batch signing, the review
-page (readings, every computed value, curves, flags, changes against the earlier revision),
-amending, the conflict message, and the job page's note of reports that need re-issue."""
+page (the results as reported, flags and curves first, the readings as the PDF's tables, every
+stored value folded away, changes against the earlier revision), the confirmation and next test
+after a decision, a wrong password at its field, amending, the conflict message, and the job
+page's note of reports that need re-issue. Methods, flags, states and events by their names
+(server/reports/names.py), the ids only in tooltips and links."""
 
 from __future__ import annotations
 
@@ -11,6 +14,7 @@ import pytest
 from fastapi.testclient import TestClient
 
 from server.db.session import Database
+from server.reports.names import event_name, flag_name, method_name, state_name
 from server.services import amendments, bench, reports, review
 from tests.conftest import PASSWORDS, People
 from tests.support.http import post_form, sign_in
@@ -31,6 +35,15 @@ def _three(db: Database, people: People) -> tuple[Lab, int, int, int]:
 
 def _ids(reply: object) -> list[int]:
     return [q.row.test.id for q in reply.context["rows"]]  # type: ignore[attr-defined]
+
+
+_TAG = re.compile(r"<[^>]*>")
+
+
+def _words(html: str) -> str:
+    """The text a person reads: the page without its tags (and so without attributes, where
+    the ids stay as tooltips and links)."""
+    return " ".join(_TAG.sub(" ", html).split())
 
 
 def test_the_queue_puts_errors_then_warnings_then_the_rest_and_counts_them(
@@ -58,6 +71,28 @@ def test_the_queue_puts_errors_then_warnings_then_the_rest_and_counts_them(
     assert counts.by_method == {"water-content": 2, "atterberg": 1}
     assert counts.by_author == {people.tech.id: 3}
     assert "1</b> with an error remark" in reply.text
+    assert "3 tests handed in" in _words(reply.text)
+
+
+def test_the_queue_names_methods_and_flags_in_words_with_the_ids_in_tooltips(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    _lab, clean, warned, failed = _three(db, people)
+    sign_in(app_client, "review", PASSWORDS["review"])
+    reply = app_client.get("/review")
+    text = _words(reply.text)
+    for method in ("atterberg", "water-content"):
+        assert method_name(method) in text and f'title="{method}"' in reply.text
+        assert method not in text  # the id only as a tooltip or a filter's value
+    # EXPIRED_BALANCE: a balance past its calibration date (ISO/IEC 17025:2017 cl. 6.4.7)
+    assert "✖ Error: " + flag_name("equipment-calibration-expired") in text
+    assert (
+        "equipment-calibration-expired" not in text and 'title="equipment-calibration-expired"' in reply.text
+    )
+    assert flag_name("pl-determinations-apart") in text  # BS 1377-2:1990 cl. 5 (the scenario's PL pair)
+    assert f'<option value="atterberg" >{method_name("atterberg")} (1)</option>' in reply.text
+    for test_id in (clean, warned, failed):
+        assert f'href="/review/{test_id}"' in reply.text
 
 
 def test_the_queue_narrows_by_job_method_person_age_and_flags(
@@ -121,7 +156,8 @@ def test_a_batch_is_signed_with_one_password_and_a_flagged_one_is_refused_whole(
     )
     assert done.status_code == 303 and done.headers["location"] == "/review?approved=2"
     assert {load(db, i).signature_meaning for i in (clean, other)} == {"Checked in a batch"}
-    assert "2 test(s) approved and signed." in app_client.get("/review?approved=2").text
+    assert "2 tests approved and signed." in app_client.get("/review?approved=2").text  # one plural helper
+    assert "1 test approved and signed." in app_client.get("/review?approved=1").text
 
 
 def test_the_review_page_shows_readings_every_computed_value_the_curves_and_every_flag(
@@ -141,7 +177,9 @@ def test_the_review_page_shows_readings_every_computed_value_the_curves_and_ever
     stored = load(db, test_id).results or {}
     assert len(ctx["computed"]) >= len(stored)  # every stored result is listed (nested ones as leaves)
     assert [f["code"] for f in ctx["flags"]] == ["pl-determinations-apart"]
-    assert "pl-determinations-apart" in reply.text
+    assert (
+        'title="pl-determinations-apart"' in reply.text and flag_name("pl-determinations-apart") in reply.text
+    )
     assert len(ctx["charts"]) == 2 and all(
         svg.startswith("<svg") for svg in ctx["charts"]
     )  # flow curve, chart
@@ -277,3 +315,78 @@ def test_the_job_page_loads_the_reports_that_need_reissue(
     assert done.status_code == 303
     run_queued(db)
     assert app_client.get(fragment, headers={"HX-Request": "true"}).context["reissue"] == []  # type: ignore[attr-defined]
+
+
+def test_the_review_page_leads_with_the_results_as_reported_then_the_readings_then_every_stored_value(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    lab = Lab(db, people.admin, "RV-7")
+    test_id = lab.submitted(people.tech)
+    sign_in(app_client, "review", PASSWORDS["review"])
+    reply = app_client.get(f"/review/{test_id}")
+    html = reply.text
+    assert f"<title>Review BH1 / S1 · {method_name('atterberg')} · Claybench</title>" in html
+    results = {line.label: (line.value, line.unit) for line in reply.context["report"].results}  # type: ignore[attr-defined]
+    # Das least squares LL 39.67 at 25 blows, shown to a whole number (DESIGN.md section 3: limits
+    # to whole numbers, water content to 0.1 %); w = (36.00 - 30.00) / 20.00 = 30.0 % (ASTM D2216 cl. 12.1)
+    assert results["Liquid limit, LL"][0] == "40" and results["Water content, w"] == ("30.0", "%")
+    summary, readings, stored, decision = (
+        html.index(f'id="{part}"') for part in ("summary", "readings", "stored", "decision")
+    )
+    assert summary < readings < stored < decision  # the decision bar is last: sticky at the bottom
+    assert '<details class="card" id="stored">' in html  # folded away, never open by default
+    tables = {t.title: t for t in reply.context["report"].readings}  # type: ignore[attr-defined]
+    trials = tables["Liquid limit — trials"]
+    assert trials.columns[-1] == "w (%)" and [r[2] for r in trials.rows] == ["15", "20", "28"]  # Das blows
+    text = _words(html)
+    shown = text.split("Every value as stored")[0]  # what is read before the folded stored values
+    assert "atterberg" not in shown  # the method by its name, the id in a tooltip
+    assert not re.search(r"\d\.\d{5,}", shown)  # no full-precision number (issue S9: 0.21599999999999997)
+    assert event_name("lab_test", "submit") in text and state_name("submitted") in text  # the history
+    assert ">tech<" not in html and "Tech Person" in text  # who, by name
+
+
+def test_a_decision_redirects_to_the_desk_which_confirms_it_and_offers_the_next_test(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    _lab, clean, warned, failed = _three(db, people)
+    sign_in(app_client, "review", PASSWORDS["review"])
+    path = f"/review/{warned}"
+    signed = {"version": str(version(db, warned)), "password": PASSWORDS["review"]}
+    done = post_form(app_client, path, f"{path}/approve", signed, follow_redirects=False)
+    assert done.status_code == 303 and done.headers["location"] == f"/review?decided={warned}"
+    desk = app_client.get(done.headers["location"])
+    assert desk.context["decided"].text.startswith(
+        f"✔ Approved and signed: {method_name('atterberg')} on BH1 / S2"
+    )  # type: ignore[attr-defined]
+    assert desk.context["next_up"].row.test.id == failed  # type: ignore[attr-defined]  # errors first
+    assert f'id="next-test" href="/review/{failed}"' in desk.text
+    path = f"/review/{failed}"
+    back = {"version": str(version(db, failed)), "reason": "re-weigh N1 on a calibrated balance"}
+    done = post_form(app_client, path, f"{path}/return", back, follow_redirects=False)
+    assert done.status_code == 303 and done.headers["location"] == f"/review?decided={failed}"
+    desk = app_client.get(done.headers["location"])
+    assert desk.context["decided"].text.startswith("↩ Returned to the bench: " + method_name("water-content"))  # type: ignore[attr-defined]
+    assert desk.context["next_up"].row.test.id == clean  # type: ignore[attr-defined]
+    assert (load(db, warned).status, load(db, failed).status) == ("approved", "returned")
+    # The address says which test, never what happened: a test nobody decided on confirms nothing false.
+    untouched = app_client.get(f"/review?decided={clean}").context["decided"].text  # type: ignore[attr-defined]
+    assert "Approved" not in untouched and state_name("submitted") in untouched
+
+
+def test_a_wrong_password_keeps_the_review_page_with_the_message_at_the_password_field(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    lab = Lab(db, people.admin, "RV-8")
+    test_id = lab.submitted(people.tech)
+    sign_in(app_client, "review", PASSWORDS["review"])
+    path = f"/review/{test_id}"
+    reply = post_form(
+        app_client, path, f"{path}/approve", {"version": str(version(db, test_id)), "password": "not it"}
+    )
+    assert reply.status_code == 422 and reply.template.name == "pages/review.html"  # type: ignore[attr-defined]
+    assert reply.context["errors"]["password"].startswith("the password does not match")  # type: ignore[attr-defined]
+    field = re.search(r'<input id="password"[^>]*>', reply.text)
+    assert field and 'aria-invalid="true"' in field[0] and 'aria-describedby="err-password"' in field[0]
+    assert 'id="err-password" role="alert">the password does not match' in reply.text
+    assert load(db, test_id).status == "submitted" and load(db, test_id).approved_by_id is None
