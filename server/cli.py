@@ -8,6 +8,7 @@ import gc
 import getpass
 import json
 import os
+import socket
 import subprocess
 import sys
 from typing import Any
@@ -15,8 +16,26 @@ from typing import Any
 from server.config import get_settings
 
 
-def _serve(host: str, port: int) -> None:
-    """The app on ``host:port``, its metrics on a port of their own, JSON log lines on stdout."""
+def _bind(host: str, port: int) -> socket.socket:
+    """The listening socket, bound before anything else so that the address printed is the one
+    served (port 0 takes a free port) and a port in use is said before a long demo load."""
+    try:
+        return socket.create_server((host, port), family=socket.AF_INET6 if ":" in host else socket.AF_INET)
+    except OSError as exc:
+        raise SystemExit(f"cannot listen on {host}:{port}: {exc.strerror}") from exc
+
+
+def _address(sock: socket.socket) -> str:
+    """The base address a browser on this machine opens: the bound host and port (loopback for a
+    socket bound to every address)."""
+    host, port = sock.getsockname()[:2]
+    if host in ("0.0.0.0", "::"):
+        host = "127.0.0.1" if host == "0.0.0.0" else "::1"
+    return f"http://[{host}]:{port}" if ":" in host else f"http://{host}:{port}"
+
+
+def _serve(sock: socket.socket) -> None:
+    """The app on the bound socket, its metrics on a port of their own, JSON log lines on stdout."""
     import logging.config
 
     import uvicorn
@@ -35,14 +54,13 @@ def _serve(host: str, port: int) -> None:
     # build many apps, and frozen objects are never freed.
     gc.collect()
     gc.freeze()
-    uvicorn.run(
+    config = uvicorn.Config(
         app,
-        host=host,
-        port=port,
         proxy_headers=True,
         log_config=None,  # configured above
         access_log=False,  # the app writes each request's line itself (server/observability/middleware.py)
     )
+    uvicorn.Server(config).run(sockets=[sock])
 
 
 def _with_worker(settings_url: str, wanted: bool | None) -> bool:
@@ -59,11 +77,11 @@ def _start_worker() -> subprocess.Popen[bytes]:
     )
 
 
-def _serve_and_render(host: str, port: int, worker_wanted: bool | None) -> None:
+def _serve_and_render(sock: socket.socket, worker_wanted: bool | None) -> None:
     """The web app, and on SQLite (or when asked) a render worker beside it for as long."""
     worker = _start_worker() if _with_worker(get_settings().database_url, worker_wanted) else None
     try:
-        _serve(host, port)
+        _serve(sock)
     finally:
         if worker is not None:
             worker.terminate()  # the worker ends after the render in hand, or is killed
@@ -74,7 +92,9 @@ def _serve_and_render(host: str, port: int, worker_wanted: bool | None) -> None:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
-    _serve_and_render(args.host, args.port, args.worker)
+    sock = _bind(args.host, args.port)
+    print(f"claybench: serving on {_address(sock)}", file=sys.stderr, flush=True)
+    _serve_and_render(sock, args.worker)
     return 0
 
 
@@ -344,15 +364,29 @@ def cmd_restore(args: argparse.Namespace) -> int:
     return 0
 
 
+def _step(text: str) -> None:
+    """One line per step of the demo load, on stderr (stdout keeps the summary)."""
+    print(f"claybench demo: {text}", file=sys.stderr, flush=True)
+
+
 def cmd_demo(args: argparse.Namespace) -> int:
+    """Load the demo (kept if it is there, unless --fresh), then serve it where the summary says.
+
+    The socket is bound first, so that the printed address and the demo report's verify link
+    name the port really served unless CLAYBENCH_PUBLIC_BASE_URL says otherwise."""
     from server.demo import load_demo
 
-    settings = get_settings()
-    info = load_demo(settings, reset=not args.keep)
-    print(info.summary())
-    if args.no_serve:
+    sock = None if args.no_serve else _bind(args.host, args.port)
+    address = _address(sock) if sock else get_settings().public_base_url.rstrip("/")
+    if sock and "CLAYBENCH_PUBLIC_BASE_URL" not in os.environ:
+        os.environ["CLAYBENCH_PUBLIC_BASE_URL"] = address  # the app, its worker and the demo's links
+        get_settings.cache_clear()
+    info = load_demo(get_settings(), reset=args.fresh, progress=_step)
+    print(info.summary(address), flush=True)
+    if sock is None:
         return 0
-    _serve_and_render(args.host, args.port, None)
+    _step(f"serving on {address} (Ctrl-C stops)")
+    _serve_and_render(sock, None)
     return 0
 
 
@@ -374,12 +408,16 @@ def parser() -> argparse.ArgumentParser:
     w = sub.add_parser("worker", help="render issued reports (the queue of the database in DATABASE_URL)")
     w.set_defaults(fn=cmd_worker)
 
-    d = sub.add_parser("demo", help="create a demo database with a fictional job, then serve it")
+    d = sub.add_parser(
+        "demo", help="build the demo database with a fictional job (or keep the one there), then serve it"
+    )
     d.add_argument("--host", default="127.0.0.1")
     d.add_argument("--port", type=int, default=8000)
     d.add_argument(
-        "--keep", action="store_true", help="keep an existing demo database instead of starting afresh"
+        "--fresh", action="store_true", help="delete an existing SQLite demo database and build it again"
     )
+    # Keeping is the default now; --keep stays accepted so that older scripts still run.
+    d.add_argument("--keep", action="store_true", help=argparse.SUPPRESS)
     d.add_argument("--no-serve", action="store_true", help="load the demo data and stop")
     d.set_defaults(fn=cmd_demo)
 

@@ -10,24 +10,26 @@ from __future__ import annotations
 
 import math
 import random
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
 from sqlalchemy.engine import make_url
-from sqlmodel import select
+from sqlmodel import col, select
 
 from server.config import Settings
 from server.db.migrate import upgrade
 from server.db.session import Database
-from server.db.tables import Job, User
+from server.db.tables import Job, Report, User
 from server.demo_report import add_report_tests
 from server.engine import METHODS
 from server.exchange.spreadsheet import read_spreadsheet
 from server.services import bench, imports, jobs, links, receipt, registers, reports, review, samples
 from server.services.users import create_user
 
+DEMO_JOB = "SMW-2611"
 LOGINS = (
     ("tech", "Tamsin Okafor", "technician", "bench-demo-2026"),
     ("review", "Ravi Lindqvist", "reviewer", "review-demo-2026"),
@@ -189,47 +191,87 @@ class DemoInfo:
     database_url: str
     job_code: str
     report_number: str
-    link_url: str
+    link_url: str | None  # None when an existing demo was kept: a link's token is stored hashed only
+    kept: bool = False
 
-    def summary(self) -> str:
-        lines = [
-            "Claybench demo is ready (all names and data are fictional).",
-            "",
-            f"  database     {self.database_url}",
-            "  sign in at   http://127.0.0.1:8000/signin",
-            "",
-        ]
+    def summary(self, address: str) -> str:
+        """What a person needs to try the demo, with the address the app really serves on."""
+        head = (
+            "Claybench demo kept as it was (all names and data are fictional); --fresh starts afresh."
+            if self.kept
+            else "Claybench demo is ready (all names and data are fictional)."
+        )
+        lines = [head, "", f"  database     {self.database_url}", f"  sign in at   {address}/signin", ""]
         lines += [f"  {role:<11} {name:<9} password {pw}" for name, _, role, pw in LOGINS]
-        lines += [
-            "",
-            f"  job {self.job_code}: issued report {self.report_number}",
-            f"  client link  {self.link_url}",
-            "",
-        ]
-        return "\n".join(lines)
+        lines += ["", f"  job {self.job_code}: issued report {self.report_number}"]
+        lines.append(
+            f"  client link  {self.link_url}"
+            if self.link_url
+            else "  client link  make one on the job page (Links): a kept link's address is not stored"
+        )
+        return "\n".join([*lines, ""])
+
+
+Progress = Callable[[str], None]
+
+
+def _quiet(step: str) -> None:
+    """No progress lines (the default for tests and other callers)."""
 
 
 def _reset_sqlite(url: str) -> None:
     parsed = make_url(url)
     if parsed.get_backend_name() != "sqlite" or not parsed.database:
-        raise SystemExit("the demo resets only an SQLite database; unset DATABASE_URL or pass --keep")
+        raise SystemExit(
+            "the demo starts afresh only on an SQLite database; unset DATABASE_URL or drop --fresh"
+        )
     for suffix in ("", "-wal", "-shm"):
         Path(parsed.database + suffix).unlink(missing_ok=True)
 
 
-def load_demo(settings: Settings, *, reset: bool = True, seed: int = 2611) -> DemoInfo:
-    """Create (or recreate) the demo database and fill it through the services."""
+def load_demo(
+    settings: Settings, *, reset: bool = True, seed: int = 2611, progress: Progress = _quiet
+) -> DemoInfo:
+    """Create the demo database and fill it through the services, each step told to ``progress``.
+
+    With ``reset`` an SQLite demo database is deleted first. Without it an existing demo is kept
+    untouched (a person's work in it survives), and a database that holds anything else is refused
+    rather than mixed with the demo."""
     if reset:
+        progress(f"removing the old demo database ({settings.database_url})")
         _reset_sqlite(settings.database_url)
+    progress("bringing the database schema up to date")
     upgrade(settings.database_url)
     db = Database(settings.database_url)
     try:
-        return _fill(db, settings, random.Random(seed))
+        kept = _existing_demo(db, settings)
+        if kept is not None:
+            progress(f"keeping the demo already in {settings.database_url}")
+            return kept
+        return _fill(db, settings, random.Random(seed), progress)
     finally:
         db.dispose()
 
 
-def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
+def _existing_demo(db: Database, settings: Settings) -> DemoInfo | None:
+    """The demo already in the database, or None for an empty one; refuses a database with other
+    data, so that the demo never writes into a laboratory's own records."""
+    with db.session() as s:
+        job = s.exec(select(Job).where(Job.code == DEMO_JOB)).first()
+        anyone = s.exec(select(User.id).limit(1)).first()
+        if job is None:
+            if anyone is not None:
+                raise SystemExit(
+                    f"{settings.database_url} holds data that is not the demo: point DATABASE_URL at "
+                    "another database (or unset it), or pass --fresh to replace an SQLite demo file"
+                )
+            return None
+        number = s.exec(select(Report.number).where(Report.job_id == job.id).order_by(col(Report.id))).first()
+    return DemoInfo(settings.database_url, job.code, number or "(none)", None, kept=True)
+
+
+def _fill(db: Database, settings: Settings, rng: random.Random, progress: Progress) -> DemoInfo:
+    progress("adding the demo users and the laboratory")
     users: dict[str, User] = {}
     for username, full_name, role, password in LOGINS:
         users[username] = create_user(db, None, username, full_name, role, password)
@@ -241,6 +283,7 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         "Unit 4, Quarry Lane, Fellgate FG2 7QL",
         "Demonstration laboratory (fictional); no accreditation",
     )
+    progress("filling the registers: 40 tins and the instruments")
     equipment = _fill_registers(db, admin)
     client = jobs.create_client(
         db, admin, "Selwyn Moor Water Company", "Design office, reservoir safety team"
@@ -249,13 +292,16 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
         db,
         admin,
         client.id or 0,
-        "SMW-2611",
+        DEMO_JOB,
         "Tarn Hollow reservoir embankment raising",
         "Tarn Hollow, Selwyn Moor",
         due_date=date.today() + timedelta(days=14),
     )
     delivered = datetime.now(UTC).replace(second=0, microsecond=0) - timedelta(days=3)
     for (code, kind), soils in LOCATIONS.items():
+        progress(
+            f"job {job.code}, {code}: receiving {len(soils)} samples and taking their tests to their states"
+        )
         samples.add_location(db, admin, job.id or 0, code, kind)
         for soil in soils:
             row = receipt.ReceiptRow(
@@ -272,11 +318,16 @@ def _fill(db: Database, settings: Settings, rng: random.Random) -> DemoInfo:
             readings = {**atterberg_readings(soil, rng), **_bench_equipment(soil, equipment)}
             _advance(db, test.id or 0, soil, readings, tech, reviewer)
     signers = [(users[name], pw) for name, _, _, pw in LOGINS if name in ("review", "review2")]
+    progress(f"job {job.code}: grading, classification and strength tests for the report")
     add_report_tests(db, admin, job.id or 0, tech, signers, rng)  # grading, classification, strength
+    progress(f"job {job.code}, TP04: a test of every other method")
     _every_bench_page(db, job.id or 0, admin, tech)
+    progress(f"job {job.code}: issuing the report (rendering its PDF takes a few seconds)")
     signing = next(pw for name, *_, pw in LOGINS if name == reviewer.username)
     report = reports.issue_report(db, reviewer, job.id or 0, settings.public_base_url, password=signing)
+    progress(f"job {job.code}: opening a client link to the issued report")
     link = links.create_link(db, reviewer, job.id or 0, 30, "Selwyn Moor design office")
+    progress(f"job {SCHEDULE_JOB}: importing a client's sample schedule and receiving part of it")
     _scheduled_job(db, admin, tech, client.name)
     return DemoInfo(
         settings.database_url,

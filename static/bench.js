@@ -32,6 +32,7 @@
   var versionInput = form.querySelector('input[name="version"]');
   var banner = document.getElementById("net");
   var stateLine = document.getElementById("save-state");
+  var atButton = document.getElementById("hand-in-state"); // a refused hand-in, said where it was pressed
   var storedEl = document.getElementById("stored-values");
   var saved = storedEl ? JSON.parse(storedEl.textContent || "{}") : {};
   var pending = {}; // path -> {value, base, seq, state: "typed" | "conflict", theirs}
@@ -415,6 +416,10 @@
       }
     });
     var kept = outstanding().length;
+    var invalid = outstanding().filter(function (p) {
+      var err = document.getElementById("err-" + dom(p));
+      return err && err.dataset.kind === "invalid";
+    }).length;
     var conflicts = Object.keys(pending).filter(function (p) { return pending[p].state === "conflict"; }).length;
     if (banner) {
       banner.hidden = online;
@@ -432,6 +437,8 @@
         " kept on this tablet and sent in a moment.";
       state = "busy";
     }
+    // typed and about to be sent (the live results come first): saving, not "not saved"
+    else if (!problem && !invalid) { text = "… Saving."; state = "saving"; }
     else {
       text = "✎ " + kept + " value" + (kept === 1 ? " is" : "s are") + " not saved yet" +
         (problem ? ": " + problem : ": correct the values marked ✖") + ".";
@@ -461,10 +468,15 @@
     ev.preventDefault();
     var handIn = button && button.value === "submit";
     if (stateLine) { stateLine.textContent = "… Saving."; stateLine.dataset.state = "saving"; }
+    if (atButton) atButton.textContent = "";
     flush(function (ok) {
       if (!ok) {
         paint();
         if (stateLine) stateLine.textContent += handIn ? " Not handed in." : "";
+        if (atButton && stateLine) {
+          atButton.textContent = (handIn ? "✖ Not handed in: " : "✖ Draft not saved: ") +
+            stateLine.textContent.replace(/^\S+\s/, "").replace(/ Not handed in\.$/, "");
+        }
         return;
       }
       if (!handIn) return;
@@ -684,18 +696,19 @@
       .then(function (r) { if (r.ok) done(r.body); else say(input, "✖ " + (r.body.detail || "not in the register")); },
             function () { say(input, "no connection: type the value from the tin or the label"); });
   }
-  form.addEventListener("change", function (ev) {
-    var el = ev.target;
+  function fromRegister(el, onlyEmpty) {
     var name = el.name || "";
     var code = el.value.trim();
     if (!code) return;
     var base = name.slice(0, name.lastIndexOf("."));
     if (/\.container$/.test(name)) {
+      if (onlyEmpty && field(base + ".tare_g") && field(base + ".tare_g").value.trim()) return;
       lookUp("/registers/containers/" + encodeURIComponent(code), el, function (tin) {
         fill(field(base + ".tare_g"), tin.tare_g);
         say(el, tin.active ? "✔ tare " + tin.tare_g + " g from the register" : "⚠ tin taken out of use");
       });
     } else if (/^r\.(.+\.)?equipment\.\d+\.id$/.test(name)) {
+      if (onlyEmpty && field(base + ".calibration_due") && field(base + ".calibration_due").value.trim()) return;
       lookUp("/registers/equipment/" + encodeURIComponent(code), el, function (item) {
         fill(field(base + ".calibration_due"), item.calibration_due || "");
         var capacity = item.reading && item.reading.capacity_g;
@@ -704,5 +717,11 @@
         say(el, mark + item.state + (item.calibration_due ? " (due " + item.calibration_due + ")" : ""));
       });
     }
+  }
+  form.addEventListener("change", function (ev) { fromRegister(ev.target, false); });
+  // A number already there when the page opens (put back from this tablet after a reload, or
+  // saved while the register could not be reached) fills what is still empty beside it.
+  form.querySelectorAll('input[name$=".container"], input[name$=".id"]').forEach(function (el) {
+    if (!el.disabled && !el.readOnly) fromRegister(el, true);
   });
 })();

@@ -77,6 +77,7 @@ DECIMALS: dict[str, int] = {
     "organic_content": 1,
     "organic_content_determinations": 1,
     "maximum_dry_density_mg_m3": 2,
+    "particle_density_used_mg_m3": 2,
     "optimum_water_content": 1,
     "oven_dried_ll_ratio": 2,  # a ratio to 0.01 against its 0.75 criterion (common practice)
 }

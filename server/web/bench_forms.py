@@ -44,7 +44,7 @@ class Input:
     key: str
     label: str
     unit: str = ""
-    kind: str = "decimal"  # decimal | integer | text | choice | flag
+    kind: str = "decimal"  # decimal | integer | text | date | choice | flag
     options: tuple[Option, ...] = ()
     hint: str = ""
     when: When | None = None
@@ -58,7 +58,7 @@ class Input:
         typed = text.strip()
         if not typed:
             return None
-        if self.kind == "text":
+        if self.kind in ("text", "date"):  # a date as the picker gives it, YYYY-MM-DD
             return typed[:MAX_TEXT]
         if self.kind == "flag":
             return True if typed == "true" else typed[:MAX_TEXT]
@@ -419,14 +419,14 @@ def _compaction() -> tuple[Section, ...]:
 # mass, each instrument's calibration due date and a balance's capacity from the registers
 # (static/bench.js); the engine flags an instrument used after its due date and refuses a mass
 # above the capacity of the balance named (server/engine/equipment.py).
-TEST_DATE = Values("Test date", (Input("tested_on", "Date tested", kind="text", hint="YYYY-MM-DD"),))
+TEST_DATE = Values("Test date", (Input("tested_on", "Date tested", kind="date"),))
 EQUIPMENT = Rows(
     "equipment",
     "Instruments used",
     "instrument",
     (
         Input("id", "Instrument no.", kind="text"),
-        Input("calibration_due", "Calibration due", kind="text", hint="from the register"),
+        Input("calibration_due", "Calibration due", kind="date", hint="from the register"),
         Input("capacity_g", "Capacity", "g", hint="a balance's, from the register"),
     ),
     2,
@@ -704,6 +704,7 @@ RESULT_LINES: tuple[ResultLine, ...] = (
     ResultLine("linear_shrinkage", "Linear shrinkage LS", "%"),
     ResultLine("bulk_density_mg_m3", "Bulk density ρ", "Mg/m³"),
     ResultLine("dry_density_mg_m3", "Dry density ρd", "Mg/m³"),
+    ResultLine("particle_density_used_mg_m3", "Particle density used ρs", "Mg/m³"),
     ResultLine("void_ratio", "Void ratio e"),
     ResultLine("porosity", "Porosity n"),
     ResultLine("degree_of_saturation", "Degree of saturation Sr", "%"),

@@ -11,7 +11,7 @@ from typing import Annotated
 
 from fastapi import APIRouter, Depends, File, Form, HTTPException, Request, UploadFile
 from sqlalchemy.orm import defer
-from starlette.responses import Response
+from starlette.responses import RedirectResponse, Response
 
 from server.auth.sessions import database, require_user
 from server.auth.throttle import client_address, throttles
@@ -176,6 +176,13 @@ def _verify_page(request: Request, status_code: int = 200, **context: object) ->
     response = render(request, "pages/verify.html", status_code=status_code, user=None, **context)
     response.headers.update(PRIVATE)
     return response
+
+
+@router.get("/favicon.ico")
+def favicon() -> Response:
+    """Browsers ask for /favicon.ico whatever the page links: sent to the SVG icon in static/
+    (a permanent redirect, so they ask once)."""
+    return RedirectResponse("/static/favicon.svg", status_code=308)
 
 
 @router.get("/verify")

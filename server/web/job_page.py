@@ -14,7 +14,7 @@ from server.db.job_list import job_sheet_page
 from server.db.queries import test_rows, users_by_id
 from server.db.tables import Job, LabTest, LinkAccess, Location, Sample, User
 from server.engine import METHODS
-from server.services.renders import job_renders
+from server.services.renders import WAITING, RenderState, job_renders
 from server.services.reports import REPORT_MEANING
 from server.web.jobs import page_number
 from server.web.params import IdPath, PageRoute
@@ -43,11 +43,41 @@ DONE = {
     "withdrawn": "Sample withdrawn; it stays listed here and is left out of reports.",
     "imported": "Schedule imported. The audit trail records the file and what it changed.",
     "rendering": "Report signed. It is being rendered; it appears below when it is issued.",
+    "link-created": "Client link created: copy it now from Client links below, it is shown only this once.",
 }
+# A new client link's address, kept in the session from the POST that made it until the job page
+# shows it once (post, redirect, get). The session cookie is signed, not encrypted: the address
+# rides only in the cookie of the person who made the link, for one redirect, and is then removed.
+NEW_LINK_KEY = "new_link"
 
 
 def done_message(done: str) -> str | None:
     return DONE.get(done)
+
+
+def keep_new_link(request: Request, job_id: int, url: str) -> None:
+    """Hold a new link's address for the job page the redirect lands on."""
+    request.session[NEW_LINK_KEY] = {"job": job_id, "url": url}
+
+
+def _take_new_link(request: Request, job_id: int) -> str | None:
+    """The address held for this job's page, removed as it is shown (a reload no longer has it)."""
+    held = request.session.get(NEW_LINK_KEY)
+    if not isinstance(held, dict) or held.get("job") != job_id:
+        return None
+    del request.session[NEW_LINK_KEY]
+    return str(held.get("url", "")) or None
+
+
+def _render_message(states: list[RenderState]) -> str:
+    """What the page says after a report was signed: still rendering, issued, or failed (the page
+    reloads itself when the render ends, under the same address)."""
+    newest = states[0].render if states else None
+    if newest is None or newest.status in WAITING:
+        return DONE["rendering"]
+    if newest.status == "done":
+        return f"Report {newest.number} revision {newest.revision} issued: it is listed under Reports below."
+    return f"The render of report {newest.number} revision {newest.revision} failed: nothing was issued."
 
 
 def offered_methods(standards: str) -> dict[str, str]:
@@ -102,6 +132,7 @@ def job_page_response(
             [x.received_by_id for xs in sheet.samples.values() for x in xs]
             + [x.withdrawn_by_id for xs in sheet.samples.values() for x in xs],
         )
+    message = _render_message(render_states) if extra.get("done") == "rendering" else extra.get("message")
     return render(
         request,
         "pages/job.html",
@@ -114,7 +145,7 @@ def job_page_response(
         new_link=extra.get("new_link"),
         error=extra.get("error"),
         link_errors=extra.get("link_errors", {}),
-        message=extra.get("message"),
+        message=message,
         issue_form=extra.get("issue_form", {"choice": "all", "sample": [], "overlap_decision": ""}),
         issue_errors=extra.get("issue_errors", {}),
         report_meaning=REPORT_MEANING,
@@ -138,7 +169,14 @@ def job_page_response(
 @router.get("/jobs/{job_id}")
 def job_page(request: Request, job_id: IdPath, user: Staff, done: str = "", samples: str = "") -> Response:
     """The job; ``samples`` is the page of its samples (a hand-edited one shows a page anyway)."""
-    return job_page_response(request, job_id, message=done_message(done), samples_page=page_number(samples))
+    return job_page_response(
+        request,
+        job_id,
+        message=done_message(done),
+        done=done,
+        new_link=_take_new_link(request, job_id) if done == "link-created" else None,
+        samples_page=page_number(samples),
+    )
 
 
 @router.get("/samples/{sample_id}")

@@ -15,7 +15,7 @@ from server.services import links, renders, reports
 from server.services.errors import ServiceError, http_status
 from server.tasks.queue import enqueue
 from server.web.forms import record_id, refusal_of
-from server.web.job_page import job_page_response
+from server.web.job_page import job_page_response, keep_new_link
 from server.web.params import IdPath, IdsQuery, PageRoute
 from server.web.refusals import refusals_as_http
 from server.web.security_headers import csp_with_style_nonce, style_nonce
@@ -129,9 +129,28 @@ def preview_report(
     choice: str = "all",
     sample: IdsQuery = None,
 ) -> Response:
-    """The report as it would be issued now, as a web page marked "preview, not issued" (nothing
-    is stored). Charts are the same SVG the PDF carries."""
-    chosen = (sample or []) if choice == "chosen" else None
+    """The report as it would be issued now, as a web page marked "preview, not issued", with no
+    report number of its own (nothing is stored). Charts are the same SVG the PDF carries."""
+    return _preview(request, user, job_id, (sample or []) if choice == "chosen" else None)
+
+
+@router.post("/jobs/{job_id}/reports/preview")
+def preview_report_from_form(
+    request: Request,
+    job_id: IdPath,
+    user: Checker,
+    choice: Annotated[str, Form()] = "all",
+    sample: Annotated[list[str] | None, Form()] = None,
+) -> Response:
+    """The preview asked from the issue form. A POST: as a GET the form would put its CSRF token
+    (and a password typed already) into the address, the browser's history and the logs."""
+    chosen = (
+        [i for i in (record_id(x) for x in sample or []) if i is not None] if choice == "chosen" else None
+    )
+    return _preview(request, user, job_id, chosen)
+
+
+def _preview(request: Request, user: User, job_id: int, chosen: list[int] | None) -> Response:
     nonce = style_nonce()
     try:
         html = reports.preview_report_html(
@@ -162,8 +181,8 @@ def create_link(
     except ServiceError as exc:
         errors, _ = refusal_of(exc)
         return job_page_response(request, job_id, http_status(exc), error=str(exc), link_errors=errors)
-    url = f"{_base_url(request).rstrip('/')}/share/{made.token}"
-    return job_page_response(request, job_id, new_link=url)
+    keep_new_link(request, job_id, f"{_base_url(request).rstrip('/')}/share/{made.token}")
+    return RedirectResponse(f"/jobs/{job_id}?done=link-created#links", status_code=303)
 
 
 @router.get("/jobs/{job_id}/links")

@@ -160,6 +160,7 @@ DECLARED: tuple[tuple[tuple[str, str], Rule], ...] = (
     (("POST", "/jobs/{job_id}/reports"), CHECKER),
     (("POST", "/reports/{report_id}/reissue"), CHECKER),
     (("GET", "/jobs/{job_id}/reports/preview"), CHECKER),
+    (("POST", "/jobs/{job_id}/reports/preview"), CHECKER),
     (("GET", "/jobs/{job_id}/renders"), STAFF),
     (("POST", "/renders/{render_id}/retry"), CHECKER),
     (("POST", "/jobs/{job_id}/links"), CHECKER),
@@ -173,6 +174,7 @@ DECLARED: tuple[tuple[tuple[str, str], Rule], ...] = (
     (("GET", "/reports/{report_id}.pdf"), STAFF),
     (("GET", "/verify"), PUBLIC),
     (("POST", "/verify"), PUBLIC),
+    (("GET", "/favicon.ico"), PUBLIC),
     # server/web/home.py
     (("GET", "/bench"), STAFF),
     # server/web/audit.py

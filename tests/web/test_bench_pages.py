@@ -276,3 +276,41 @@ def test_the_cone_inputs_of_an_atterberg_set_show_only_once_the_cone_is_chosen()
     assert cone["blows"] and not cone["penetration_mm.0"]
     cup = trial_cells({"liquid_limit": {"method": "ll-cup-one-point"}})
     assert not cup["blows"] and cup["penetration_mm.0"]
+
+
+# -- S9 point 6: the bench on a tablet ----------------------------------------------------------
+
+
+def test_every_date_on_a_bench_sheet_opens_the_date_picker(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    """The test date and each instrument's calibration due date are typed as dates
+    (HTML Living Standard, input type=date), on the sheet of every method."""
+    job = small_job(db, people.admin)
+    tests = jobs.request_tests(db, people.admin, [job.sample_id], sorted(METHODS))
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+    for test in tests:
+        page = app_client.get(f"/tests/{test.id}").text
+        dates = re.findall(r'<input id="in-r-[^"]*"\s+name="r\.([^"]+)"[^>]*type="date"', page)
+        assert "tested_on" in dates, test.method
+        assert any(d.endswith("calibration_due") for d in dates), test.method
+
+
+def test_a_refused_hand_in_is_said_at_the_hand_in_button(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    """Pressed at the foot of a long sheet, the refusal must be read there, not only at the top."""
+    job = small_job(db, people.admin)
+    sign_in(app_client, "tech", PASSWORDS["tech"])
+    path = f"/tests/{job.test_id}"
+    partial = {"water_content": ATTERBERG["water_content"]}  # no liquid or plastic limit yet
+    reply = post_form(
+        app_client, path, f"{path}/readings", [*form_fields(partial), ("version", "1"), ("then", "submit")]
+    )
+    assert reply.status_code in (409, 422), reply.text
+    at_button = re.search(
+        r'<p class="problem hand-in-state" id="hand-in-state" role="alert">([^<]*)</p>', reply.text
+    )
+    assert at_button and "not handed in" in at_button.group(1), reply.text
+    actions = reply.text.index('class="actions bench-actions"')
+    assert actions < reply.text.index('id="hand-in-state"') < reply.text.index("</form>", actions)

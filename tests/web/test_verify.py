@@ -113,3 +113,18 @@ def test_the_page_says_plainly_which_hash_the_report_prints(app_client: TestClie
 def test_an_empty_upload_is_refused_with_a_message(app_client: TestClient) -> None:
     page = app_client.post("/verify", files={"pdf": ("empty.pdf", b"", "application/pdf")})
     assert page.status_code == 422 and "Choose the PDF file" in page.text
+
+
+def test_the_qr_code_address_shows_its_verdict_first_and_names_it_in_the_title(
+    app_client: TestClient, db: Database, people: People
+) -> None:
+    """Opened from the QR code on a phone, the answer is the first thing under the heading; how
+    the check works is folded away below it."""
+    report, _ = _issued(db, people)
+    address = f"/verify?number={report.number}&revision={report.revision}&sha256={report.fingerprint}"
+    page = app_client.get(address).text
+    assert "<title>✔ Genuine and current · Check a test report · Claybench</title>" in page
+    assert page.index('id="verdict"') < page.index("When a report is issued") < page.index("<form")
+    assert '<details class="how"><summary>How this check works</summary>' in page
+    blank = app_client.get("/verify").text  # nothing asked yet: the explanation stays open
+    assert "<details" not in blank and "When a report is issued" in blank
