@@ -11,7 +11,7 @@ Two files, one content:
 
 What a reader needs beside a number is how the report printed it: every result comes as the
 report's text ("40", "NP", "—": rounded by ``server.engine.rounding``, through the report's own
-``server.reports.context``, so the two can never disagree) beside the full-precision value as
+``server.reports.summary``, so the two can never disagree) beside the full-precision value as
 stored. In the XLSX the full-precision values are numbers, the reported values text (a "20.0"
 keeps its digit; "NP" is no number). openpyxl writes a number with 16 significant digits
 ("%.16g"), one fewer than a double may need: a value read back from the XLSX can differ from the
@@ -48,14 +48,9 @@ from server.db.tables import Job
 from server.engine import METHODS
 from server.engine.readings import as_entered, as_number
 from server.exchange.workbook import FIXED_TIME, workbook_bytes
-from server.reports.context import (
-    SummaryRow,
-    TestEntry,
-    sample_results,
-    show,
-    shown_result,
-    summary_row,
-)
+from server.reports.data import TestEntry
+from server.reports.formatting import show
+from server.reports.summary import SummaryRow, sample_results, shown_result, summary_row
 from server.services.errors import NotFound, invalid
 
 Cell = str | int | float | bool | None

@@ -1,6 +1,8 @@
 """Reports: the certified test report (data, view, charts, PDF).
 
-``context`` and ``charts`` are pure and cheap to import (web pages use the charts too);
+``data`` (the frozen report data and its fingerprint), ``view`` (what the template prints, built
+from ``summary``, ``quantities`` and ``figures``), ``formatting`` and ``names`` (shared with the
+pages) and ``charts`` are pure and cheap to import;
 ``pdf`` holds the project's one WeasyPrint import and is loaded only when a PDF is asked for.
 This package may import ``server.engine`` but never the database or the web code: the service
 layer builds a ``ReportData`` from its records and calls ``render_report_pdf``.
@@ -10,7 +12,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
-from server.reports.context import (
+from server.reports.data import (
     DEFAULT_CAUTIONS,
     LabInfo,
     MethodNote,
@@ -18,10 +20,10 @@ from server.reports.context import (
     RevisionNote,
     Signatory,
     TestEntry,
-    build_view,
     canonical_json,
     content_fingerprint,
 )
+from server.reports.view import build_view
 
 if TYPE_CHECKING:
     from server.reports.pdf import render_report_html, render_report_pdf

@@ -30,7 +30,9 @@ from weasyprint import HTML
 from weasyprint.text.fonts import FontConfiguration
 from weasyprint.urls import URLFetcher
 
-from server.reports.context import ReportData, build_view, canonical_json, content_fingerprint
+from server.reports.data import ReportData, canonical_json, content_fingerprint
+from server.reports.formatting import people
+from server.reports.view import build_view
 
 __all__ = [
     "check_url",
@@ -59,6 +61,7 @@ def _environment() -> Environment:
         trim_blocks=True,
         lstrip_blocks=True,
         keep_trailing_newline=False,
+        finalize=people,  # a negative number printed with a real minus sign (formatting.people)
     )
 
 

@@ -43,7 +43,7 @@ from server.db.tables import (
 from server.engine import METHODS
 from server.exchange.ags4_write import ags4_text
 from server.exchange.job_export import job_export
-from server.reports.context import (
+from server.reports.data import (
     LabInfo,
     MethodNote,
     ReportData,
@@ -52,6 +52,7 @@ from server.reports.context import (
     TestEntry,
     content_fingerprint,
 )
+from server.reports.names import ROLE_NAMES
 from server.services import audit
 from server.services.errors import Conflict, Forbidden, NotFound, invalid
 from server.services.review import Signature, required_reason, signer_in
@@ -61,7 +62,7 @@ REPORT_MEANING = (
     "Authorised for issue: I have checked that this report carries the approved results listed, "
     "as approved, and I release it to the client"
 )
-ROLE_TITLES = {"technician": "Technician", "reviewer": "Reviewer", "admin": "Laboratory administrator"}
+ROLE_TITLES = ROLE_NAMES  # the one table of names (server/reports/names.py)
 # Optional free text in a test's readings: how the test departed from its standard.
 DEVIATION_KEY = "deviation"
 
@@ -446,6 +447,11 @@ def _overlap_decision(session: Session, rows: Sequence[TestRow], decision: str) 
     )
 
 
+# What a preview prints where an issued report has its number: a preview takes none of the job's
+# numbers, so that no copy of it can pass for the report issued later under that number.
+PREVIEW_NUMBER = "PREVIEW"
+
+
 def preview_report_html(
     db: Database,
     actor: User,
@@ -459,7 +465,7 @@ def preview_report_html(
     ``render_report_html``'s."""
     check_issuer(actor)
     with db.session() as s:
-        data, _ = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids)
+        data, _ = new_report_data(s, job_id, actor, utcnow(), base_url, sample_ids, number=PREVIEW_NUMBER)
     from server.reports.pdf import render_report_html
 
     return render_report_html(data, preview=True, style_nonce=style_nonce)

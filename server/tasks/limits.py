@@ -18,7 +18,7 @@ from functools import cache
 from multiprocessing.connection import Connection
 from multiprocessing.context import ForkServerContext
 
-from server.reports.context import ReportData
+from server.reports.data import ReportData
 
 
 class RenderFailed(Exception):

@@ -41,7 +41,7 @@ from server.db.tables import LabTest, User
 from server.engine import METHODS
 from server.engine.contract import Evaluation, Flag
 from server.engine.readings import as_number
-from server.engine.rounding import DECIMALS, reported, round_half_up
+from server.reports import formatting
 from server.services import bench, offline
 from server.services.errors import Conflict, Invalid, NotFound, ServiceError, http_status
 from server.services.linked_inputs import LINKED
@@ -151,7 +151,7 @@ def _output(ev: Evaluation, readings: dict[str, Any], section: Rows, i: int, out
     value = entry.get(out.field) if out.field and isinstance(entry, dict) else entry
     if not _number(value):
         return None
-    return Shown(out.label, reported(out.rounding, value), out.unit)
+    return Shown(out.label, formatting.number(out.rounding, value), out.unit)
 
 
 def _row_flags(ev: Evaluation, noun: str, number: int) -> list[Flag]:
@@ -233,12 +233,6 @@ def sheet_texts(method: str, readings: dict[str, Any]) -> dict[str, str]:
     return out
 
 
-def _spread(rounding: str, u: float) -> str:
-    """The expanded uncertainty one decimal finer than its value, so that it never shows as 0."""
-    decimals = DECIMALS.get(rounding, 2) + 1
-    return f"± {round_half_up(u, decimals):.{decimals}f}"
-
-
 def result_lines(ev: Evaluation) -> list[Shown]:
     """The results panel: each result the engine gave, rounded by its rule, with its ± U."""
     r = ev.results
@@ -248,10 +242,12 @@ def result_lines(ev: Evaluation) -> list[Shown]:
         value = r.get(line.key)
         if value is None or isinstance(value, bool | list | dict):
             continue
-        text = reported(line.key, value) if _number(value) else str(value)
         u = (spreads or {}).get(line.key)
-        big_u = u.get("U") if isinstance(u, dict) else None
-        spread = _spread(line.key, big_u) if isinstance(big_u, int | float) else ""
+        # U to two significant figures, the value to the same place unless its rule is coarser
+        # (GUM 7.2.6, server/reports/formatting.with_u): the same text as the PDF's
+        shown_u = formatting.with_u(line.key, value, u.get("U") if isinstance(u, dict) else None)
+        text = shown_u.value if _number(value) else str(value)
+        spread = shown_u.u_text
         lines.append(Shown(line.label, text, line.unit, line.key, spread))
     if r.get("nonplastic") is True:
         lines.insert(0, Shown("Plasticity", "NP (non-plastic)", "", "nonplastic"))

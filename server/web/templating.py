@@ -1,12 +1,13 @@
 """The Jinja2 environment of the pages: autoescaped, with the few filters templates need.
 
-Templates never compute: numbers arrive computed by the engine, and the ``shown`` filter only
-applies the engine's own reporting rule for a result key.
+Templates never compute: numbers arrive computed by the engine, and the filters only format
+them (``shown`` applies the engine's own reporting rule for a result key, ``with_u`` adds the
+expanded uncertainty) or name an id (``method_name``, ``flag_name``, ``state_name``,
+``event_name``), through the modules the PDF uses too.
 """
 
 from __future__ import annotations
 
-from datetime import date, datetime
 from typing import Any
 
 from fastapi import Request
@@ -15,48 +16,45 @@ from starlette.responses import Response
 
 from server.auth.sessions import csrf_token, signed_in_user
 from server.config import ROOT
-from server.engine.readings import as_entered
-from server.engine.rounding import reported
+from server.reports import formatting, names
 from server.workflow.states import NEXT_STEP, Status
 
 templates = Jinja2Templates(directory=str(ROOT / "templates"))
+# Set before any template compiles: a negative number printed with a real minus sign, as in the PDF.
+templates.env.finalize = formatting.people
 
-STATUS_MARK = {
-    "requested": "○",
-    "draft": "✎",
-    "submitted": "⧗",
-    "returned": "↩",
-    "approved": "✔",
-    "superseded": "⊘",
-    "issued": "✔",
+STATUS_MARK = names.STATE_MARK  # the symbol drawn beside each state's name
+
+
+def _with_u(value: Any, key: str, u: Any, k: Any = None) -> str:
+    """``{{ value|with_u("water_content", U, k) }}``: "34.6 ± 1.2 (k = 2)" (GUM 7.2.6)."""
+    return str(formatting.with_u(key, value, u, k))
+
+
+def _plural(n: int, singular: str, plural_form: str | None = None) -> str:
+    """``{{ n|plural("day") }}``: "1 day", "4 days"."""
+    return names.plural(n, singular, plural_form)
+
+
+# Every value a page shows for people is formatted in server/reports/formatting.py and named
+# in server/reports/names.py, the same as in the PDF.
+templates.env.filters |= {
+    "shown": formatting.shown,
+    "entered": formatting.entered,
+    "when": formatting.when,
+    "with_u": _with_u,
+    "plural": _plural,
+    "method_name": names.method_name,
+    "flag_name": names.flag_name,
+    "state_name": names.state_name,
+    "state_mark": names.state_mark,
+    "severity_name": names.severity_name,
+    "severity_mark": names.severity_mark,
+    "event_name": names.event_name,
+    "role_name": names.role_name,
+    "with_article": names.with_article,
+    "typeset": formatting.typeset,
 }
-
-
-def _when(value: datetime | date | None) -> str:
-    if value is None:
-        return "—"
-    if isinstance(value, datetime):
-        return value.strftime("%Y-%m-%d %H:%M UTC")
-    return value.isoformat()
-
-
-def _shown(value: Any, key: str) -> str:
-    if isinstance(value, bool) or (value is not None and not isinstance(value, int | float)):
-        return str(value)
-    return reported(key, value)
-
-
-def _entered(value: Any) -> str:
-    """A stored reading as it was entered ("44.20" as typed); a placeholder (an absent value of
-    a comparison) as its own text."""
-    if value is None or isinstance(value, str | int | float | list | tuple):
-        return as_entered(value)
-    return str(value)
-
-
-templates.env.filters["shown"] = _shown
-templates.env.filters["entered"] = _entered
-templates.env.filters["when"] = _when
 templates.env.globals["STATUS_MARK"] = STATUS_MARK
 templates.env.globals["next_step"] = lambda status: NEXT_STEP[Status(status)]
 

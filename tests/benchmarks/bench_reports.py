@@ -47,7 +47,7 @@ from weasyprint import HTML  # noqa: E402
 from server.db.migrate import upgrade  # noqa: E402
 from server.db.session import Database  # noqa: E402
 from server.db.tables import Report, User  # noqa: E402
-from server.reports.context import content_fingerprint  # noqa: E402
+from server.reports.data import content_fingerprint  # noqa: E402
 from server.reports.pdf import TEMPLATES, render_report_html  # noqa: E402
 from server.services import bench, jobs, reports, review, samples  # noqa: E402
 from server.services.users import create_user  # noqa: E402

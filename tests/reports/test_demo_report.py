@@ -30,7 +30,7 @@ from server.db.tables import AuditEvent, Job, LabTest, Report, Sample, User
 from server.demo import LOGINS, SCHEDULE_JOB, SCHEDULE_RECEIVED, load_demo
 from server.demo_report import STRENGTHS
 from server.engine.rounding import reported
-from server.reports.context import DEFAULT_CAUTIONS
+from server.reports.data import DEFAULT_CAUTIONS
 from server.reports.pdf import render_report_pdf
 from server.services.reports import REPORT_MEANING, new_report_data
 
@@ -68,7 +68,8 @@ def demo(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Demo]:
             )
         }
     pages = [p.extract_text() or "" for p in PdfReader(BytesIO(report.pdf)).pages]
-    yield Demo(db, report, pages, " ".join(" ".join(pages).split()), results)
+    # a word hyphenated at a line end (U+2010, pyphen's patterns for lang="en") is read whole
+    yield Demo(db, report, pages, " ".join(" ".join(pages).replace("\u2010\n", "").split()), results)
     db.dispose()
 
 
@@ -232,3 +233,77 @@ def test_the_demo_has_a_job_started_from_an_imported_schedule_with_part_of_it_re
     assert len(rows) == 5  # the demo's own schedule has five samples
     assert sorted(x.code for x in rows if x.received_at) == sorted(SCHEDULE_RECEIVED)
     assert imported.entity_id == job.id and imported.after["created"]["samples"] == 5
+
+
+def _page_texts(pdf: bytes) -> list[str]:
+    """Each page's text by pdftotext (poppler), the reader a person's viewer is closest to."""
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "report.pdf"
+        path.write_bytes(pdf)
+        out = []
+        for n in range(1, len(PdfReader(BytesIO(pdf)).pages) + 1):
+            done = subprocess.run(
+                ["pdftotext", "-f", str(n), "-l", str(n), str(path), "-"],
+                check=True,
+                capture_output=True,
+                text=True,
+            )
+            out.append(done.stdout)
+    return out
+
+
+def test_the_cover_leads_with_the_signature_and_the_summary_and_no_page_is_empty(demo: Demo) -> None:
+    # S9 point 5: the authorising signature on page 1, the summary of results on page 2, the
+    # approvals of each test in one table after the opinion section, not in pages 1-3
+    pages = _page_texts(demo.report.pdf)
+    assert "Authorising signatory of this report" in pages[0]
+    assert "Summary of results" in pages[1] and "Values are rounded for reporting only" in pages[1]
+    assert not any("Approval of each test" in p for p in pages[:3])
+    approvals = next(i for i, p in enumerate(pages) if "Approval of each test" in p)
+    opinion = next(i for i, p in enumerate(pages) if "Opinion and interpretation" in p)
+    assert approvals >= opinion
+    for n, text in enumerate(pages, start=1):
+        body = [
+            line
+            for line in text.splitlines()
+            if line.strip()
+            and "Fellgate Soils Laboratory" not in line
+            and "Report SMW" not in line
+            and "page " not in line
+            and "fingerprint" not in line
+            and "Verify this report" not in line
+            and not re.fullmatch(r"[0-9a-f]{64}", line.strip())
+        ]
+        assert body, f"page {n} carries nothing but its header and footer"
+
+
+def test_prints_words_not_ids_and_uncertainty_as_a_metrologist_writes_it(demo: Demo) -> None:
+    # S9 points 3 and 4: method and flag names (server/reports/names.py), U to two significant
+    # figures (GUM, JCGM 100:2008, 7.2.6), never "± 0", never "-0.0" (common practice)
+    from server.engine import METHODS  # noqa: PLC0415 (the registry, only for this check)
+    from server.reports.names import FLAG_NAMES  # noqa: PLC0415
+
+    text = demo.flat
+    for method_id in METHODS:
+        assert f"({method_id})" not in text and f": {method_id};" not in text, method_id
+    raised = {f["code"] for f in _demo_flags(demo)}
+    for code in raised:
+        assert code not in text and FLAG_NAMES[code] in text, code
+    assert not re.search(r"± 0(\.0+)? ", text), "an uncertainty printed as zero"
+    assert not re.search(r"(?<![\w.])[-−]0\.0+\b", text), "a rounded zero printed with a sign"
+    assert "± " in text and "(k = 2)" in text and "JCGM 100:2008" in text
+
+
+def test_typesets_symbols_and_writes_cl_alone_with_its_reason(demo: Demo) -> None:
+    # S9 point 5: σ′v and exponents typeset, no "sigma'v", "PI^" or "CL, —"; the symbol alone
+    # with a note saying why no group name is given (ASTM D2487 names the soil from its grading)
+    text = demo.flat
+    assert "sigma'v" not in text and "^" not in text and "CL, —" not in text
+    assert "σ′" in text and "2.16 × 10" in text
+    assert "USCS group symbol CL alone" in text
+
+
+def _demo_flags(demo: Demo) -> list[dict[str, Any]]:
+    with demo.db.session() as s:
+        rows = s.exec(select(LabTest.flags).where(LabTest.status == "approved")).all()
+    return [f for flags in rows for f in flags or []]

@@ -11,6 +11,7 @@ beside each reading; what the report prints is that value rounded by the engine'
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 from io import BytesIO
 from typing import Any
@@ -22,8 +23,8 @@ from sqlmodel import select
 from server.db.session import Database
 from server.db.tables import Report, ReportAgs4, User
 from server.engine.rounding import reported
-from server.reports.context import build_view
 from server.reports.pdf import render_report_pdf
+from server.reports.view import build_view
 from server.services import jobs, reports
 from tests.conftest import PASSWORDS, People
 from tests.reports.issued import approve
@@ -190,7 +191,8 @@ def test_linear_shrinkage_prints_the_result_with_the_bars_condition(issued: Issu
     page = issued.page("Linear shrinkage")
     assert f"Linear shrinkage, LS {reported('linear_shrinkage', LS)} %" in page
     assert "Condition of the bar after drying cracked" in page
-    assert "shrinkage-bar-cracked" in page  # the engine's flag, as a quality remark
+    # the engine's flag as a quality remark, by its name (server/reports/names.py), not its code
+    assert "Shrinkage bar cracked" in page and "shrinkage-bar-cracked" not in page
 
 
 def test_density_prints_bulk_and_dry_density_void_ratio_porosity_and_saturation(issued: Issued) -> None:
@@ -294,3 +296,17 @@ def test_the_ags4_file_frozen_with_the_report_carries_the_new_groups(issued: Iss
     text = frozen.data.decode("ascii")
     for group in ("LPDN", "LLIN", "LDEN", "GCHM", "CMPG", "CMPT"):  # AGS4 dictionary 4.1.1 groups
         assert f'"GROUP","{group}"' in text
+
+
+def test_the_pdf_reads_in_words_with_no_zero_uncertainty_and_no_signed_zero(issued: Issued) -> None:
+    # S9 points 3-5, on both databases: method names not ids (server/reports/names.py), U to two
+    # significant figures (GUM, JCGM 100:2008, 7.2.6) so never "± 0", no "-0.0" (common practice)
+    text = " ".join(issued.pages)
+    for method_id in READINGS:
+        assert f"({method_id})" not in text and f": {method_id}" not in text
+    assert not re.search(r"± 0(\.0+)? ", text), "an uncertainty printed as zero"
+    assert not re.search(r"(?<![\w.])-0\.0+\b", text), "a rounded zero printed with a sign"
+    assert "Summary of results" in issued.pages[1] and "Approval of each test" not in " ".join(
+        issued.pages[:3]
+    )
+    assert all(page.strip() for page in issued.pages)

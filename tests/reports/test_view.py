@@ -10,22 +10,21 @@ from typing import Any
 
 import pytest
 
-from server.reports.context import (
+from server.reports.data import (
     DEFAULT_CAUTIONS,
     LabInfo,
     ReportData,
     RevisionNote,
     Signatory,
     TestEntry,
-    build_view,
     canonical_json,
     content_fingerprint,
-    grading_points,
-    moment,
-    readings_tables,
-    result_lines,
-    summary_row,
 )
+from server.reports.figures import grading_points
+from server.reports.formatting import MINUS, moment
+from server.reports.quantities import readings_tables, result_lines
+from server.reports.summary import summary_row
+from server.reports.view import build_view
 
 
 def entry(
@@ -146,12 +145,13 @@ def test_keeps_interpretation_out_of_the_measured_results() -> None:
     assert all("ompression" not in line.label for line in result_lines(t.results))
     view = build_view(report(t))
     (e,) = view.interpretation
-    assert (e.quantity, e.value, e.source, e.sample) == (
+    assert (e.quantity, e.value, e.source.unescape(), e.sample) == (
         "Compression index",
         "0.27",
         "Terzaghi & Peck (1967)",
         "BH1 / S1",
     )
+    assert e.note == f"C<sub>c</sub> = 0.009 (LL {MINUS} 10)"  # typeset: subscript and a real minus
 
 
 def test_puts_each_rows_water_content_beside_its_readings() -> None:
@@ -198,7 +198,7 @@ def test_puts_each_rows_water_content_beside_its_readings() -> None:
     assert table.rows[0] == ("1", "C-1", "15.7, 15.9", "20.1", "45.0", "36.89", "48.3")
     assert table.rows[1][-1] == "52.1"  # to 0.1 % (ASTM D2216 Method B)
     assert [(o.label, o.value) for o in others] == [
-        ("Liquid limit — method", "ll-cone"),
+        ("Liquid limit — method", "Liquid limit, fall cone"),  # its name, not the id
         ("Liquid limit — cone", "80g-30deg"),
     ]
 
@@ -228,7 +228,9 @@ def test_shows_expanded_uncertainty_with_its_coverage_factor() -> None:
     lines = result_lines(
         {"water_content": 32.946, "uncertainty": {"water_content": {"u": 0.03, "U": 0.06, "k": 2.0}}}
     )
-    assert lines[0].uncertainty == "± 0.1 (k = 2)"  # JCGM 100:2008 cl. 6.3.3, shown to w's 0.1 %
+    # JCGM 100:2008 cl. 6.3.3 (U = k u) and 7.2.6 (U to two significant figures): 0.060; w keeps its
+    # reporting rule's 0.1 % (ASTM D2216), coarser than U, and says so
+    assert (lines[0].value, lines[0].uncertainty, lines[0].coarser) == ("32.9", "± 0.060 (k = 2)", True)
 
 
 def test_plots_plastic_samples_only_and_names_repeated_codes_by_location() -> None:
