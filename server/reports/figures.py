@@ -13,7 +13,6 @@ from dataclasses import dataclass
 from typing import Any
 
 from server.engine.plasticity_chart import chart_symbol
-from server.engine.readings import as_number
 from server.reports.charts import (
     ProfileRow,
     Series,
@@ -24,7 +23,8 @@ from server.reports.charts import (
     xy_chart,
 )
 from server.reports.data import TestEntry
-from server.reports.formatting import finite, number, show, typed
+from server.reports.formatting import finite, number, show
+from server.reports.quantities import particle_density_used
 from server.reports.summary import merge, nonplastic, rank
 
 
@@ -158,11 +158,11 @@ def _compaction_curve(results: Mapping[str, Any], readings: Mapping[str, Any]) -
         )
     else:
         caption += " No maximum is marked: the highest point is the driest or the wettest."
-    rho_s = readings.get("particle_density_mg_m3")
-    if lines and as_number(rho_s) is not None:
+    rho_s = particle_density_used(results)
+    if lines and rho_s is not None:
         caption += (
             f" Air-voids lines at {', '.join(f'{va} %' for va in lines)} for a particle density of"
-            f" {typed(rho_s)} Mg/m³ (as entered) and ρw = 1.00 Mg/m³."
+            f" {rho_s[0]} Mg/m³ ({rho_s[1]}) and ρw = 1.00 Mg/m³."
         )
     return svg, caption
 

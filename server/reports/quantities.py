@@ -304,3 +304,48 @@ def readings_tables(
 
     walk(readings, ())
     return tuple(tables), tuple(others)
+
+
+def linked_notes(results: Mapping[str, Any]) -> list[str]:
+    """A sentence for each value a test took from another test of its sample or from its job's
+    family of standards (``services.linked_inputs``), so the report says where it came from."""
+    notes = []
+    for path, source in (results.get("linked_inputs") or {}).items():
+        if not isinstance(source, Mapping):
+            continue
+        field = humanise(str(path).rpartition(".")[2].replace("_mg_m3", ""))
+        if "test_id" in source:
+            notes.append(
+                f"{field.capitalize()} {typed(source.get('value'))} is taken from the "
+                f"{method_name(str(source.get('method')))} test (test {source['test_id']}) "
+                "of the same sample."
+            )
+        else:
+            notes.append(
+                f"{field.capitalize()}: {typed(source.get('value'))}, as the job's standards "
+                f"({typed(source.get('standards'))}) ask."
+            )
+    return notes
+
+
+def particle_density_used(results: Mapping[str, Any]) -> tuple[str, str] | None:
+    """The particle density a density or compaction test computed with, as text, and where it
+    came from ("as entered", or the particle-density test that gave it); None without one."""
+    value = results.get("particle_density_used_mg_m3")
+    if not finite(value):
+        return None
+    source = (results.get("linked_inputs") or {}).get("particle_density_mg_m3")
+    where = (
+        f"from test {source['test_id']}"
+        if isinstance(source, Mapping) and "test_id" in source
+        else "as entered"
+    )
+    return show("particle_density_mg_m3", value), where
+
+
+def plasticity_basis_note(results: Mapping[str, Any]) -> str | None:
+    """The plasticity descriptor's table and its rule at shared end points, as the engine states them."""
+    basis = results.get("plasticity_basis")
+    if not isinstance(basis, Mapping) or not basis.get("table"):
+        return None
+    return f"Plasticity descriptor: {basis['table']}; {basis.get('end_points', '')}".rstrip("; ")

@@ -12,7 +12,6 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 
-from server.engine.readings import as_number
 from server.reports.charts import activity_chart_svg, plasticity_chart_svg
 from server.reports.data import MethodNote, ReportData, RevisionNote, TestEntry
 from server.reports.figures import (
@@ -27,7 +26,16 @@ from server.reports.figures import (
 )
 from server.reports.formatting import DASH, depth, finite, humanise, moment, show, typed, typeset
 from server.reports.names import flag_name, method_name
-from server.reports.quantities import ResultLine, Table, readings_tables, result_lines, uscs_note
+from server.reports.quantities import (
+    ResultLine,
+    Table,
+    linked_notes,
+    particle_density_used,
+    plasticity_basis_note,
+    readings_tables,
+    result_lines,
+    uscs_note,
+)
 from server.reports.summary import SummaryRow, by_sample, sample_key, summary_row
 
 
@@ -169,7 +177,7 @@ def _method_details(t: TestEntry) -> tuple[tuple[ResultLine, ...], tuple[str, ..
     r, rd = t.results, t.readings
     lines: list[ResultLine] = []
     notes: list[str] = []
-    rho_s = rd.get("particle_density_mg_m3")
+    rho_s = particle_density_used(r)
     if t.method == "linear-shrinkage" and rd.get("condition"):
         lines.append(ResultLine("Condition of the bar after drying", typed(rd.get("condition"))))
         notes.append(
@@ -190,11 +198,11 @@ def _method_details(t: TestEntry) -> tuple[tuple[ResultLine, ...], tuple[str, ..
             "referred to water at 20 °C (ASTM D854-14)."
         )
     elif t.method == "density":
-        if as_number(rho_s) is not None:
-            lines.append(ResultLine("Particle density used (as entered)", typed(rho_s), "Mg/m³"))
+        if rho_s is not None:
+            lines.append(ResultLine(f"Particle density used ({rho_s[1]})", rho_s[0], "Mg/m³"))
             notes.append(
                 "Bulk density is the mean of the specimens' densities. Void ratio, porosity (as a "
-                "fraction) and degree of saturation are from the particle density as entered, "
+                f"fraction) and degree of saturation are from the particle density {rho_s[1]}, "
                 "with ρw = 1.00 Mg/m³."
             )
         else:
@@ -211,6 +219,8 @@ def _method_details(t: TestEntry) -> tuple[tuple[ResultLine, ...], tuple[str, ..
                 "No maximum dry density or optimum water content is given: the points do not "
                 "bracket a peak (see the quality remarks)."
             )
+    basis = plasticity_basis_note(r)
+    notes += [*linked_notes(r), *([basis] if basis else [])]
     return tuple(lines), tuple(notes)
 
 

@@ -204,7 +204,7 @@ def test_density_prints_bulk_and_dry_density_void_ratio_porosity_and_saturation(
         f"Void ratio, e {reported('void_ratio', E)}",
         f"Porosity, n (fraction) {reported('porosity', N)}",
         f"Degree of saturation, Sr {reported('degree_of_saturation', S_R)} %",
-        "Particle density used (as entered) 2.7 Mg/m³",  # JSON 2.70 reads back as 2.7 (as_entered)
+        "Particle density used (as entered) 2.70 Mg/m³",  # by its rule, 0.01 Mg/m³ (engine/rounding.py)
         "ρw = 1.00 Mg/m³",
     ):
         assert text in page, text
@@ -255,7 +255,8 @@ def test_the_compaction_chart_draws_points_the_curve_through_the_peak_and_the_ai
     assert svg.count('class="air-voids"') == 3  # 0, 5 and 10 % (BS 1377-4:1990 Figure 6, common practice)
     assert svg.count('class="compaction-curve"') == 1 and 'class="maximum-marker"' in svg
     assert svg.count("<circle") == len(MOULD_SOIL)  # one marker per point
-    assert "parabola" in section.curve_caption and "2.7 Mg/m³ (as entered)" in section.curve_caption
+    assert "parabola" in section.curve_caption
+    assert "2.70 Mg/m³ (as entered)" in section.curve_caption  # 0.01 Mg/m³ (rounding.py)
 
 
 def test_the_classification_prints_the_organic_content_beside_the_liquid_limit_ratio(issued: Issued) -> None:

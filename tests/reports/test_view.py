@@ -24,7 +24,7 @@ from server.reports.figures import grading_points
 from server.reports.formatting import MINUS, moment
 from server.reports.quantities import readings_tables, result_lines
 from server.reports.summary import summary_row
-from server.reports.view import build_view
+from server.reports.view import TestSection, build_view, section_for
 
 
 def entry(
@@ -383,3 +383,44 @@ def test_lists_each_tests_approval_and_each_amendment_with_its_reason() -> None:
     (change,) = view.amendments
     assert (change.revision, change.reason) == (2, "Tin re-weighed")
     assert view.history[0].revision == 1 and view.sections[0].approval.startswith("Marta Quill, Reviewer")
+
+
+def _section(
+    method: str, results: dict[str, object], readings: dict[str, object] | None = None
+) -> TestSection:
+    made = TestEntry("S1", "BH1", 1.0, 1.5, "U100", "Firm CLAY", method, results, readings or {})
+    return section_for(0, made)
+
+
+def test_a_linked_particle_density_is_named_on_the_density_page() -> None:
+    # The engine's own keys (server/engine/phase_relations.py, services/linked_inputs.py).
+    results = {
+        "bulk_density_mg_m3": 1.98,
+        "dry_density_mg_m3": 1.65,
+        "void_ratio": 0.62,
+        "particle_density_used_mg_m3": 2.668,
+        "linked_inputs": {
+            "particle_density_mg_m3": {
+                "value": 2.668,
+                "test_id": 12,
+                "method": "particle-density",
+                "status": "approved",
+            }
+        },
+    }
+    section = _section("density", results)
+    assert any(line.label == "Particle density used (from test 12)" for line in section.results)
+    assert any("is taken from the" in n and "(test 12) of the same sample" in n for n in section.notes)
+    assert not any("No particle density" in n for n in section.notes)
+
+
+def test_the_plasticity_descriptor_states_its_table_and_end_point_rule() -> None:
+    basis = {
+        "table": "Burmister (1949), plasticity by PI",
+        "end_points": "a shared end point takes the lower class",
+    }
+    section = _section("atterberg", {"plasticity_index": 10.0, "plasticity_basis": basis})
+    assert (
+        "Plasticity descriptor: Burmister (1949), plasticity by PI; a shared end point takes the lower class"
+        in (section.notes)
+    )
