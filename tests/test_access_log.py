@@ -106,7 +106,7 @@ def test_the_served_access_log_never_holds_a_share_token(db: Database, people: P
         access["client-3"]["path"] == "/api/v1/jobs?access_token=…" and access["client-3"]["method"] == "GET"
     )
     assert any(
-        line["logger"] == "uvicorn.error" and "Uvicorn running on" in line["message"] for line in lines
+        line["logger"] == "uvicorn.error" and "startup complete" in line["message"] for line in lines
     )
     assert "INFO:     " not in log  # uvicorn's own text format is not used
     share_200 = [

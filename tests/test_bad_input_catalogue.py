@@ -45,7 +45,7 @@ from tests.support.scenario import NATURAL, small_job
 
 CHANGING_COLUMNS = {"user_session": {"last_seen_at"}, "api_token": {"last_used_at"}}
 LOGS = {"api_token_use"}
-_FIELD_ERROR = re.compile(r'class="field-error"(?: id="([^"]*)")?>(.*?)</(?:span|td|li)>', re.S)
+_FIELD_ERROR = re.compile(r'class="field-error"(?: id="([^"]*)")?[^>]*>(.*?)</(?:span|td|li|p|div)>', re.S)
 
 
 def snapshot(db: Database, *, staged_too: bool) -> dict[str, list[tuple[Any, ...]]]:
