@@ -15,7 +15,6 @@ from tests.support.http import post_form, sign_in
 from tests.support.scenario import small_job
 from tests.workflow.flows import STANDS
 
-TODAY = registers.today()
 
 
 def test_a_tin_picked_by_its_code_answers_its_tare(
@@ -44,7 +43,7 @@ def test_an_unknown_tin_answers_404_with_a_message(app_client: TestClient, db: D
 def test_equipment_picked_by_its_code_answers_its_calibration_state(
     app_client: TestClient, db: Database, people: People
 ) -> None:
-    registers.add_equipment(db, people.admin, "BAL-02", "balance", "bench 2", TODAY - timedelta(days=3))
+    registers.add_equipment(db, people.admin, "BAL-02", "balance", "bench 2", registers.today() - timedelta(days=3))
     sign_in(app_client, "tech", PASSWORDS["tech"])
     reply = app_client.get("/registers/equipment/bal-02")
     assert reply.status_code == 200
@@ -55,7 +54,7 @@ def test_equipment_picked_by_its_code_answers_its_calibration_state(
         "state": "past due",  # 3 days after the due date (server/engine/equipment.py rule)
         "days_left": -3,
     }
-    assert body["calibration_due"] == (TODAY - timedelta(days=3)).isoformat()
+    assert body["calibration_due"] == (registers.today() - timedelta(days=3)).isoformat()
     assert body["reading"] == {"id": "BAL-02", "calibration_due": body["calibration_due"]}
     fragment = app_client.get("/registers/equipment/BAL-02", headers={"HX-Request": "true"})
     assert "✖ past due" in fragment.text and "3 day(s) past" in fragment.text  # symbol and words
@@ -64,7 +63,7 @@ def test_equipment_picked_by_its_code_answers_its_calibration_state(
 def test_the_equipment_picker_lists_only_instruments_of_the_kind_in_service(
     app_client: TestClient, db: Database, people: People
 ) -> None:
-    due = TODAY + timedelta(days=90)
+    due = registers.today() + timedelta(days=90)
     registers.add_equipment(db, people.admin, "BAL-01", "balance", "", due)
     retired = registers.add_equipment(db, people.admin, "BAL-03", "balance", "", due)
     registers.set_equipment_active(db, people.admin, retired.id or 0, False)
@@ -121,7 +120,7 @@ def test_an_admin_reweighs_and_retires_a_tin(app_client: TestClient, db: Databas
 def test_an_admin_adds_equipment_and_sees_its_calibration_state(app_client: TestClient, db: Database) -> None:
     sign_in(app_client, "admin", PASSWORDS["admin"])
     path = "/registers/admin/equipment"
-    due = (TODAY + timedelta(days=10)).isoformat()
+    due = (registers.today() + timedelta(days=10)).isoformat()
     reply = post_form(
         app_client,
         path,
