@@ -16,7 +16,6 @@ from tests.support.scenario import small_job
 from tests.workflow.flows import STANDS
 
 
-
 def test_a_tin_picked_by_its_code_answers_its_tare(
     app_client: TestClient, db: Database, people: People
 ) -> None:
@@ -43,7 +42,8 @@ def test_an_unknown_tin_answers_404_with_a_message(app_client: TestClient, db: D
 def test_equipment_picked_by_its_code_answers_its_calibration_state(
     app_client: TestClient, db: Database, people: People
 ) -> None:
-    registers.add_equipment(db, people.admin, "BAL-02", "balance", "bench 2", registers.today() - timedelta(days=3))
+    due = registers.today() - timedelta(days=3)
+    registers.add_equipment(db, people.admin, "BAL-02", "balance", "bench 2", due)
     sign_in(app_client, "tech", PASSWORDS["tech"])
     reply = app_client.get("/registers/equipment/bal-02")
     assert reply.status_code == 200
