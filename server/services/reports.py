@@ -77,11 +77,13 @@ def _iso(when: datetime | None) -> str:
     return "" if when is None else when.replace(microsecond=0).isoformat()
 
 
-def _entry(row: TestRow, people: dict[int, User]) -> TestEntry:
+def test_entry(row: TestRow, people: dict[int, User] | None = None) -> TestEntry:
+    """A test as a report carries it; with ``people`` (approvers by id), its approval too (the
+    review page shows a test as its report page would, before anyone has signed it)."""
     t = row.test
     method = METHODS.get(t.method)
     approval = None
-    if t.approved_by_id is not None and t.approved_at is not None:
+    if people is not None and t.approved_by_id is not None and t.approved_at is not None:
         signer = people.get(t.approved_by_id)
         approval = Signatory(
             signer.full_name if signer else f"user {t.approved_by_id}",
@@ -174,7 +176,7 @@ def report_data(
     lab = session.exec(select(Laboratory)).first() or Laboratory(name="Laboratory")
     client = session.get(Client, job.client_id)
     people = users_by_id(session, [r.test.approved_by_id for r in rows])
-    tests = [_entry(r, people) for r in rows]
+    tests = [test_entry(r, people) for r in rows]
     return ReportData(
         lab=LabInfo(lab.name, lab.address, lab.accreditation),
         client_name=client.name if client else "",

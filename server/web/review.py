@@ -22,13 +22,11 @@ from server.auth.sessions import csrf_protect, database, require_roles, require_
 from server.db import audit_queries, review_queries
 from server.db.queries import TestRow, test_rows, users_by_id
 from server.db.tables import Job, LabTest, User, utcnow
-from server.engine import METHODS
 from server.engine.contract import Evaluation
 from server.reports import charts
-from server.reports.data import TestEntry
 from server.reports.names import method_name, plural, state_name
 from server.reports.view import TestSection, section_for
-from server.services import amendments, bench, review
+from server.services import amendments, bench, reports, review
 from server.services.errors import Invalid, ServiceError, http_status, invalid
 from server.web.jobs import page_number
 from server.web.params import Count, FormVersion, IdPath, PageRoute, lenient_number
@@ -264,22 +262,7 @@ def load_row(request: Request, test_id: int) -> TestRow:
 def as_reported(row: TestRow) -> TestSection:
     """The test as its page of the certified report prints it: the results named, with units
     and rounding, the method's notes, the readings as tables with each water content."""
-    test, sample = row.test, row.sample
-    method = METHODS.get(test.method)
-    entry = TestEntry(
-        sample_code=sample.code,
-        location_code=row.location.code,
-        depth_from_m=sample.depth_from_m,
-        depth_to_m=sample.depth_to_m,
-        sample_type=sample.sample_type,
-        description=sample.description,
-        method=test.method,
-        method_title=method.title if method else test.method,
-        results=test.results or {},
-        readings=test.readings or {},
-        flags=test.flags or [],
-        revision=test.revision,
-    )
+    entry = reports.test_entry(row)
     return section_for(0, entry)
 
 
